@@ -1,0 +1,87 @@
+// SPDX-License-Identifier: Apache-2.0
+// The measurement file: everything a reconstruction needs in one HDF5 file.
+//
+// Layout (HDF5):
+//   /                        attrs research_use_only = 1, producer, modality ("mri"|"ct"),
+//                            image_shape int64[2] (ny, nx), pixel_spacing_mm float64[2]
+//   /mri/kspace              complex64 [coils, ny, nx]; zero where not sampled
+//   /mri/mask                uint8 [ny, nx]; 1 = sampled
+//   /mri/coil_maps           complex64 [coils, ny, nx]
+//   /mri                     attrs noise_sigma (std of the real and of the imaginary
+//                            part of each k-space sample), pattern, acceleration,
+//                            coil_maps_source, plus numbers/texts
+//   /mri/spoke_angles_rad    float64 [spokes] (radial patterns only)
+//   /ct/sinogram             float32 [views, detectors]; line integrals (dimensionless:
+//                            mu [1/mm] x path length [mm])
+//   /ct/angles_rad           float64 [views]
+//   /ct                      attrs geometry ("parallel"|"fan"), detector_shape
+//                            ("flat"|"equiangular"), detector_count, detector_spacing_mm
+//                            (fan equiangular: arc length at the detector), detector_offset_mm,
+//                            source_to_isocenter_mm, source_to_detector_mm,
+//                            photons_per_ray (0: noiseless), electronic_sigma, mu_per_mm,
+//                            plus numbers/texts
+//   /truth/image             float32 or complex64 [ny, nx] (when known)
+//   /truth                   attr kind ("analytic"|"discrete")
+//   /provenance              attrs producer, command, created_utc, extra entries
+#pragma once
+
+#include <map>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "recofold/core/provenance.h"
+#include "recofold/core/types.h"
+
+namespace recofold {
+
+struct MriData {
+  NdArray<cfloat> kspace;     // [coils, ny, nx]
+  NdArray<uint8_t> mask;      // [ny, nx]
+  NdArray<cfloat> coil_maps;  // [coils, ny, nx]
+  double noise_sigma = 0.0;   // per real and per imaginary part
+  std::string pattern;        // mask pattern name, "file" or "full"
+  double acceleration = 1.0;  // achieved R = ny*nx / samples
+  std::string coil_maps_source = "synthetic";  // "synthetic" | "estimated"
+  std::vector<double> spoke_angles_rad;        // radial patterns only
+  std::map<std::string, double> numbers;
+  std::map<std::string, std::string> texts;
+};
+
+struct CtData {
+  NdArray<float> sinogram;  // [views, detectors]
+  std::vector<double> angles_rad;
+  std::string geometry = "parallel";   // "parallel" | "fan"
+  std::string detector_shape = "flat";  // fan only: "flat" | "equiangular"
+  int64_t detector_count = 0;
+  double detector_spacing_mm = 1.0;
+  double detector_offset_mm = 0.0;
+  double source_to_isocenter_mm = 0.0;  // fan only
+  double source_to_detector_mm = 0.0;   // fan only
+  double photons_per_ray = 0.0;         // 0: noiseless
+  double electronic_sigma = 0.0;
+  double mu_per_mm = 1.0;  // attenuation per unit phantom intensity
+  std::map<std::string, double> numbers;
+  std::map<std::string, std::string> texts;
+};
+
+struct Measurement {
+  std::string modality;  // "mri" | "ct"
+  Index ny = 0, nx = 0;  // reconstruction grid
+  double pixel_spacing_mm[2] = {1.0, 1.0};
+  std::optional<MriData> mri;
+  std::optional<CtData> ct;
+  std::optional<NdArray<cfloat>> truth;  // [ny, nx]
+  bool truth_is_complex = false;
+  std::string truth_kind;  // "analytic" | "discrete"
+  Provenance provenance;
+};
+
+// Writes atomically; throws WorkError on I/O failure.
+void write_measurement_file(const std::string& path, const Measurement& m);
+// Reads and validates every field against the layout above (shapes agree with
+// image_shape and with each other, values finite, mask 0/1); InputError names
+// the file and dataset.
+Measurement read_measurement_file(const std::string& path);
+
+}  // namespace recofold

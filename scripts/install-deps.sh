@@ -1,0 +1,38 @@
+#!/usr/bin/env bash
+# SPDX-License-Identifier: Apache-2.0
+# Installs every Debian 12 package recofold needs to build, run and test.
+# Safe to run again: apt-get skips what is already there. Needs root.
+set -euo pipefail
+
+PACKAGES=(
+  # toolchain
+  build-essential cmake pkg-config ccache git
+  # libraries of the design card
+  libfftw3-dev libeigen3-dev libinsighttoolkit5-dev libcli11-dev
+  libhdf5-dev libgtest-dev libtomlplusplus-dev
+  # learning (src/learn only)
+  libtorch-dev
+  # independent reference checks (tests/reference), run with /usr/bin/python3
+  python3 python3-numpy python3-scipy python3-skimage python3-pywt
+  python3-h5py python3-nibabel python3-torch
+)
+
+missing=()
+for p in "${PACKAGES[@]}"; do
+  if ! dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed"; then
+    missing+=("$p")
+  fi
+done
+
+if [ ${#missing[@]} -eq 0 ]; then
+  echo "install-deps: all ${#PACKAGES[@]} packages present"
+  exit 0
+fi
+
+SUDO=""
+if [ "$(id -u)" -ne 0 ]; then SUDO="sudo"; fi
+echo "install-deps: installing ${#missing[@]} packages: ${missing[*]}"
+export DEBIAN_FRONTEND=noninteractive
+$SUDO apt-get update -q
+$SUDO apt-get install -y -q --no-install-recommends "${missing[@]}"
+echo "install-deps: done"
