@@ -1,0 +1,58 @@
+// SPDX-License-Identifier: Apache-2.0
+// Measurement record: everything a reconstruction needs (file layout in io/measurement_file.h).
+#pragma once
+
+#include <map>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "recofold/core/provenance.h"
+#include "recofold/core/types.h"
+
+namespace recofold {
+
+struct MriData {
+  NdArray<cfloat> kspace;     // [coils, ny, nx]
+  NdArray<uint8_t> mask;      // [ny, nx]
+  NdArray<cfloat> coil_maps;  // [coils, ny, nx]
+  double noise_sigma = 0.0;   // per real and per imaginary part
+  std::string pattern;        // mask pattern name, "file" or "full"
+  double acceleration = 1.0;  // achieved R = ny*nx / samples
+  std::string coil_maps_source = "synthetic";  // "synthetic" | "estimated"
+  std::vector<double> spoke_angles_rad;        // radial patterns only
+  std::map<std::string, double> numbers;
+  std::map<std::string, std::string> texts;
+};
+
+struct CtData {
+  NdArray<float> sinogram;  // [views, detectors]
+  std::vector<double> angles_rad;
+  std::string geometry = "parallel";   // "parallel" | "fan"
+  std::string detector_shape = "flat";  // fan only: "flat" | "equiangular"
+  int64_t detector_count = 0;
+  double detector_spacing_mm = 1.0;
+  double detector_offset_mm = 0.0;
+  double source_to_isocenter_mm = 0.0;  // fan only
+  double source_to_detector_mm = 0.0;   // fan only
+  double photons_per_ray = 0.0;         // 0: noiseless
+  double electronic_sigma = 0.0;
+  double mu_per_mm = 1.0;  // attenuation per unit phantom intensity
+  std::map<std::string, double> numbers;
+  std::map<std::string, std::string> texts;
+};
+
+struct Measurement {
+  std::string modality;  // "mri" | "ct"
+  Index ny = 0, nx = 0;  // reconstruction grid
+  double pixel_spacing_mm[2] = {1.0, 1.0};
+  std::optional<MriData> mri;
+  std::optional<CtData> ct;
+  std::optional<NdArray<cfloat>> truth;  // [ny, nx]
+  bool truth_is_complex = false;
+  std::string truth_kind;  // "analytic" | "discrete"
+  Provenance provenance;
+};
+
+
+}  // namespace recofold
