@@ -38,6 +38,7 @@ class H5Writer {
   void write_attr(const std::string& object, const std::string& name, int64_t v);
   void write_attr(const std::string& object, const std::string& name, const std::string& v);
   void write_attr(const std::string& object, const std::string& name, const std::vector<double>& v);
+  void write_attr(const std::string& object, const std::string& name, const std::vector<int64_t>& v);
 
   // Closes the file and renames it onto the target.
   void commit();

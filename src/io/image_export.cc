@@ -1,0 +1,190 @@
+// SPDX-License-Identifier: Apache-2.0
+// Image export/import (ITK itself is behind itk_bridge.h), PNG windowing, format dispatch.
+#include "recofold/io/image_export.h"
+
+#include <unistd.h>
+
+#include <algorithm>
+#include <atomic>
+#include <cerrno>
+#include <cmath>
+#include <cstdio>
+#include <cstring>
+#include <limits>
+
+#include "itk_bridge.h"
+#include "recofold/core/atomic_file.h"
+#include "recofold/core/checks.h"
+#include "recofold/core/error.h"
+#include "recofold/io/image_file.h"
+
+namespace recofold {
+
+namespace {
+
+std::atomic<unsigned> g_temp_counter{0};
+
+// A temporary path beside the target that keeps the target's extension (ITK
+// picks compression and header layout from the name), renamed on commit and
+// removed otherwise.
+class TempSibling {
+ public:
+  explicit TempSibling(const std::string& target) : target_(target) {
+    const auto slash = target.find_last_of('/');
+    const std::string dir = slash == std::string::npos ? "" : target.substr(0, slash + 1);
+    const std::string base = slash == std::string::npos ? target : target.substr(slash + 1);
+    temp_ = dir + ".tmp-" + std::to_string(::getpid()) + "-" + std::to_string(g_temp_counter++) + "-" + base;
+  }
+  ~TempSibling() {
+    if (!committed_) std::remove(temp_.c_str());
+  }
+  TempSibling(const TempSibling&) = delete;
+  TempSibling& operator=(const TempSibling&) = delete;
+  const std::string& path() const { return temp_; }
+  void commit() {
+    if (std::rename(temp_.c_str(), target_.c_str()) != 0)
+      throw WorkError("cannot move finished output into place at " + target_ + ": " + std::strerror(errno));
+    committed_ = true;
+  }
+
+ private:
+  std::string target_, temp_;
+  bool committed_ = false;
+};
+
+float real_value(const ImageRecord& rec, size_t i) {
+  const cfloat z = rec.pixels.data[i];
+  return rec.is_complex ? std::abs(z) : z.real();
+}
+
+}  // namespace
+
+std::vector<std::string> PngWindow::validate() const {
+  std::vector<std::string> errors;
+  if (bits != 8 && bits != 16) errors.push_back("png.bits = " + std::to_string(bits) + "; must be 8 or 16");
+  if (!auto_window) {
+    if (!std::isfinite(lo) || !std::isfinite(hi))
+      errors.push_back("png.lo/hi = " + std::to_string(lo) + "/" + std::to_string(hi) + "; must be finite");
+    else if (!(hi > lo))
+      errors.push_back("png.hi = " + std::to_string(hi) + "; must be > png.lo = " + std::to_string(lo));
+  }
+  return errors;
+}
+
+void write_png(const std::string& path, const ImageF& img, const PngWindow& w) {
+  const auto errors = w.validate();
+  if (!errors.empty()) {
+    std::string msg;
+    for (const auto& e : errors) msg += (msg.empty() ? "" : "; ") + e;
+    throw InputError(path, "png window", msg);
+  }
+  if (img.size() == 0) throw WorkError("cannot write " + path + ": the image is empty");
+  double lo = w.lo, hi = w.hi;
+  if (w.auto_window) {
+    lo = std::numeric_limits<double>::infinity();
+    hi = -lo;
+    const float* d = img.data();
+    for (Index i = 0; i < img.size(); ++i) {
+      if (!std::isfinite(d[i])) continue;
+      lo = std::min(lo, static_cast<double>(d[i]));
+      hi = std::max(hi, static_cast<double>(d[i]));
+    }
+    if (!(hi > lo)) hi = lo;  // constant (or all non-finite): black
+  }
+  const double top = w.bits == 16 ? 65535.0 : 255.0;
+  const double scale = hi > lo ? top / (hi - lo) : 0.0;
+  std::vector<uint16_t> levels(static_cast<size_t>(img.size()));
+  const float* in = img.data();
+  for (Index i = 0; i < img.size(); ++i) {
+    double v = (static_cast<double>(in[i]) - lo) * scale;
+    if (!(v >= 0)) v = 0;  // also NaN: black
+    if (v > top) v = top;
+    levels[static_cast<size_t>(i)] = static_cast<uint16_t>(std::lround(v));
+  }
+  TempSibling temp(path);
+  internal::itk_write_png(temp.path(), path, static_cast<size_t>(img.cols()), static_cast<size_t>(img.rows()),
+                          levels, w.bits);
+  temp.commit();
+}
+
+void export_image(const std::string& path, const ImageRecord& rec) {
+  const std::string ext = file_extension(path);
+  if (ext == ".png" || !internal::itk_handles(ext))
+    throw InputError(path, "", "unsupported extension '" + ext + "' for export (expected .nii.gz, .nii, .mha, .nrrd)");
+  const Shape& s = rec.pixels.shape;
+  if (s.rank() < 2 || s.rank() > 3 || s.size() == 0 || rec.pixels.size() != s.size())
+    throw WorkError("cannot write " + path + ": image shape " + s.to_string() + " is not [ny, nx] or [count, ny, nx]");
+  internal::PlainImage p;
+  p.size = {static_cast<size_t>(s[s.rank() - 1]), static_cast<size_t>(s[s.rank() - 2])};
+  p.spacing = {rec.pixel_spacing_mm[1], rec.pixel_spacing_mm[0]};
+  if (s.rank() == 3) {
+    p.size.push_back(static_cast<size_t>(s[0]));
+    p.spacing.push_back(1.0);
+  }
+  p.values.resize(rec.pixels.data.size());
+  for (size_t i = 0; i < p.values.size(); ++i) p.values[i] = real_value(rec, i);
+  TempSibling temp(path);
+  internal::itk_write_float(temp.path(), path, ext, p);
+  temp.commit();
+}
+
+ImageRecord import_image(const std::string& path) {
+  const std::string ext = file_extension(path);
+  if (!internal::itk_handles(ext))
+    throw InputError(path, "", "unsupported extension '" + ext + "' (expected .h5, .nii.gz, .nii, .mha, .nrrd, .png)");
+  if (!file_exists(path)) throw InputError(path, "", "file not found");
+  const internal::PlainImage p = internal::itk_read(path, ext);
+  ImageRecord rec;
+  const Index nx = static_cast<Index>(p.size[0]), ny = static_cast<Index>(p.size[1]);
+  rec.pixels = NdArray<cfloat>(p.size.size() == 3 ? Shape{static_cast<Index>(p.size[2]), ny, nx} : Shape{ny, nx});
+  for (size_t i = 0; i < rec.pixels.data.size(); ++i) rec.pixels.data[i] = cfloat(p.values[i], 0.f);
+  require_finite(rec.pixels.ptr(), rec.pixels.size(), path, "pixels");
+  rec.is_complex = false;
+  rec.pixel_spacing_mm[0] = p.spacing[1] > 0 ? p.spacing[1] : 1.0;
+  rec.pixel_spacing_mm[1] = p.spacing[0] > 0 ? p.spacing[0] : 1.0;
+  rec.description = "imported from " + path;
+  return rec;
+}
+
+bool is_image_extension(const std::string& ext) { return ext == ".h5" || internal::itk_handles(ext); }
+
+ImageF image_slice(const ImageRecord& rec, Index index, const std::string& file) {
+  const Shape& s = rec.pixels.shape;
+  if (s.rank() < 2 || s.rank() > 3) throw InputError(file, "/image", "shape " + s.to_string() + " is not an image");
+  const Index count = s.rank() == 3 ? s[0] : 1;
+  if (index < 0 || index >= count)
+    throw InputError(file, "--index", "index " + std::to_string(index) + " is out of range; the file holds " +
+                                          std::to_string(count) + " image(s)");
+  const Index ny = s[s.rank() - 2], nx = s[s.rank() - 1];
+  ImageF out(ny, nx);
+  const size_t off = static_cast<size_t>(index * ny * nx);
+  for (Index i = 0; i < ny * nx; ++i) {
+    const cfloat z = rec.pixels.data[off + static_cast<size_t>(i)];
+    out.data()[i] = rec.is_complex ? std::abs(z) : z.real();
+  }
+  return out;
+}
+
+void write_image_any(const std::string& path, const ImageRecord& rec, const Provenance& prov, const PngWindow& w) {
+  const std::string ext = file_extension(path);
+  if (ext == ".h5") {
+    write_image_file(path, rec, prov);
+  } else if (ext == ".png") {
+    const Shape& s = rec.pixels.shape;
+    if (s.rank() == 3 && s[0] != 1)
+      throw InputError(path, "", "a PNG holds one 2-D image; this record is a stack " + s.to_string() +
+                                     " (pick one image or use .h5/.nii.gz/.mha/.nrrd)");
+    write_png(path, image_slice(rec, 0, path), w);
+  } else if (internal::itk_handles(ext)) {
+    export_image(path, rec);
+  } else {
+    throw InputError(path, "", "unsupported extension '" + ext + "' (expected .h5, .nii.gz, .nii, .mha, .nrrd, .png)");
+  }
+}
+
+ImageRecord read_image_any(const std::string& path) {
+  if (file_extension(path) == ".h5") return read_image_file(path);
+  return import_image(path);
+}
+
+}  // namespace recofold
