@@ -54,6 +54,12 @@ class Hid {
     if (id_ >= 0 && close_) close_(id_);
     id_ = -1;
   }
+  // Gives up ownership without closing.
+  hid_t release() {
+    const hid_t id = id_;
+    id_ = -1;
+    return id;
+  }
 
  private:
   hid_t id_ = -1;
@@ -71,13 +77,6 @@ Hid make_space(const Shape& s) {
   if (s.rank() == 0) return Hid(H5Screate(H5S_SCALAR), H5Sclose);
   std::vector<hsize_t> dims(s.dims.begin(), s.dims.end());
   return Hid(H5Screate_simple(s.rank(), dims.data(), nullptr), H5Sclose);
-}
-
-// Splits "/a/b/c" into parent "/a/b" and leaf "c".
-std::string parent_of(const std::string& path) {
-  const auto slash = path.find_last_of('/');
-  if (slash == std::string::npos || slash == 0) return "/";
-  return path.substr(0, slash);
 }
 
 std::string normalise(const std::string& path) {
@@ -264,8 +263,7 @@ void H5Writer::write_attr(const std::string& object, const std::string& name, co
 void H5Writer::commit() {
   if (!impl_->file.ok()) impl_->fail("commit() called twice");
   if (H5Fflush(impl_->file.get(), H5F_SCOPE_GLOBAL) < 0) impl_->fail("flush failed");
-  const hid_t id = impl_->file.get();
-  impl_->file = Hid();  // detach so a failing close is reported, not ignored
+  const hid_t id = impl_->file.release();  // close here so a failure is reported
   if (H5Fclose(id) < 0) impl_->fail("closing the file failed");
   impl_->temp.commit();
   impl_->committed = true;
@@ -364,6 +362,14 @@ H5Reader::~H5Reader() = default;
 const std::string& H5Reader::file() const { return impl_->path; }
 
 bool H5Reader::has(const std::string& path) const { return link_exists(impl_->file.get(), path); }
+
+bool H5Reader::is_group(const std::string& path) const {
+  const std::string p = normalise(path);
+  if (!has(p)) return false;
+  H5O_info_t info;
+  if (H5Oget_info_by_name(impl_->file.get(), p.c_str(), &info, H5P_DEFAULT) < 0) return false;
+  return info.type == H5O_TYPE_GROUP;
+}
 
 std::vector<std::string> H5Reader::children(const std::string& group) const {
   const std::string p = normalise(group);

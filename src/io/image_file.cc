@@ -98,13 +98,7 @@ void collect_tables(const H5Reader& r, const std::string& group, std::map<std::s
   for (const auto& child : r.children(group)) {
     const std::string path = (group == "/" ? "" : group) + "/" + child;
     if (path == "/image" || path == "/provenance") continue;
-    bool is_group = true;
-    try {
-      r.children(path);
-    } catch (const InputError&) {
-      is_group = false;
-    }
-    if (is_group) {
+    if (r.is_group(path)) {
       collect_tables(r, path, out);
       continue;
     }

@@ -61,6 +61,8 @@ class H5Reader {
   const std::string& file() const;
   // True if a dataset or group exists at `path` ("/mri/kspace").
   bool has(const std::string& path) const;
+  // True if `path` is a group ("/" always is).
+  bool is_group(const std::string& path) const;
   // Names of the children of a group (sorted).
   std::vector<std::string> children(const std::string& group) const;
   Shape shape(const std::string& dataset) const;

@@ -1,0 +1,124 @@
+// SPDX-License-Identifier: Apache-2.0
+// `recofold info FILE`: datasets, shapes, types, attributes and provenance of a file.
+#include <sys/stat.h>
+
+#include <algorithm>
+#include <cstdio>
+#include <memory>
+#include <sstream>
+#include <string>
+
+#include "cli_common.h"
+#include "recofold/core/atomic_file.h"
+#include "recofold/core/error.h"
+#include "recofold/io/h5_file.h"
+#include "recofold/io/image_export.h"
+
+namespace recofold::cli {
+
+namespace {
+
+std::string one_line(std::string s, size_t max_len = 160) {
+  std::replace(s.begin(), s.end(), '\n', ' ');
+  if (s.size() > max_len) s = s.substr(0, max_len - 3) + "...";
+  return s;
+}
+
+void print_attrs(const H5Reader& r, const std::string& object, const std::string& indent, std::ostream& out) {
+  for (const auto& name : r.attr_names(object))
+    out << indent << "@" << name << " = " << one_line(r.attr_as_text(object, name)) << "\n";
+}
+
+std::string value_range(const H5Reader& r, const std::string& path) {
+  // Only for small, real/complex numeric datasets (a few million values at most).
+  const std::string type = r.type_name(path);
+  if (r.shape(path).size() == 0 || r.shape(path).size() > (1 << 24)) return "";
+  double lo = 0, hi = 0;
+  std::string what = "range";
+  if (r.is_complex(path)) {
+    const auto a = r.read_complex(path);
+    lo = hi = std::abs(a.data[0]);
+    for (const auto& z : a.data) lo = std::min(lo, static_cast<double>(std::abs(z))), hi = std::max(hi, static_cast<double>(std::abs(z)));
+    what = "|z| range";
+  } else if (type.rfind("float", 0) == 0 || type.rfind("int", 0) == 0 || type.rfind("uint", 0) == 0) {
+    const auto a = r.read_double(path);
+    lo = hi = a.data[0];
+    for (double v : a.data) lo = std::min(lo, v), hi = std::max(hi, v);
+  } else {
+    return "";
+  }
+  char buf[96];
+  std::snprintf(buf, sizeof buf, "  %s [%.6g, %.6g]", what.c_str(), lo, hi);
+  return buf;
+}
+
+void walk(const H5Reader& r, const std::string& group, std::ostream& out) {
+  for (const auto& child : r.children(group)) {
+    const std::string path = (group == "/" ? "" : group) + "/" + child;
+    if (r.is_group(path)) {
+      out << path << "/  (group)\n";
+      print_attrs(r, path, "    ", out);
+      walk(r, path, out);
+    } else if (r.has(path)) {
+      std::string desc;
+      try {
+        desc = r.type_name(path) + " " + r.shape(path).to_string() + value_range(r, path);
+      } catch (const InputError&) {
+        desc = "(not a dataset)";
+      }
+      out << path << "  " << desc << "\n";
+      try {
+        print_attrs(r, path, "    ", out);
+      } catch (const InputError&) {
+      }
+    }
+  }
+}
+
+void info_hdf5(const std::string& path, std::ostream& out) {
+  H5Reader r(path);
+  out << path << ": HDF5 file\n";
+  out << "/  (root)\n";
+  print_attrs(r, "/", "    ", out);
+  walk(r, "/", out);
+}
+
+void info_itk(const std::string& path, std::ostream& out) {
+  const ImageRecord rec = import_image(path);
+  const Shape& s = rec.pixels.shape;
+  double lo = rec.pixels.data[0].real(), hi = lo;
+  for (const auto& z : rec.pixels.data) lo = std::min(lo, static_cast<double>(z.real())), hi = std::max(hi, static_cast<double>(z.real()));
+  char buf[256];
+  std::snprintf(buf, sizeof buf, "%s: %s image, shape %s (rows, columns%s), pixel spacing (dy, dx) = (%.6g, %.6g) mm, "
+                "values [%.6g, %.6g]",
+                path.c_str(), file_extension(path).c_str(), s.to_string().c_str(), s.rank() == 3 ? "; stack first" : "",
+                rec.pixel_spacing_mm[0], rec.pixel_spacing_mm[1], lo, hi);
+  out << buf << "\n";
+}
+
+void run_info(const std::string& path, const Context& ctx) {
+  struct stat st;
+  if (::stat(path.c_str(), &st) != 0) throw InputError(path, "", "file not found");
+  const std::string ext = file_extension(path);
+  std::ostringstream out;
+  if (ext == ".h5" || ext == ".hdf5" || !is_image_extension(ext))
+    info_hdf5(path, out);  // not-HDF5 files are reported by the reader
+  else
+    info_itk(path, out);
+  std::string text = out.str();
+  if (!text.empty() && text.back() == '\n') text.pop_back();
+  say(ctx, text);
+}
+
+}  // namespace
+
+void register_cmd_info(CLI::App& app, Context& ctx) {
+  auto path = std::make_shared<std::string>();
+  CLI::App* sub = app.add_subcommand(
+      "info", "Show datasets, shapes, types, attributes and provenance of a file (.h5, or an image via ITK)");
+  sub->add_option("FILE", *path, "Any recofold HDF5 file (image, measurement, model, ...) or .nii.gz/.nii/.mha/.nrrd/.png")
+      ->required();
+  sub->callback([path, &ctx] { run_info(*path, ctx); });
+}
+
+}  // namespace recofold::cli
