@@ -9,6 +9,7 @@
 // has its centre at x = -1 + (2 ix + 1)/nx, y = 1 - (2 iy + 1)/ny.
 #pragma once
 
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -35,12 +36,27 @@ struct Component {
 // linear phase keeps every evaluation exact: it shifts k-space by (gx, gy).
 struct Phantom {
   std::string name;
+  std::string description;  // free text, e.g. where the numbers come from
   std::vector<Component> components;
   double fov_mm = 256.0;
   double phase0_rad = 0.0;
   double phase_gx = 0.0, phase_gy = 0.0;  // cycles per unit length of the [-1,1] square
 
   bool is_complex() const;  // any complex intensity or a non-zero phase
+
+  // Every violation of the model's rules, one message each ("component 3: b =
+  // -0.1; must be > 0"); empty means valid. Rules: at least one component;
+  // finite intensities, centres and angles; a, b > 0; fov_mm > 0; finite phase.
+  std::vector<std::string> validate() const;
+
+  // Length in mm of one unit of the [-1,1] square: fov_mm / 2. Multiply line
+  // integrals by it to get intensity x mm; Fourier values by its square for mm^2.
+  double mm_per_unit() const { return fov_mm / 2.0; }
 };
+
+// Parse and print of ComponentKind, shared by tables and files:
+// "ellipse" <-> kEllipse, "blob" <-> kGaussian.
+const char* to_string(ComponentKind kind);
+std::optional<ComponentKind> parse_component_kind(const std::string& text);
 
 }  // namespace recofold
