@@ -75,7 +75,7 @@ void register_cmd_convert(CLI::App& app, Context& ctx) {
   sub->add_option("--bits", flags->bits, "PNG: bits per pixel, 8 or 16 (default 8)")->check(CLI::IsMember({8, 16}));
   sub->add_option("--index", flags->index, "Convert only image I of a stack [count, ny, nx]")
       ->check(CLI::NonNegativeNumber);
-  sub->footer("Complex images keep their values only in .h5; other formats get the magnitude.");
+  sub->footer("Complex images keep their values only in .h5; other formats get the magnitude.\n" + std::string(kResearchUseLine));
   sub->callback([flags, sub, &ctx] { run_convert(*flags, *sub, ctx); });
 }
 

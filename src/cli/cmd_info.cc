@@ -118,6 +118,7 @@ void register_cmd_info(CLI::App& app, Context& ctx) {
       "info", "Show datasets, shapes, types, attributes and provenance of a file (.h5, or an image via ITK)");
   sub->add_option("FILE", *path, "Any recofold HDF5 file (image, measurement, model, ...) or .nii.gz/.nii/.mha/.nrrd/.png")
       ->required();
+  sub->footer(kResearchUseLine);
   sub->callback([path, &ctx] { run_info(*path, ctx); });
 }
 

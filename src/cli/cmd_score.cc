@@ -109,7 +109,7 @@ void register_cmd_score(CLI::App& app, Context& ctx) {
                   "Data range L for PSNR and SSIM (default: max - min of the reference)");
   sub->add_option("--index", flags->index, "Image I of inputs that hold a stack (default 0)")
       ->check(CLI::NonNegativeNumber);
-  sub->footer("Complex images are scored by magnitude. Definitions and sources: REFERENCES.md.");
+  sub->footer("Complex images are scored by magnitude. Definitions and sources: REFERENCES.md.\n" + std::string(kResearchUseLine));
   sub->callback([flags, &ctx] { run_score(*flags, ctx); });
 }
 

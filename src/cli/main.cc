@@ -39,9 +39,21 @@ int main(int argc, char** argv) {
   } catch (const CLI::CallForVersion& e) {
     return app.exit(e);
   } catch (const CLI::ParseError& e) {
+    if (e.get_name() == "RequiredError" && app.get_subcommands().empty()) {
+      // Name the word that is not a sub-command, if there is one (skipping --threads' value).
+      std::string unknown;
+      for (int i = 1; i < argc && unknown.empty(); ++i) {
+        const std::string a = argv[i];
+        if (a == "--threads") ++i;
+        else if (!a.empty() && a[0] != '-') unknown = a;
+      }
+      if (!unknown.empty())
+        std::cerr << "recofold: unknown sub-command '" << unknown << "'; run 'recofold --help' for the list\n";
+      else
+        std::cerr << "recofold: " << e.what() << "; run 'recofold --help' for the list of commands\n";
+      return 2;
+    }
     std::cerr << "recofold: " << e.what() << "\n";
-    if (e.get_name() == "RequiredError" && app.get_subcommands().empty())
-      std::cerr << "Run 'recofold --help' for the list of commands.\n";
     return 2;
   } catch (const InputError& e) {
     std::cerr << "recofold: error: " << e.what() << "\n";
