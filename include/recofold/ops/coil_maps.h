@@ -21,7 +21,7 @@ namespace recofold {
 // so Σ_c |S_c|² = 1 everywhere (in particular on the object support: the
 // *common practice* normalisation of REFERENCES.md). One coil gives S = 1.
 struct CoilArrayOptions {
-  int coils = 8;                 // 1 .. 32
+  int coils = 1;                 // 1 .. 32 (1: a single uniform coil, S = 1)
   double ring_radius = 1.5;      // > 1: coils sit outside the [-1,1] square
   double falloff = 1.0;          // > 0: distance at which the raw magnitude halves
   double phase_cycles = 0.25;    // >= 0: phase variation across the square, in cycles
