@@ -20,10 +20,12 @@ void Box::project(const VecC& v, VecC& out) const {
 }
 
 double Box::violation(const VecC& x) const {
+  // Bounds rounded to float like project() does, so projected images have violation 0.
+  const double lo = static_cast<float>(lower), hi = static_cast<float>(upper);
   double worst = 0.0;
   for (Index i = 0; i < x.size(); ++i) {
     const double re = x[i].real();
-    worst = std::max(worst, std::max(lower - re, re - upper));
+    worst = std::max(worst, std::max(lo - re, re - hi));
     if (real) worst = std::max(worst, double(std::abs(x[i].imag())));
   }
   return worst;
@@ -36,8 +38,8 @@ double Box::support(const VecC& s, double radius) const {
   for (Index i = 0; i < s.size(); ++i) {
     const double re = s[i].real();
     sum += std::max(lo * re, hi * re);
-    // Free imaginary parts make the supremum infinite unless they vanish.
-    if (!real && s[i].imag() != 0.f) return std::numeric_limits<double>::infinity();
+    // Free imaginary parts are restricted to [-radius, radius] too.
+    if (!real) sum += radius * std::abs(double(s[i].imag()));
   }
   return sum;
 }

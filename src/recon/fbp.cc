@@ -60,6 +60,28 @@ class Radix2Fft {
   std::vector<Index> rev_;
 };
 
+// Pixels [lo, hi] of a row whose positions u0 + ix du lie in [0, top]
+// (monotone in ix; estimate, then settle with the exact float expression).
+// Empty when lo > hi.
+void inside_range(float u0, float du, float top, int count, int& lo, int& hi) {
+  auto in = [&](int ix) {
+    const float u = u0 + float(ix) * du;
+    return u >= 0.0f && u <= top;
+  };
+  if (du == 0.0f) {
+    lo = in(0) ? 0 : count;
+    hi = count - 1;
+    return;
+  }
+  const double a = (0.0 - u0) / du, b = (double(top) - u0) / du;
+  lo = static_cast<int>(std::clamp(std::floor(std::min(a, b)), 0.0, double(count - 1)));
+  hi = static_cast<int>(std::clamp(std::ceil(std::max(a, b)), 0.0, double(count - 1)));
+  while (lo > 0 && in(lo - 1)) --lo;
+  while (lo <= hi && !in(lo)) ++lo;
+  while (hi < count - 1 && in(hi + 1)) ++hi;
+  while (hi >= lo && !in(hi)) --hi;
+}
+
 Index padded_length(Index detectors, int factor) {
   Index p = 64;
   while (p < factor * detectors) p <<= 1;
@@ -223,24 +245,28 @@ ImageF fbp(const CtGeometry& g, const float* sinogram, const FbpOptions& options
 #pragma omp parallel
   {
     std::vector<double> acc(static_cast<size_t>(nx));
+    std::vector<float> facc(static_cast<size_t>(nx));  // parallel beams: float sums vectorise
 #pragma omp for schedule(dynamic, 1)
     for (Index iy = 0; iy < ny; ++iy) {
       std::fill(acc.begin(), acc.end(), 0.0);
+      std::fill(facc.begin(), facc.end(), 0.0f);
       const double y = (cy - double(iy)) * px;
       for (Index v = 0; v < nv; ++v) {
         const float* qv = q.data() + v * qs;
         const double c = cs[static_cast<size_t>(v)], s = sn[static_cast<size_t>(v)];
         if (!fan) {
-          // u(ix) = u0 + ix du, linear along the row.
+          // u(ix) = u0 + ix du is linear along the row: find the pixels whose
+          // u lies in [0, nd - 1] once, then interpolate without branches.
           const float u0 = static_cast<float>(((-cx * px) * c + y * s - off) / tau + mid);
           const float du = static_cast<float>(px * c / tau);
-          for (Index ix = 0; ix < nx; ++ix) {
+          int lo = 0, hi = static_cast<int>(nx) - 1;
+          inside_range(u0, du, top, static_cast<int>(nx), lo, hi);
+          float* a = facc.data();
+          for (int ix = lo; ix <= hi; ++ix) {
             const float u = u0 + float(ix) * du;
-            if (u >= 0.0f && u <= top) {
-              const int i = static_cast<int>(u);
-              const float f = u - float(i);
-              acc[static_cast<size_t>(ix)] += qv[i] + f * (qv[i + 1] - qv[i]);
-            }
+            const int i = static_cast<int>(u);
+            const float f = u - float(i);
+            a[ix] += qv[i] + f * (qv[i + 1] - qv[i]);
           }
         } else {
           for (Index ix = 0; ix < nx; ++ix) {
@@ -265,7 +291,7 @@ ImageF fbp(const CtGeometry& g, const float* sinogram, const FbpOptions& options
         }
       }
       for (Index ix = 0; ix < nx; ++ix) {
-        double val = acc[static_cast<size_t>(ix)] * weight;
+        double val = (acc[static_cast<size_t>(ix)] + facc[static_cast<size_t>(ix)]) * weight;
         if (options.zero_outside_circle) {
           const double x = (double(ix) - cx) * px;
           if (x * x + y * y > rc * rc * (1.0 + 1e-9)) val = 0.0;

@@ -24,8 +24,8 @@ struct Box {
   // Largest violation of C by x (0 when x is in C).
   double violation(const VecC& x) const;
   // Support function sup_{u in C} Re<s, u> = sum_i max(lower Re s_i, upper Re s_i)
-  // (+inf unless imaginary parts of s vanish when !real). Infinite bounds are
-  // replaced by -radius/+radius (the restricted set of a partial duality gap).
+  // (+ radius |Im s_i| when !real). Infinite bounds and free imaginary parts
+  // are restricted to [-radius, radius] (the bounded set of a partial duality gap).
   double support(const VecC& s, double radius) const;
   // "[0, inf) real"
   std::string to_string() const;

@@ -1,0 +1,55 @@
+// SPDX-License-Identifier: Apache-2.0
+// PDHG (Chambolle-Pock) for least squares + analysis prior (TV) + box, with the primal-dual gap.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "recofold/core/progress.h"
+#include "recofold/ops/linear_operator.h"
+#include "recofold/priors/prior.h"
+#include "recofold/recon/solver_summary.h"
+
+namespace recofold {
+
+// Chambolle & Pock (JMIV 2011), algorithm 1 with theta = 1, for
+//   minimise_x  F1(A x) + F2(K x) + G(x),
+//   F1(w) = 1/2||w - y||^2,  F2 = lambda g (the prior's analysis form, e.g. TV),
+//   G = i_C for a ConstrainedPrior's box C (else 0).
+// Dual variables p (range of A) and q (range of K):
+//   p <- (p + sA (A xbar - y)) / (1 + sA)                 (prox of sA F1*)
+//   q <- q + sK K xbar - sK prox_{lambda g / sK}((q + sK K xbar)/sK)   (Moreau)
+//   x+ <- P_C(x - tau (A^H p + K^H q)),   xbar <- 2 x+ - x
+// Step sizes: block-diagonal dual steps (Pock & Chambolle, ICCV 2011, from
+// memory) sA = balance / ||A||^2, sK = balance / ||K||^2 and
+// tau = 0.99 / (2 balance), so tau (sA ||A||^2 + sK ||K||^2) < 1; ||A||^2 by
+// power iteration, ||K||^2 by power iteration too (8 bounds it for TV).
+// Explicit tau and sigma (same sigma for both blocks) may be given instead and
+// must satisfy tau sigma (||A||^2 + ||K||^2) < 1.
+// Gap: P(x) - D(p, q) with D = -F1*(p) - F2*(q) - G*(-A^H p - K^H q),
+// F1*(p) = 1/2||p||^2 + Re<p, y>; G* is the box's support function. When C is
+// unbounded (or absent) G* is taken over C intersected with |Re|,|Im| <= R,
+// R = 2 max|x| + 1 (a partial gap in the sense of Chambolle & Pock 2011,
+// section 3): exact for a bounded box.
+struct PdhgOptions {
+  int max_iterations = 500;          // >= 1
+  double tau = 0.0;                  // primal step; <= 0 with sigma <= 0: automatic (above)
+  double sigma = 0.0;                // dual step; set both or neither
+  double balance = 1.0;              // > 0, the automatic steps' dual/primal balance
+  int power_iterations = 50;         // for ||A||^2 and ||K||^2, >= 1
+  double relative_tolerance = 1e-6;  // stop when ||x_k - x_{k-1}|| / ||x_k|| <= this; >= 0
+  // Stop when gap <= gap_tolerance * max(1, |P(x)|); 0 = never; needs record_gap.
+  double gap_tolerance = 0.0;
+  bool record_gap = true;  // objective and gap per iteration (one extra A apply, K and K^H)
+
+  std::vector<std::string> validate() const;
+};
+
+// `prior`: an analysis-form prior, a ConstrainedPrior around one, or a ZeroPrior
+// (K absent) possibly inside a ConstrainedPrior; otherwise InputError
+// ("pdhg.prior"). Summary values: "tau", "sigma_a", "sigma_k", "norm_a_squared",
+// "norm_k_squared", "gap" (last).
+SolverSummary solve_pdhg(const PdhgOptions& options, const LinearOperator& a, const Prior& prior, const VecC& y,
+                         VecC& x, ProgressSink* progress = nullptr);
+
+}  // namespace recofold

@@ -1,0 +1,88 @@
+// SPDX-License-Identifier: Apache-2.0
+// FISTA with adaptive (gradient-scheme) restart on any operator and prior.
+#include "recofold/recon/fista.h"
+
+#include <cmath>
+#include <cstdio>
+#include <limits>
+
+#include "recofold/priors/option_errors.h"
+#include "recofold/recon/unrolled.h"
+#include "solver_support.h"
+
+namespace recofold {
+
+std::vector<std::string> FistaOptions::validate() const {
+  std::vector<std::string> e;
+  if (max_iterations < 1) e.push_back("fista.max_iterations = " + std::to_string(max_iterations) + "; must be >= 1");
+  if (!std::isfinite(step_size)) e.push_back("fista.step_size = " + std::to_string(step_size) + "; must be finite");
+  if (power_iterations < 1)
+    e.push_back("fista.power_iterations = " + std::to_string(power_iterations) + "; must be >= 1");
+  if (!(relative_tolerance >= 0.0) || !std::isfinite(relative_tolerance))
+    e.push_back("fista.relative_tolerance = " + std::to_string(relative_tolerance) + "; must be finite and >= 0");
+  return e;
+}
+
+SolverSummary solve_fista(const FistaOptions& options, const LinearOperator& a, const Prior& prior, const VecC& y,
+                          VecC& x, ProgressSink* progress) {
+  throw_if_invalid(options.validate());
+  internal::prepare_solve("fista", a, y, x);
+  SolverSummary summary;
+  summary.solver = "fista";
+  internal::Stopwatch total, lap;
+  double step = options.step_size;
+  if (step <= 0.0) {
+    const double lip = estimate_norm_squared(a, options.power_iterations, options.power_seed);
+    summary.values["lipschitz"] = lip;
+    step = 1.0 / (1.05 * std::max(lip, 1e-30));
+  }
+  summary.values["step_size"] = step;
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  VecC v = x, z, x_new, r;
+  double t = 1.0;
+  int restarts = 0;
+  Termination term = Termination::kMaxIterations;
+  std::string message = "reached max_iterations";
+  for (int k = 1; k <= options.max_iterations; ++k) {
+    gradient_dc_step(a, y, v, step, z);
+    prior.prox(z, step, x_new);
+    if (options.adaptive_restart && dot(v - x_new, x_new - x).real() > 0.0) {
+      t = 1.0;  // restart: momentum of the next extrapolation is 0
+      ++restarts;
+    }
+    const double t_next = 0.5 * (1.0 + std::sqrt(1.0 + 4.0 * t * t));
+    extrapolate(x_new, x, (t - 1.0) / t_next, v);
+    t = t_next;
+    IterationRecord rec;
+    rec.iteration = k;
+    rec.relative_change = internal::relative_change(x_new, x);
+    rec.objective = rec.data_residual = rec.gap = nan;
+    if (options.record_objective) {
+      internal::data_residual(a, x_new, y, r);
+      const double r2 = norm_squared(r);
+      rec.data_residual = std::sqrt(r2);
+      rec.objective = 0.5 * r2 + prior.value(x_new);
+    }
+    x.swap(x_new);
+    rec.seconds = lap.lap();
+    summary.iterations.push_back(rec);
+    internal::report_progress(progress, k, options.max_iterations, rec);
+    if (!std::isfinite(rec.relative_change) || (options.record_objective && !std::isfinite(rec.data_residual))) {
+      term = Termination::kNonFinite;
+      message = "non-finite value at iteration " + std::to_string(k);
+      break;
+    }
+    if (rec.relative_change <= options.relative_tolerance) {
+      term = Termination::kConverged;
+      char buf[96];
+      std::snprintf(buf, sizeof buf, "relative change %.2e <= %.2e", rec.relative_change, options.relative_tolerance);
+      message = buf;
+      break;
+    }
+  }
+  summary.values["restarts"] = restarts;
+  internal::finish_summary(summary, term, message, total.lap(), progress);
+  return summary;
+}
+
+}  // namespace recofold

@@ -1,0 +1,148 @@
+// SPDX-License-Identifier: Apache-2.0
+// Chambolle-Pock primal-dual iteration with block dual steps and the (partial) primal-dual gap.
+#include "recofold/recon/pdhg.h"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <limits>
+
+#include "recofold/core/error.h"
+#include "recofold/priors/option_errors.h"
+#include "solver_support.h"
+
+namespace recofold {
+
+std::vector<std::string> PdhgOptions::validate() const {
+  std::vector<std::string> e;
+  if (max_iterations < 1) e.push_back("pdhg.max_iterations = " + std::to_string(max_iterations) + "; must be >= 1");
+  if (!std::isfinite(tau) || !std::isfinite(sigma) || ((tau > 0.0) != (sigma > 0.0)))
+    e.push_back("pdhg.tau = " + std::to_string(tau) + ", pdhg.sigma = " + std::to_string(sigma) +
+                "; set both > 0 or neither");
+  if (!(balance > 0.0) || !std::isfinite(balance))
+    e.push_back("pdhg.balance = " + std::to_string(balance) + "; must be finite and > 0");
+  if (power_iterations < 1)
+    e.push_back("pdhg.power_iterations = " + std::to_string(power_iterations) + "; must be >= 1");
+  if (!(relative_tolerance >= 0.0) || !std::isfinite(relative_tolerance))
+    e.push_back("pdhg.relative_tolerance = " + std::to_string(relative_tolerance) + "; must be finite and >= 0");
+  if (!(gap_tolerance >= 0.0) || !std::isfinite(gap_tolerance))
+    e.push_back("pdhg.gap_tolerance = " + std::to_string(gap_tolerance) + "; must be finite and >= 0");
+  return e;
+}
+
+SolverSummary solve_pdhg(const PdhgOptions& options, const LinearOperator& a, const Prior& prior, const VecC& y,
+                         VecC& x, ProgressSink* progress) {
+  throw_if_invalid(options.validate());
+  internal::prepare_solve("pdhg", a, y, x);
+  const internal::PriorParts parts = internal::split_prior(prior);
+  if (!parts.supported)
+    throw InputError("", "pdhg.prior",
+                     "'" + prior.name() + "' has no analysis form R(x) = g(Kx); use tv, tv-aniso, wavelet, l2 or none");
+  const std::shared_ptr<const LinearOperator> k_op = parts.analysis ? parts.analysis->analysis_operator() : nullptr;
+  const Box* box = parts.box;
+  SolverSummary summary;
+  summary.solver = "pdhg";
+  internal::Stopwatch total, lap;
+
+  const double na = std::max(estimate_norm_squared(a, options.power_iterations, 1), 1e-30);
+  const double nk = k_op ? std::max(estimate_norm_squared(*k_op, options.power_iterations, 2), 1e-30) : 0.0;
+  double tau, sa, sk;
+  if (options.tau > 0.0) {
+    tau = options.tau;
+    sa = sk = options.sigma;
+    // The power iteration under-estimates; keep a small margin.
+    if (!(tau * options.sigma * 1.01 * (na + nk) < 1.0))
+      throw InputError("", "pdhg.tau",
+                       "tau * sigma * ||K||^2 = " + std::to_string(tau * options.sigma * (na + nk)) +
+                           " (with a 1 % margin for the norm estimate) must be < 1");
+  } else {
+    const double b = options.balance;
+    sa = b / (1.01 * na);
+    sk = k_op ? b / (1.01 * nk) : 0.0;
+    tau = 0.99 / ((k_op ? 2.0 : 1.0) * b);
+  }
+  summary.values["tau"] = tau;
+  summary.values["sigma_a"] = sa;
+  summary.values["sigma_k"] = sk;
+  summary.values["norm_a_squared"] = na;
+  summary.values["norm_k_squared"] = nk;
+
+  if (box) box->project(x, x);
+  VecC p = VecC::Zero(a.range_size()), q, ax, kx, w, s, tmp, x_new, xbar = x, r;
+  if (k_op) q.setZero(k_op->range_size());
+  const Box free_box{-std::numeric_limits<double>::infinity(), std::numeric_limits<double>::infinity(), false};
+  const float fsa = static_cast<float>(sa), fsk = static_cast<float>(sk), ftau = static_cast<float>(tau);
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  double last_gap = nan;
+  Termination term = Termination::kMaxIterations;
+  std::string message = "reached max_iterations";
+  for (int k = 1; k <= options.max_iterations; ++k) {
+    // Dual steps at xbar.
+    a.apply(xbar, ax);
+    p = (p + fsa * (ax - y)) / (1.f + fsa);
+    if (k_op) {
+      k_op->apply(xbar, kx);
+      w = q + fsk * kx;
+      parts.analysis->analysis_prox(w / fsk, 1.0 / sk, tmp);
+      q = w - fsk * tmp;
+    }
+    // Primal step.
+    a.adjoint(p, s);
+    if (k_op) {
+      k_op->adjoint(q, tmp);
+      s += tmp;
+    }
+    x_new = x - ftau * s;
+    if (box) box->project(x_new, x_new);
+    xbar = 2.f * x_new - x;
+    IterationRecord rec;
+    rec.iteration = k;
+    rec.relative_change = internal::relative_change(x_new, x);
+    x.swap(x_new);
+    rec.objective = rec.data_residual = rec.gap = nan;
+    if (options.record_gap) {
+      internal::data_residual(a, x, y, r);
+      const double r2 = norm_squared(r);
+      rec.data_residual = std::sqrt(r2);
+      double primal = 0.5 * r2;
+      double dual = -(0.5 * norm_squared(p) + dot(p, y).real());
+      if (k_op) {
+        k_op->apply(x, kx);
+        primal += parts.analysis->analysis_value(kx);
+        dual -= parts.analysis->analysis_conjugate(q);
+      }
+      const double radius = 2.0 * (x.size() ? double(x.cwiseAbs().maxCoeff()) : 0.0) + 1.0;
+      dual -= (box ? *box : free_box).support(-s, radius);
+      rec.objective = primal;
+      rec.gap = primal - dual;
+      last_gap = rec.gap;
+    }
+    rec.seconds = lap.lap();
+    summary.iterations.push_back(rec);
+    internal::report_progress(progress, k, options.max_iterations, rec);
+    if (!std::isfinite(rec.relative_change) || (options.record_gap && !std::isfinite(rec.objective))) {
+      term = Termination::kNonFinite;
+      message = "non-finite value at iteration " + std::to_string(k);
+      break;
+    }
+    char buf[96];
+    if (options.record_gap && options.gap_tolerance > 0.0 &&
+        rec.gap <= options.gap_tolerance * std::max(1.0, std::abs(rec.objective))) {
+      term = Termination::kConverged;
+      std::snprintf(buf, sizeof buf, "gap %.2e <= %.2e relative", rec.gap, options.gap_tolerance);
+      message = buf;
+      break;
+    }
+    if (k > 1 && rec.relative_change <= options.relative_tolerance) {
+      term = Termination::kConverged;
+      std::snprintf(buf, sizeof buf, "relative change %.2e <= %.2e", rec.relative_change, options.relative_tolerance);
+      message = buf;
+      break;
+    }
+  }
+  summary.values["gap"] = last_gap;
+  internal::finish_summary(summary, term, message, total.lap(), progress);
+  return summary;
+}
+
+}  // namespace recofold

@@ -1,0 +1,64 @@
+// SPDX-License-Identifier: Apache-2.0
+// Private helpers shared by the iterative solvers (argument checks, timing, records, progress).
+#pragma once
+
+#include <chrono>
+#include <cmath>
+#include <string>
+
+#include "recofold/core/progress.h"
+#include "recofold/ops/linear_operator.h"
+#include "recofold/priors/prior.h"
+#include "recofold/recon/solver_summary.h"
+
+namespace recofold {
+namespace internal {
+
+// Checks y against A's range and sizes x to A's domain (zeros when empty).
+// Throws InputError naming `solver` when a size is wrong.
+void prepare_solve(const std::string& solver, const LinearOperator& a, const VecC& y, VecC& x);
+
+// ||a - b|| / max(||a||, tiny).
+double relative_change(const VecC& now, const VecC& before);
+
+// r = A x - y.
+void data_residual(const LinearOperator& a, const VecC& x, const VecC& y, VecC& r);
+
+// z = x - step * A^H r (the gradient step of 1/2||Ax - y||^2 given r = Ax - y).
+void gradient_step_from_residual(const LinearOperator& a, const VecC& r, const VecC& x, double step, VecC& z);
+
+// Wall-clock stopwatch for per-iteration records.
+class Stopwatch {
+ public:
+  Stopwatch() : start_(std::chrono::steady_clock::now()) {}
+  double lap() {
+    const auto now = std::chrono::steady_clock::now();
+    const double s = std::chrono::duration<double>(now - start_).count();
+    start_ = now;
+    return s;
+  }
+
+ private:
+  std::chrono::steady_clock::time_point start_;
+};
+
+// Sends "obj 1.234e+01" (or the relative change) to the sink, when there is one.
+void report_progress(ProgressSink* progress, int done, int total, const IterationRecord& rec);
+
+// Fills termination/message/total time at the end of a solve.
+void finish_summary(SolverSummary& summary, Termination t, const std::string& message, double total_seconds,
+                    ProgressSink* progress);
+
+inline bool finite(double v) { return std::isfinite(v); }
+
+// A prior split for the splitting solvers: the analysis-form part (null when
+// there is none, e.g. ZeroPrior) and the box of a ConstrainedPrior (null when none).
+struct PriorParts {
+  const Prior* analysis = nullptr;
+  const Box* box = nullptr;
+  bool supported = true;  // false: the (inner) prior is neither analysis-form nor ZeroPrior
+};
+PriorParts split_prior(const Prior& prior);
+
+}  // namespace internal
+}  // namespace recofold
