@@ -13,6 +13,21 @@ namespace {
 constexpr double kPi = 3.14159265358979323846;
 constexpr double kSeriesLimit = 12.0;  // power series below, asymptotic expansion above
 
+// 1/(k (k+1)) for the power series and (4 - (2k-1)^2)/(8k) for the
+// asymptotic series, tabulated once (divisions dominate otherwise).
+struct BesselTables {
+  double series[64];
+  double asym[64];
+  BesselTables() {
+    for (int k = 0; k < 64; ++k) {
+      series[k] = k == 0 ? 0.0 : 1.0 / (static_cast<double>(k) * (k + 1));
+      const double odd = 2.0 * k - 1.0;
+      asym[k] = k == 0 ? 0.0 : (4.0 - odd * odd) / (8.0 * k);
+    }
+  }
+};
+const BesselTables kTables;
+
 // J1(x)/x by its power series sum_k (-1)^k (x/2)^(2k) / (2 k! (k+1)!), for
 // 0 <= x < kSeriesLimit (largest term ~4e3 at x = 12: ~1e-12 absolute error).
 double j1_over_x_series(double x) {
@@ -20,7 +35,7 @@ double j1_over_x_series(double x) {
   double term = 0.5;  // k = 0
   double sum = term;
   for (int k = 1; k < 60; ++k) {
-    term *= -q / (static_cast<double>(k) * static_cast<double>(k + 1));
+    term *= -q * kTables.series[k];
     sum += term;
     if (std::abs(term) < 1e-18) break;  // values are O(1/2): absolute is enough
   }
@@ -32,11 +47,11 @@ double j1_over_x_series(double x) {
 // with terms t_k = prod_{j<=k} (4 - (2j-1)^2) / (j 8 x); P = t0 - t2 + t4 ...,
 // Q = t1 - t3 + .... Summed until the terms stop shrinking (error ~e^{-2x}).
 double j1_asymptotic(double x) {
+  const double inv = 1.0 / x;
   double p = 1.0, q = 0.0;
   double term = 1.0, prev = 1.0;
-  for (int k = 1; k < 80; ++k) {
-    const double odd = 2.0 * k - 1.0;
-    term *= (4.0 - odd * odd) / (8.0 * k * x);
+  for (int k = 1; k < 60; ++k) {
+    term *= kTables.asym[k] * inv;
     if (std::abs(term) > std::abs(prev)) break;  // divergent tail of the asymptotic series
     switch (k % 4) {
       case 1: q += term; break;
@@ -48,7 +63,7 @@ double j1_asymptotic(double x) {
     prev = term;
   }
   const double chi = x - 0.75 * kPi;
-  return std::sqrt(2.0 / (kPi * x)) * (p * std::cos(chi) - q * std::sin(chi));
+  return std::sqrt(2.0 * inv / kPi) * (p * std::cos(chi) - q * std::sin(chi));
 }
 
 // exp(-i 2 pi (kx x0 + ky y0)) as (re, im).

@@ -26,6 +26,10 @@ struct Prepared {
   int samples = 1;                // supersampling per axis
   double sx = 0.0, sy = 0.0;      // exact blob: standard deviations along x and y
   std::vector<double> col_weight;  // exact blob: box average along x per column col0..col1
+  // Rotated blob: exp(-Q/2), Q = alpha px^2 + 2 beta px py + gamma py^2 in
+  // offsets (px, py) from the centre; along a line of fixed py it is a 1-D
+  // Gaussian in px of precision alpha, centred at -beta py / alpha.
+  double alpha = 0.0, beta = 0.0, gamma = 0.0;
 };
 
 // Box average over [lo, hi] of exp(-(s - c)^2 / (2 sigma^2)), divided by the width.
@@ -72,8 +76,14 @@ bool prepare(const Component& comp, int ny, int nx, const RasterOptions& o, Prep
     }
   } else {
     p.method = Method::kBlobSampled;
-    const double need = o.blob_samples_per_sigma * std::max(dx, dy) / std::min(p.f.a, p.f.b);
-    p.samples = static_cast<int>(std::clamp(std::ceil(need), 1.0, static_cast<double>(o.blob_max_supersample)));
+    const double ia2 = 1.0 / (p.f.a * p.f.a), ib2 = 1.0 / (p.f.b * p.f.b);
+    p.alpha = c2 * ia2 + s2 * ib2;
+    p.beta = p.f.cos_phi * p.f.sin_phi * (ia2 - ib2);
+    p.gamma = s2 * ia2 + c2 * ib2;
+    // Nodes in y per pixel: enough per standard deviation of the profile along
+    // y at fixed x (1/sqrt(gamma)), and at least 2 (exact for cubics).
+    const double need = o.blob_samples_per_sigma * dy * std::sqrt(p.gamma);
+    p.samples = static_cast<int>(std::clamp(std::ceil(need), 2.0, static_cast<double>(o.blob_max_supersample)));
   }
   return true;
 }
@@ -151,23 +161,31 @@ const GaussRule& gauss_rule(int n) {
   return rules[static_cast<size_t>(n)];
 }
 
-// Mean of the blob's profile over the pixel by an s x s Gauss-Legendre rule
-// (the profile is smooth, so this converges much faster than a midpoint grid).
-double blob_sampled(const internal::ComponentFrame& f, double x, double y, double dx, double dy, int s) {
-  const GaussRule& g = gauss_rule(s);
-  double sum = 0.0;
-  for (int j = 0; j < s; ++j) {
+// Adds rho x (pixel averages of a rotated blob) to one row of pixels: a
+// Gauss-Legendre rule over the pixel height, and on each node line the exact
+// integral over every pixel's width (erf differences at the column edges,
+// shared by neighbouring pixels).
+void add_blob_row(const Prepared& p, double y, double dx, double dy, std::vector<double>& edges, double* acc_re,
+                  double* acc_im) {
+  const internal::ComponentFrame& f = p.f;
+  const GaussRule& g = gauss_rule(p.samples);
+  const int ncols = p.col1 - p.col0 + 1;
+  edges.resize(static_cast<size_t>(ncols) + 1);
+  const double k = std::sqrt(0.5 * p.alpha);
+  const double norm = std::sqrt(kPi / (2.0 * p.alpha)) / dx;
+  const double gamma_rest = p.gamma - p.beta * p.beta / p.alpha;  // precision of what is left in py
+  for (int j = 0; j < p.samples; ++j) {
     const double py = y + dy * g.nodes[static_cast<size_t>(j)] - f.y0;
-    double row = 0.0;
-    for (int i = 0; i < s; ++i) {
-      const double px = x + dx * g.nodes[static_cast<size_t>(i)] - f.x0;
-      const double ux = (f.cos_phi * px + f.sin_phi * py) / f.a;
-      const double uy = (-f.sin_phi * px + f.cos_phi * py) / f.b;
-      row += g.weights[static_cast<size_t>(i)] * std::exp(-0.5 * (ux * ux + uy * uy));
+    const double amp = g.weights[static_cast<size_t>(j)] * norm * std::exp(-0.5 * gamma_rest * py * py);
+    if (amp < 1e-300) continue;
+    const double centre = f.x0 - p.beta * py / p.alpha;  // line maximum, in x
+    for (int e = 0; e <= ncols; ++e) edges[static_cast<size_t>(e)] = std::erf(k * (-1.0 + (p.col0 + e) * dx - centre));
+    for (int c = 0; c < ncols; ++c) {
+      const double w = amp * (edges[static_cast<size_t>(c) + 1] - edges[static_cast<size_t>(c)]);
+      acc_re[p.col0 + c] += w * f.rho_re;
+      acc_im[p.col0 + c] += w * f.rho_im;
     }
-    sum += g.weights[static_cast<size_t>(j)] * row;
   }
-  return sum;
 }
 
 void raster_into(const Phantom& ph, int ny, int nx, const RasterOptions& o, cfloat* out, bool parallel) {
@@ -183,10 +201,15 @@ void raster_into(const Phantom& ph, int ny, int nx, const RasterOptions& o, cflo
 #pragma omp parallel for schedule(dynamic, 4) if (parallel)
   for (int iy = 0; iy < ny; ++iy) {
     std::vector<double> acc_re(static_cast<size_t>(nx), 0.0), acc_im(static_cast<size_t>(nx), 0.0);
+    std::vector<double> edges;
     const double y = 1.0 - (2.0 * iy + 1.0) / ny;
     for (const Prepared& p : comps) {
       if (iy < p.row0 || iy > p.row1) continue;
       const internal::ComponentFrame& f = p.f;
+      if (p.method == Method::kBlobSampled) {
+        add_blob_row(p, y, dx, dy, edges, acc_re.data(), acc_im.data());
+        continue;
+      }
       double row_weight = 0.0;
       if (p.method == Method::kBlobExact) row_weight = box_average_gauss(y - 0.5 * dy, y + 0.5 * dy, f.y0, p.sy);
       for (int ix = p.col0; ix <= p.col1; ++ix) {
@@ -205,8 +228,7 @@ void raster_into(const Phantom& ph, int ny, int nx, const RasterOptions& o, cflo
           case Method::kBlobExact:
             w = row_weight * p.col_weight[static_cast<size_t>(ix - p.col0)];
             break;
-          case Method::kBlobSampled:
-            w = blob_sampled(f, x, y, dx, dy, p.samples);
+          case Method::kBlobSampled:  // handled row-wise above
             break;
         }
         acc_re[static_cast<size_t>(ix)] += w * f.rho_re;
