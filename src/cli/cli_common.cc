@@ -10,6 +10,7 @@
 
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/ops/fft.h"
 
 namespace recofold::cli {
 
@@ -26,6 +27,7 @@ Provenance make_provenance(const Context& ctx) {
 
 void apply_threads(const Context& ctx) {
   if (ctx.threads > 0) omp_set_num_threads(ctx.threads);
+  set_fft_threads(ctx.threads);  // 0: all cores
 }
 
 void require_output_path(const std::string& path, const std::string& flag,

@@ -1,0 +1,167 @@
+// SPDX-License-Identifier: Apache-2.0
+// `recofold simulate`: make an MRI (k-space) or CT (sinogram) measurement file from a phantom.
+#include <cmath>
+#include <limits>
+#include <memory>
+#include <string>
+
+#include "cli_common.h"
+#include "ct_cli.h"
+#include "mri_cli.h"
+#include "recofold/acquire/mri.h"
+#include "recofold/core/atomic_file.h"
+#include "recofold/core/error.h"
+#include "recofold/io/image_export.h"
+#include "recofold/io/measurement_file.h"
+#include "recofold/phantom/phantom_table.h"
+
+namespace recofold::cli {
+
+namespace {
+
+const char* kMriGroup = "MRI (--modality mri)";
+
+struct SimulateFlags {
+  std::string phantom, modality, truth, out, mask;
+  int index = 0;
+  uint64_t seed = 0;
+  int coils = 1;
+  double noise = 0.0;
+  double snr_db = std::numeric_limits<double>::quiet_NaN();
+  double coil_correlation = 0.0;
+  int oversampling = 2;
+  CtSimulateFlags ct;
+};
+
+// Flags that belong to one modality: their presence with the other one is an error.
+void refuse_other_modality_flags(const CLI::App& sub, const std::string& modality) {
+  for (const CLI::Option* opt : sub.get_options()) {
+    if (opt->count() == 0) continue;
+    const std::string& g = opt->get_group();
+    const bool is_mri = g == kMriGroup, is_ct = g.rfind("CT", 0) == 0;
+    if ((modality == "mri" && is_ct) || (modality == "ct" && is_mri))
+      throw InputError("", opt->get_name(), "does not apply to --modality " + modality);
+  }
+}
+
+void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
+  // Every check before any work: bad input leaves no output.
+  require_output_path(f.out, "--out", {".h5"});
+  if (f.modality != "mri" && f.modality != "ct")
+    throw InputError("", "--modality", "'" + f.modality + "'; expected mri or ct");
+  refuse_other_modality_flags(sub, f.modality);
+  if (!f.truth.empty() && f.truth != "analytic" && f.truth != "discrete")
+    throw InputError("", "--truth", "'" + f.truth + "'; expected analytic or discrete");
+  if (f.index < 0) throw InputError("", "--index", "must be >= 0");
+  if (!file_exists(f.phantom)) throw InputError(f.phantom, "--phantom", "file not found");
+
+  const ImageRecord rec = read_image_any(f.phantom);
+  const Shape& s = rec.pixels.shape;
+  const Index count = s.rank() == 3 ? s[0] : 1;
+  if (f.index >= count)
+    throw InputError(f.phantom, "--index", std::to_string(f.index) + " is out of range; the file holds " +
+                                               std::to_string(count) + " object" + (count == 1 ? "" : "s"));
+  const Index ny = s[s.rank() - 2], nx = s[s.rank() - 1], n = ny * nx;
+  ImageC raster(ny, nx);
+  std::copy(rec.pixels.data.begin() + f.index * n, rec.pixels.data.begin() + (f.index + 1) * n, raster.data());
+  std::unique_ptr<Phantom> analytic;
+  const auto table = rec.tables.find(kPhantomTablePath);
+  if (table != rec.tables.end()) analytic = std::make_unique<Phantom>(phantom_from_table(table->second, f.phantom, f.index));
+  bool analytic_truth = f.truth.empty() ? analytic != nullptr : f.truth == "analytic";
+  if (analytic_truth && !analytic)
+    throw InputError(f.phantom, "--truth",
+                     "analytic needs a phantom file with a component table (/phantom/components); this file has "
+                     "pixels only: use --truth discrete");
+  const double spacing = rec.pixel_spacing_mm[0];
+
+  Provenance prov = make_provenance(ctx);
+  prov.extra["phantom_file"] = f.phantom;
+  prov.extra["phantom_checksum_fnv1a64"] = file_checksum(f.phantom);
+  prov.extra["phantom_index"] = std::to_string(f.index);
+  prov.extra["seed"] = std::to_string(f.seed);
+  prov.extra["truth"] = analytic_truth ? "analytic" : "discrete (from the pixels)";
+
+  apply_threads(ctx);
+  Measurement m;
+  std::string summary;
+  if (f.modality == "ct") {
+    NdArray<cfloat> pix(Shape{ny, nx});
+    std::copy(raster.data(), raster.data() + n, pix.data.begin());
+    m = simulate_ct_measurement(f.ct, analytic.get(), pix, spacing, analytic_truth, f.seed);
+    summary = "CT sinogram " + m.ct->sinogram.shape.to_string();
+  } else {
+    SamplingMask mask;
+    if (f.mask.empty()) {
+      mask.mask = NdArray<uint8_t>(Shape{ny, nx}, 1);
+      mask.pattern = "full";
+      mask.samples = n;
+      mask.achieved_acceleration = 1.0;
+    } else {
+      mask = read_mask_any(f.mask, "--mask");
+      if (mask.mask.shape != Shape{ny, nx})
+        throw InputError(f.mask, "--mask",
+                         "mask shape " + mask.mask.shape.to_string() + " differs from the image shape " +
+                             Shape{ny, nx}.to_string() + " of " + f.phantom);
+      if (mask.achieved_acceleration > 64.0)
+        throw InputError(f.mask, "--mask",
+                         "acceleration R = " + std::to_string(mask.achieved_acceleration) + " is above 64");
+      prov.extra["mask_file"] = f.mask;
+      prov.extra["mask_checksum_fnv1a64"] = file_checksum(f.mask);
+    }
+    MriSimulationOptions o;
+    o.coil_array.coils = f.coils;
+    o.truth = analytic_truth ? MriTruth::kAnalytic : MriTruth::kDiscrete;
+    o.oversampling = f.oversampling;
+    o.noise_sigma = f.noise;
+    o.snr_db = f.snr_db;
+    o.coil_correlation = f.coil_correlation;
+    o.seed = f.seed;
+    m = simulate_mri(analytic.get(), raster, spacing, mask, o);
+    m.pixel_spacing_mm[0] = rec.pixel_spacing_mm[0];
+    m.pixel_spacing_mm[1] = rec.pixel_spacing_mm[1];
+    char buf[256];
+    std::snprintf(buf, sizeof buf, "MRI k-space [%d, %lld, %lld], %s, R %.3f, noise sigma %.4g", f.coils,
+                  static_cast<long long>(ny), static_cast<long long>(nx), mask.pattern.c_str(),
+                  mask.achieved_acceleration, m.mri->noise_sigma);
+    summary = buf;
+  }
+  m.provenance = prov;
+  write_measurement_file(f.out, m);
+  say(ctx, "wrote " + f.out + ": " + summary + ", truth " + m.truth_kind);
+}
+
+}  // namespace
+
+void register_cmd_simulate(CLI::App& app, Context& ctx) {
+  auto f = std::make_shared<SimulateFlags>();
+  CLI::App* sub = app.add_subcommand("simulate", "Simulate an MRI or CT measurement of a phantom");
+  sub->add_option("--phantom", f->phantom, "Object: a phantom file from `recofold phantom`, or any image file")->required();
+  sub->add_option("--index", f->index, "Object I of a phantom file holding a stack (default 0)");
+  sub->add_option("--modality", f->modality, "mri | ct")->required();
+  sub->add_option("--truth", f->truth,
+                  "analytic (exact transform/line integrals of the component table; the default when the file has "
+                  "one) | discrete (from the pixels: the 'inverse crime'; the default for pixel-only objects)");
+  sub->add_option("--seed", f->seed, "Seed of the noise (default 0)");
+  sub->add_option("--out", f->out, "Measurement file (.h5)")->required();
+  sub->add_option("--mask", f->mask, "MRI: sampling mask (.h5 from `recofold mask`, or .png); default fully sampled")
+      ->group(kMriGroup);
+  sub->add_option("--coils", f->coils, "MRI: receive coils around the field of view, 1..32 (default 1)")->group(kMriGroup);
+  sub->add_option("--noise", f->noise,
+                  "MRI: noise std of the real and of the imaginary part of each k-space sample (default 0); "
+                  "equals the image-domain std (orthonormal FFT)")
+      ->group(kMriGroup);
+  sub->add_option("--snr-db", f->snr_db,
+                  "MRI: noise from an SNR instead: 10 log10(mean |clean sample|^2 / (2 sigma^2))")
+      ->group(kMriGroup);
+  sub->add_option("--coil-correlation", f->coil_correlation,
+                  "MRI: noise correlation of neighbouring coils, rho in [0, 1) (rho^d at ring distance d)")
+      ->group(kMriGroup);
+  sub->add_option("--oversampling", f->oversampling,
+                  "MRI multi-coil analytic: raster object x coil map this many times finer, 2..8 (default 2)")
+      ->group(kMriGroup);
+  add_ct_simulate_flags(*sub, f->ct);
+  sub->footer(std::string(kResearchUseLine));
+  sub->callback([f, sub, &ctx] { run_simulate(*f, *sub, ctx); });
+}
+
+}  // namespace recofold::cli
