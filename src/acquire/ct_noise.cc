@@ -50,8 +50,8 @@ std::vector<double> incident_photons(const TransmissionNoiseOptions& o, Index de
   return i0;
 }
 
-std::vector<double> transmission_counts(const TransmissionNoiseOptions& o, const float* p, Index views,
-                                        Index detectors, uint64_t seed) {
+std::vector<double> transmission_counts(
+    const TransmissionNoiseOptions& o, const float* p, Index views, Index detectors, uint64_t seed) {
   check(o);
   const std::vector<double> i0 = incident_photons(o, detectors);
   std::vector<double> counts(static_cast<size_t>(views * detectors));
@@ -73,8 +73,7 @@ float counts_to_line_integral(double counts, double i0) {
   return static_cast<float>(-std::log(std::max(counts, 1.0) / i0));
 }
 
-void add_transmission_noise(const TransmissionNoiseOptions& o, float* p, Index views, Index detectors,
-                            uint64_t seed) {
+void add_transmission_noise(const TransmissionNoiseOptions& o, float* p, Index views, Index detectors, uint64_t seed) {
   const std::vector<double> counts = transmission_counts(o, p, views, detectors, seed);
   const std::vector<double> i0 = incident_photons(o, detectors);
   for (Index v = 0; v < views; ++v)

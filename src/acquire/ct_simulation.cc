@@ -40,10 +40,11 @@ CtData simulate_ct(const CtSimulationOptions& o, const Phantom* phantom, const I
     if (phantom == nullptr) throw InputError("", "phantom", "exact line integrals need an analytic phantom");
     const double width = double(g.nx) * g.pixel_size_mm;
     if (g.nx != g.ny)
-      throw InputError("", "phantom", "exact CT needs a square grid; got " + std::to_string(g.ny) + "x" +
-                                          std::to_string(g.nx));
+      throw InputError("", "phantom",
+                       "exact CT needs a square grid; got " + std::to_string(g.ny) + "x" + std::to_string(g.nx));
     if (std::abs(width - phantom->fov_mm) > 1e-3 * phantom->fov_mm)
-      throw InputError("", "phantom", "fov_mm = " + num(phantom->fov_mm) + " but the grid is " + num(width) + " mm wide");
+      throw InputError("", "phantom",
+                       "fov_mm = " + num(phantom->fov_mm) + " but the grid is " + num(width) + " mm wide");
     const double unit = phantom->mm_per_unit();
     std::vector<LineThrough> rays(static_cast<size_t>(nv * nd));
     for (Index v = 0; v < nv; ++v)
@@ -67,7 +68,8 @@ CtData simulate_ct(const CtSimulationOptions& o, const Phantom* phantom, const I
   double mu = o.mu_per_mm;
   if (automatic) {
     if (!(largest > 0.0f))
-      throw InputError("", "mu_per_mm", "cannot choose the attenuation automatically: the object has no positive line integral");
+      throw InputError("", "mu_per_mm",
+                       "cannot choose the attenuation automatically: the object has no positive line integral");
     mu = kAutoLargestLineIntegral / double(largest);
   }
   for (auto& s : sino.data) s = static_cast<float>(s * mu);

@@ -61,15 +61,12 @@ void add_ct_simulate_flags(CLI::App& sub, CtSimulateFlags& f) {
   f.given.arc = sub.add_option("--arc", f.arc_deg,
                                "CT: arc in degrees, (0, 360]; < 180 is limited-angle (default 180 parallel, 360 fan)")
                     ->group(g);
-  f.given.golden = sub.add_flag("--golden", f.golden, "CT: golden-angle view order (111.246 deg steps over 180)")
-                       ->group(g);
+  f.given.golden =
+      sub.add_flag("--golden", f.golden, "CT: golden-angle view order (111.246 deg steps over 180)")->group(g);
   sub.add_option("--views-file", f.views_file, "CT: view angles in degrees, one per line ('#' comments)")->group(g);
   sub.add_option("--view-spec", f.view_spec, "CT: view protocol, e.g. sampling-masks/ct-sparse-60.toml")->group(g);
-  f.given.geometry =
-      sub.add_option("--geometry", f.geometry, "CT: parallel | fan")->capture_default_str()->group(g);
-  sub.add_option("--detector-shape", f.detector_shape, "CT fan: equiangular | flat")
-      ->capture_default_str()
-      ->group(g);
+  f.given.geometry = sub.add_option("--geometry", f.geometry, "CT: parallel | fan")->capture_default_str()->group(g);
+  sub.add_option("--detector-shape", f.detector_shape, "CT fan: equiangular | flat")->capture_default_str()->group(g);
   f.given.detectors =
       sub.add_option("--detectors", f.detectors, "CT: detector elements (default ceil(sqrt(2) * grid size))")->group(g);
   f.given.spacing = sub.add_option("--detector-spacing", f.detector_spacing_mm,
@@ -96,8 +93,12 @@ void add_ct_simulate_flags(CLI::App& sub, CtSimulateFlags& f) {
                    ->group(g);
 }
 
-Measurement simulate_ct_measurement(const CtSimulateFlags& f, const Phantom* analytic, const NdArray<cfloat>& raster,
-                                    double pixel_spacing_mm, bool analytic_truth, uint64_t seed) {
+Measurement simulate_ct_measurement(const CtSimulateFlags& f,
+                                    const Phantom* analytic,
+                                    const NdArray<cfloat>& raster,
+                                    double pixel_spacing_mm,
+                                    bool analytic_truth,
+                                    uint64_t seed) {
   FlagErrors errors;
   const auto beam_from_flag = parse_ct_beam(f.geometry);
   if (!beam_from_flag) errors.add("--geometry", "= '" + f.geometry + "'; expected parallel or fan");
@@ -131,7 +132,8 @@ Measurement simulate_ct_measurement(const CtSimulateFlags& f, const Phantom* ana
   if (sources > 0 && (given(f.given.views) || given(f.given.arc) || given(f.given.golden)))
     errors.add(f.view_spec.empty() ? "--views-file" : "--view-spec", "conflicts with --views/--arc/--golden");
   if (!(pixel_spacing_mm > 0.0)) errors.add("--phantom", "pixel spacing " + num(pixel_spacing_mm) + " mm; must be > 0");
-  if (raster.shape.rank() < 2) errors.add("--phantom", "image of shape " + raster.shape.to_string() + "; need [ny, nx]");
+  if (raster.shape.rank() < 2)
+    errors.add("--phantom", "image of shape " + raster.shape.to_string() + "; need [ny, nx]");
   if (analytic_truth && analytic == nullptr)
     errors.add("--truth", "analytic needs a phantom file with a component table; use --truth discrete");
   errors.throw_if_any();
@@ -169,8 +171,8 @@ Measurement simulate_ct_measurement(const CtSimulateFlags& f, const Phantom* ana
   g.ny = ny;
   g.nx = nx;
   g.pixel_size_mm = pixel_spacing_mm;
-  g.detector_count = f.detectors > 0 ? f.detectors
-                                     : static_cast<Index>(std::ceil(std::sqrt(2.0) * double(std::max(ny, nx))));
+  g.detector_count =
+      f.detectors > 0 ? f.detectors : static_cast<Index>(std::ceil(std::sqrt(2.0) * double(std::max(ny, nx))));
   g.detector_offset_mm = f.detector_offset_mm;
   if (beam == CtBeam::kFan) {
     g.source_to_isocenter_mm = f.source_to_isocenter_mm > 0.0 ? f.source_to_isocenter_mm : 2.0 * fov;

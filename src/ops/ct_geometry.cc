@@ -28,9 +28,7 @@ std::optional<CtBeam> parse_ct_beam(std::string_view text) {
   return std::nullopt;
 }
 
-std::string_view to_string(FanDetector shape) {
-  return shape == FanDetector::kFlat ? "flat" : "equiangular";
-}
+std::string_view to_string(FanDetector shape) { return shape == FanDetector::kFlat ? "flat" : "equiangular"; }
 
 std::optional<FanDetector> parse_fan_detector(std::string_view text) {
   if (text == "flat") return FanDetector::kFlat;
@@ -51,8 +49,7 @@ std::vector<std::string> CtGeometry::validate() const {
       break;
     }
   }
-  if (detector_count < 1)
-    errors.push_back("detector_count = " + std::to_string(detector_count) + "; must be >= 1");
+  if (detector_count < 1) errors.push_back("detector_count = " + std::to_string(detector_count) + "; must be >= 1");
   if (!(detector_spacing_mm > 0.0) || !std::isfinite(detector_spacing_mm))
     errors.push_back("detector_spacing_mm = " + num(detector_spacing_mm) + "; must be > 0");
   if (!std::isfinite(detector_offset_mm))
@@ -65,8 +62,7 @@ std::vector<std::string> CtGeometry::validate() const {
     const double r_obj = image_half_diagonal_mm();
     if (!(source_to_isocenter_mm > r_obj) || !std::isfinite(source_to_isocenter_mm))
       errors.push_back("source_to_isocenter_mm = " + num(source_to_isocenter_mm) +
-                       "; the source must lie outside the circle enclosing the image (radius " + num(r_obj) +
-                       " mm)");
+                       "; the source must lie outside the circle enclosing the image (radius " + num(r_obj) + " mm)");
     if (!(source_to_detector_mm > source_to_isocenter_mm) || !std::isfinite(source_to_detector_mm))
       errors.push_back("source_to_detector_mm = " + num(source_to_detector_mm) +
                        "; must exceed source_to_isocenter_mm = " + num(source_to_isocenter_mm));
@@ -162,9 +158,9 @@ CtGeometry ct_geometry_from(const Measurement& m, const std::string& file) {
   g.nx = m.nx;
   g.pixel_size_mm = m.pixel_spacing_mm[1];
   if (std::abs(m.pixel_spacing_mm[0] - m.pixel_spacing_mm[1]) > 1e-6 * std::abs(m.pixel_spacing_mm[1]))
-    throw InputError(file, "pixel_spacing_mm",
-                     "CT needs square pixels; got (" + num(m.pixel_spacing_mm[0]) + ", " +
-                         num(m.pixel_spacing_mm[1]) + ")");
+    throw InputError(
+        file, "pixel_spacing_mm",
+        "CT needs square pixels; got (" + num(m.pixel_spacing_mm[0]) + ", " + num(m.pixel_spacing_mm[1]) + ")");
   const auto errors = g.validate();
   if (!errors.empty()) {
     std::string all;

@@ -46,6 +46,20 @@ inline void ray_scatter(float* grid, Index stride, float start, float slope, int
   }
 }
 
+// Detector range [lo, hi] whose positions base + j * delta lie in [0, n + 1)
+// for j in [0, count); estimate, then settle with the exact float expression
+// (positions are monotone in j). Empty when lo > hi.
+inline void detector_range(float base, float delta, int n, int count, int& lo, int& hi) {
+  const double a = (0.0 - base) / delta, b = (n + 1.0 - base) / delta;
+  lo = static_cast<int>(std::clamp(std::floor(std::min(a, b)), 0.0, double(count - 1)));
+  hi = static_cast<int>(std::clamp(std::ceil(std::max(a, b)), 0.0, double(count - 1)));
+  auto in = [&](int j) { return inside(base + static_cast<float>(j) * delta, n); };
+  while (lo > 0 && in(lo - 1)) --lo;
+  while (lo <= hi && !in(lo)) ++lo;
+  while (hi < count - 1 && in(hi + 1)) ++hi;
+  while (hi >= lo && !in(hi)) --hi;
+}
+
 }  // namespace
 
 JosephProjector::JosephProjector(CtGeometry geometry, double scale) : geometry_(std::move(geometry)), scale_(scale) {
@@ -60,38 +74,62 @@ JosephProjector::JosephProjector(CtGeometry geometry, double scale) : geometry_(
   const Index nv = g.view_count(), nd = g.detector_count;
   const double px = g.pixel_size_mm;
   const double cx = 0.5 * double(g.nx - 1), cy = 0.5 * double(g.ny - 1);
+  parallel_ = g.beam == CtBeam::kParallel;
+
+  // Start (double), slope, weight and axis of ray (v, j).
+  struct Line {
+    double start, slope, weight;
+    bool by_rows;
+  };
+  auto line_of = [&](Index v, Index j) {
+    const CtRay cr = g.ray(v, j);
+    double wx = cr.bx - cr.ax, wy = cr.by - cr.ay;
+    const double len = std::hypot(wx, wy);
+    wx /= len;
+    wy /= len;
+    Line l;
+    if (std::abs(wy) >= std::abs(wx)) {
+      // Row r sits at y = (cy - r) px; padded column = x / px + cx + 1.
+      const double y0 = cy * px;
+      const double x0 = cr.ax + (y0 - cr.ay) * wx / wy;
+      l = Line{x0 / px + cx + 1.0, -wx / wy, px / std::abs(wy), true};
+    } else {
+      // Column c sits at x = (c - cx) px; padded row = cy - y / px + 1.
+      const double x0 = -cx * px;
+      const double y0 = cr.ay + (x0 - cr.ax) * wy / wx;
+      l = Line{cy - y0 / px + 1.0, -wy / wx, px / std::abs(wx), false};
+    }
+    return l;
+  };
+
+  if (parallel_) {
+    views_.resize(static_cast<size_t>(nv));
+    for (Index v = 0; v < nv; ++v) {
+      const Line first = line_of(v, 0);
+      ParallelView& pv = views_[static_cast<size_t>(v)];
+      pv.by_rows = first.by_rows;
+      pv.start0 = static_cast<float>(first.start);
+      pv.delta = nd > 1 ? static_cast<float>((line_of(v, nd - 1).start - first.start) / double(nd - 1)) : 1.0f;
+      if (pv.delta == 0.0f) pv.delta = 1e-30f;  // only for a single detector
+      pv.slope = static_cast<float>(first.slope);
+      pv.weight = static_cast<float>(first.weight);
+      any_by_columns_ = any_by_columns_ || !pv.by_rows;
+    }
+    return;
+  }
+
   rays_.resize(static_cast<size_t>(nv * nd));
   for (Index v = 0; v < nv; ++v) {
     for (Index j = 0; j < nd; ++j) {
-      const CtRay cr = g.ray(v, j);
-      double wx = cr.bx - cr.ax, wy = cr.by - cr.ay;
-      const double len = std::hypot(wx, wy);
-      wx /= len;
-      wy /= len;
+      const Line l = line_of(v, j);
       Ray& ray = rays_[static_cast<size_t>(v * nd + j)];
-      int steps, n;
-      if (std::abs(wy) >= std::abs(wx)) {
-        // Row r sits at y = (cy - r) px; padded column = x / px + cx + 1.
-        ray.by_rows = true;
-        const double y0 = cy * px;
-        const double x0 = cr.ax + (y0 - cr.ay) * wx / wy;
-        ray.start = static_cast<float>(x0 / px + cx + 1.0);
-        ray.slope = static_cast<float>(-wx / wy);
-        ray.weight = static_cast<float>(px / std::abs(wy));
-        steps = static_cast<int>(g.ny);
-        n = static_cast<int>(g.nx);
-      } else {
-        // Column c sits at x = (c - cx) px; padded row = cy - y / px + 1.
-        ray.by_rows = false;
-        any_by_columns_ = true;
-        const double x0 = -cx * px;
-        const double y0 = cr.ay + (x0 - cr.ax) * wy / wx;
-        ray.start = static_cast<float>(cy - y0 / px + 1.0);
-        ray.slope = static_cast<float>(-wy / wx);
-        ray.weight = static_cast<float>(px / std::abs(wx));
-        steps = static_cast<int>(g.nx);
-        n = static_cast<int>(g.ny);
-      }
+      ray.by_rows = l.by_rows;
+      ray.start = static_cast<float>(l.start);
+      ray.slope = static_cast<float>(l.slope);
+      ray.weight = static_cast<float>(l.weight);
+      any_by_columns_ = any_by_columns_ || !l.by_rows;
+      const int steps = static_cast<int>(l.by_rows ? g.ny : g.nx);
+      const int n = static_cast<int>(l.by_rows ? g.nx : g.ny);
       // Steps whose position lies in [0, n+1): estimate, then settle with the
       // exact float expression (positions are monotone in r).
       int lo = 0, hi = steps - 1;
@@ -118,72 +156,183 @@ std::string JosephProjector::name() const {
 
 void JosephProjector::project(const float* image, float* sinogram) const {
   const Index ny = geometry_.ny, nx = geometry_.nx;
-  const Index nv = geometry_.view_count(), nd = geometry_.detector_count;
   const Index rs = nx + 2, cs = ny + 2;
   std::vector<float> rows(static_cast<size_t>(ny * rs), 0.0f);
   std::vector<float> cols(any_by_columns_ ? static_cast<size_t>(nx * cs) : 0, 0.0f);
 #pragma omp parallel
   {
 #pragma omp for schedule(static)
-    for (Index r = 0; r < ny; ++r)
-      std::copy(image + r * nx, image + (r + 1) * nx, rows.data() + r * rs + 1);
+    for (Index r = 0; r < ny; ++r) std::copy(image + r * nx, image + (r + 1) * nx, rows.data() + r * rs + 1);
     if (any_by_columns_) {
+      // Blocked transpose into the padded column grid.
 #pragma omp for schedule(static)
-      for (Index c = 0; c < nx; ++c)
-        for (Index r = 0; r < ny; ++r) cols[static_cast<size_t>(c * cs + r + 1)] = image[r * nx + c];
+      for (Index c0 = 0; c0 < nx; c0 += 32)
+        for (Index r0 = 0; r0 < ny; r0 += 32)
+          for (Index c = c0; c < std::min(c0 + 32, nx); ++c)
+            for (Index r = r0; r < std::min(r0 + 32, ny); ++r)
+              cols[static_cast<size_t>(c * cs + r + 1)] = image[r * nx + c];
     }
+  }
+  if (parallel_)
+    project_parallel(rows.data(), cols.data(), sinogram);
+  else
+    project_rays(rows.data(), cols.data(), sinogram);
+}
+
+void JosephProjector::project_parallel(const float* rows, const float* cols, float* sinogram) const {
+  const Index nv = geometry_.view_count(), nd = geometry_.detector_count;
+  const Index rs = geometry_.nx + 2, cs = geometry_.ny + 2;
+#pragma omp parallel
+  {
+    std::vector<float> acc(static_cast<size_t>(nd));
 #pragma omp for schedule(dynamic, 1)
     for (Index v = 0; v < nv; ++v) {
-      for (Index j = 0; j < nd; ++j) {
-        const Ray& ray = rays_[static_cast<size_t>(v * nd + j)];
-        float s = 0.0f;
-        if (ray.lo <= ray.hi) {
-          s = ray.by_rows ? ray_sum(rows.data(), rs, ray.start, ray.slope, ray.lo, ray.hi)
-                          : ray_sum(cols.data(), cs, ray.start, ray.slope, ray.lo, ray.hi);
+      const ParallelView& pv = views_[static_cast<size_t>(v)];
+      const float* grid = pv.by_rows ? rows : cols;
+      const Index stride = pv.by_rows ? rs : cs;
+      const int steps = static_cast<int>(pv.by_rows ? geometry_.ny : geometry_.nx);
+      const int n = static_cast<int>(pv.by_rows ? geometry_.nx : geometry_.ny);
+      std::fill(acc.begin(), acc.end(), 0.0f);
+      float* a = acc.data();
+      const float delta = pv.delta;
+      for (int r = 0; r < steps; ++r) {
+        const float base = position(pv.start0, pv.slope, r);
+        int lo, hi;
+        detector_range(base, delta, n, static_cast<int>(nd), lo, hi);
+        const float* row = grid + r * stride;
+#pragma omp simd
+        for (int j = lo; j <= hi; ++j) {
+          const float p = base + static_cast<float>(j) * delta;
+          const int i = static_cast<int>(p);
+          const float f = p - static_cast<float>(i);
+          a[j] += row[i] + f * (row[i + 1] - row[i]);
         }
-        sinogram[v * nd + j] = static_cast<float>(scale_ * ray.weight * s);
       }
+      const float w = static_cast<float>(scale_ * pv.weight);
+      for (Index j = 0; j < nd; ++j) sinogram[v * nd + j] = w * a[j];
+    }
+  }
+}
+
+void JosephProjector::project_rays(const float* rows, const float* cols, float* sinogram) const {
+  const Index nv = geometry_.view_count(), nd = geometry_.detector_count;
+  const Index rs = geometry_.nx + 2, cs = geometry_.ny + 2;
+#pragma omp parallel for schedule(dynamic, 1)
+  for (Index v = 0; v < nv; ++v) {
+    for (Index j = 0; j < nd; ++j) {
+      const Ray& ray = rays_[static_cast<size_t>(v * nd + j)];
+      float s = 0.0f;
+      if (ray.lo <= ray.hi) {
+        s = ray.by_rows ? ray_sum(rows, rs, ray.start, ray.slope, ray.lo, ray.hi)
+                        : ray_sum(cols, cs, ray.start, ray.slope, ray.lo, ray.hi);
+      }
+      sinogram[v * nd + j] = static_cast<float>(scale_ * ray.weight * s);
     }
   }
 }
 
 void JosephProjector::back_project(const float* sinogram, float* image) const {
   const Index ny = geometry_.ny, nx = geometry_.nx;
-  const Index nrays = static_cast<Index>(rays_.size());
   const Index rs = nx + 2, cs = ny + 2;
   std::vector<float> rows(static_cast<size_t>(ny * rs), 0.0f);
   std::vector<float> cols(any_by_columns_ ? static_cast<size_t>(nx * cs) : 0, 0.0f);
+  if (parallel_)
+    back_project_parallel(sinogram, rows.data(), cols.data());
+  else
+    back_project_rays(sinogram, rows.data(), cols.data());
+#pragma omp parallel for schedule(static)
+  for (Index r = 0; r < ny; ++r) {
+    for (Index c = 0; c < nx; ++c) {
+      float v = rows[static_cast<size_t>(r * rs + c + 1)];
+      if (any_by_columns_) v += cols[static_cast<size_t>(c * cs + r + 1)];
+      image[r * nx + c] = v;
+    }
+  }
+}
+
+void JosephProjector::back_project_parallel(const float* sinogram, float* rows, float* cols) const {
+  const Index ny = geometry_.ny, nx = geometry_.nx;
+  const Index nv = geometry_.view_count(), nd = geometry_.detector_count;
+  const Index rs = nx + 2, cs = ny + 2;
   const Index row_blocks = (ny + kBlock - 1) / kBlock, col_blocks = (nx + kBlock - 1) / kBlock;
   const Index col_tasks = any_by_columns_ ? col_blocks : 0;
+  // Sinogram times each view's scale * weight, once.
+  std::vector<float> sw(static_cast<size_t>(nv * nd));
+  for (Index v = 0; v < nv; ++v) {
+    const float w = static_cast<float>(scale_ * views_[static_cast<size_t>(v)].weight);
+    for (Index j = 0; j < nd; ++j) sw[static_cast<size_t>(v * nd + j)] = w * sinogram[v * nd + j];
+  }
+  // Each task owns a block of rows of one accumulator: no two threads write
+  // the same element.
 #pragma omp parallel
   {
-    // Each task owns a block of rows of one accumulator: no two threads write
-    // the same element.
+    std::vector<int> index_buf(static_cast<size_t>(nd));
+    std::vector<float> left_buf(static_cast<size_t>(nd)), right_buf(static_cast<size_t>(nd));
+    int* index = index_buf.data();
+    float* left = left_buf.data();
+    float* right = right_buf.data();
 #pragma omp for schedule(dynamic, 1)
     for (Index task = 0; task < row_blocks + col_tasks; ++task) {
       const bool by_rows = task < row_blocks;
       const Index b = by_rows ? task : task - row_blocks;
       const int b0 = static_cast<int>(b * kBlock);
-      const int b1 = static_cast<int>(std::min<Index>((b + 1) * kBlock, by_rows ? ny : nx)) - 1;
-      float* grid = by_rows ? rows.data() : cols.data();
+      const int b1 = static_cast<int>(std::min<Index>((b + 1) * kBlock, by_rows ? ny : nx));
+      float* grid = by_rows ? rows : cols;
       const Index stride = by_rows ? rs : cs;
-      for (Index k = 0; k < nrays; ++k) {
-        const Ray& ray = rays_[static_cast<size_t>(k)];
-        if (ray.by_rows != by_rows) continue;
-        const int lo = std::max(ray.lo, b0), hi = std::min(ray.hi, b1);
-        if (lo > hi) continue;
-        const float value = static_cast<float>(scale_ * ray.weight * sinogram[k]);
-        if (value == 0.0f) continue;
-        ray_scatter(grid, stride, ray.start, ray.slope, lo, hi, value);
+      const int n = static_cast<int>(by_rows ? nx : ny);
+      for (Index v = 0; v < nv; ++v) {
+        const ParallelView& pv = views_[static_cast<size_t>(v)];
+        if (pv.by_rows != by_rows) continue;
+        const float* s = sw.data() + v * nd;
+        const float delta = pv.delta;
+        for (int r = b0; r < b1; ++r) {
+          const float base = position(pv.start0, pv.slope, r);
+          int lo, hi;
+          detector_range(base, delta, n, static_cast<int>(nd), lo, hi);
+          float* row = grid + r * stride;
+          // Positions and weights first (vectorised), then the scatter, which
+          // may hit one pixel from several rays and so stays scalar.
+#pragma omp simd
+          for (int j = lo; j <= hi; ++j) {
+            const float p = base + static_cast<float>(j) * delta;
+            const int i = static_cast<int>(p);
+            const float f = p - static_cast<float>(i);
+            index[j] = i;
+            right[j] = f * s[j];
+            left[j] = s[j] - right[j];
+          }
+          for (int j = lo; j <= hi; ++j) {
+            row[index[j]] += left[j];
+            row[index[j] + 1] += right[j];
+          }
+        }
       }
     }
-#pragma omp for schedule(static)
-    for (Index r = 0; r < ny; ++r) {
-      for (Index c = 0; c < nx; ++c) {
-        float v = rows[static_cast<size_t>(r * rs + c + 1)];
-        if (any_by_columns_) v += cols[static_cast<size_t>(c * cs + r + 1)];
-        image[r * nx + c] = v;
-      }
+  }
+}
+
+void JosephProjector::back_project_rays(const float* sinogram, float* rows, float* cols) const {
+  const Index ny = geometry_.ny, nx = geometry_.nx;
+  const Index nrays = static_cast<Index>(rays_.size());
+  const Index rs = nx + 2, cs = ny + 2;
+  const Index row_blocks = (ny + kBlock - 1) / kBlock, col_blocks = (nx + kBlock - 1) / kBlock;
+  const Index col_tasks = any_by_columns_ ? col_blocks : 0;
+#pragma omp parallel for schedule(dynamic, 1)
+  for (Index task = 0; task < row_blocks + col_tasks; ++task) {
+    const bool by_rows = task < row_blocks;
+    const Index b = by_rows ? task : task - row_blocks;
+    const int b0 = static_cast<int>(b * kBlock);
+    const int b1 = static_cast<int>(std::min<Index>((b + 1) * kBlock, by_rows ? ny : nx)) - 1;
+    float* grid = by_rows ? rows : cols;
+    const Index stride = by_rows ? rs : cs;
+    for (Index k = 0; k < nrays; ++k) {
+      const Ray& ray = rays_[static_cast<size_t>(k)];
+      if (ray.by_rows != by_rows) continue;
+      const int lo = std::max(ray.lo, b0), hi = std::min(ray.hi, b1);
+      if (lo > hi) continue;
+      const float value = static_cast<float>(scale_ * ray.weight * sinogram[k]);
+      if (value == 0.0f) continue;
+      ray_scatter(grid, stride, ray.start, ray.slope, lo, hi, value);
     }
   }
 }
@@ -225,8 +374,7 @@ void JosephProjector::adjoint(const VecC& y, VecC& x) const {
 std::unique_ptr<JosephProjector> make_ct_operator(const Measurement& m, const std::string& file) {
   CtGeometry g = ct_geometry_from(m, file);
   const double mu = m.ct->mu_per_mm;
-  if (!(mu > 0.0) || !std::isfinite(mu))
-    throw InputError(file, "/ct/mu_per_mm", std::to_string(mu) + "; must be > 0");
+  if (!(mu > 0.0) || !std::isfinite(mu)) throw InputError(file, "/ct/mu_per_mm", std::to_string(mu) + "; must be > 0");
   return std::make_unique<JosephProjector>(std::move(g), mu);
 }
 

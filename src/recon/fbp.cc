@@ -98,18 +98,23 @@ std::string errors_joined(const std::vector<std::string>& errors) {
 
 std::string_view to_string(FbpFilter filter) {
   switch (filter) {
-    case FbpFilter::kRamLak: return "ram-lak";
-    case FbpFilter::kSheppLogan: return "shepp-logan";
-    case FbpFilter::kCosine: return "cosine";
-    case FbpFilter::kHamming: return "hamming";
-    case FbpFilter::kHann: return "hann";
+    case FbpFilter::kRamLak:
+      return "ram-lak";
+    case FbpFilter::kSheppLogan:
+      return "shepp-logan";
+    case FbpFilter::kCosine:
+      return "cosine";
+    case FbpFilter::kHamming:
+      return "hamming";
+    case FbpFilter::kHann:
+      return "hann";
   }
   return "ram-lak";
 }
 
 std::optional<FbpFilter> parse_fbp_filter(std::string_view text) {
-  for (FbpFilter f : {FbpFilter::kRamLak, FbpFilter::kSheppLogan, FbpFilter::kCosine, FbpFilter::kHamming,
-                      FbpFilter::kHann})
+  for (FbpFilter f :
+       {FbpFilter::kRamLak, FbpFilter::kSheppLogan, FbpFilter::kCosine, FbpFilter::kHamming, FbpFilter::kHann})
     if (text == to_string(f)) return f;
   return std::nullopt;
 }
@@ -140,11 +145,20 @@ std::vector<double> fbp_frequency_response(FbpFilter filter, Index p) {
     const double f = (k < p / 2 ? double(k) : double(k - p)) / double(p);
     const double shifted = double((k + p / 2) % p);
     switch (filter) {
-      case FbpFilter::kRamLak: break;
-      case FbpFilter::kSheppLogan: w = k == 0 ? 1.0 : std::sin(M_PI * f) / (M_PI * f); break;
-      case FbpFilter::kCosine: w = std::sin(M_PI * shifted / double(p)); break;
-      case FbpFilter::kHamming: w = 0.54 - 0.46 * std::cos(2.0 * M_PI * shifted / double(p - 1)); break;
-      case FbpFilter::kHann: w = 0.5 - 0.5 * std::cos(2.0 * M_PI * shifted / double(p - 1)); break;
+      case FbpFilter::kRamLak:
+        break;
+      case FbpFilter::kSheppLogan:
+        w = k == 0 ? 1.0 : std::sin(M_PI * f) / (M_PI * f);
+        break;
+      case FbpFilter::kCosine:
+        w = std::sin(M_PI * shifted / double(p));
+        break;
+      case FbpFilter::kHamming:
+        w = 0.54 - 0.46 * std::cos(2.0 * M_PI * shifted / double(p - 1));
+        break;
+      case FbpFilter::kHann:
+        w = 0.5 - 0.5 * std::cos(2.0 * M_PI * shifted / double(p - 1));
+        break;
     }
     out[static_cast<size_t>(k)] = 2.0 * h[static_cast<size_t>(k)].real() * w;
   }
@@ -170,8 +184,9 @@ ImageF fbp(const CtGeometry& g, const float* sinogram, const FbpOptions& options
   const std::vector<double> response = fbp_frequency_response(options.filter, p);
   std::vector<cd> kernel(static_cast<size_t>(p));
   for (Index k = 0; k < p; ++k)
-    kernel[static_cast<size_t>(k)] = 0.25 * (response[static_cast<size_t>(k)] + response[static_cast<size_t>((p - k) % p)]);
-  fft.run(kernel.data(), true);  // now hw(n) (the 2 of the response halved)
+    kernel[static_cast<size_t>(k)] =
+        0.25 * (response[static_cast<size_t>(k)] + response[static_cast<size_t>((p - k) % p)]);
+  fft.run(kernel.data(), true);            // now hw(n) (the 2 of the response halved)
   double spacing = g.detector_spacing_mm;  // tau, alpha or a
   if (fan) spacing = flat ? g.detector_spacing_mm * R / D : g.detector_spacing_mm / D;
   for (Index k = 0; k < p; ++k) {
@@ -262,6 +277,7 @@ ImageF fbp(const CtGeometry& g, const float* sinogram, const FbpOptions& options
           int lo = 0, hi = static_cast<int>(nx) - 1;
           inside_range(u0, du, top, static_cast<int>(nx), lo, hi);
           float* a = facc.data();
+#pragma omp simd
           for (int ix = lo; ix <= hi; ++ix) {
             const float u = u0 + float(ix) * du;
             const int i = static_cast<int>(u);

@@ -34,8 +34,7 @@ std::vector<std::string> ViewSetSpec::validate() const {
   std::vector<std::string> errors;
   if (!file.empty()) return errors;
   if (views < 1) errors.push_back("views = " + std::to_string(views) + "; must be >= 1");
-  if (!(arc_deg > 0.0 && arc_deg <= 360.0))
-    errors.push_back("arc_deg = " + num(arc_deg) + "; must be in (0, 360]");
+  if (!(arc_deg > 0.0 && arc_deg <= 360.0)) errors.push_back("arc_deg = " + num(arc_deg) + "; must be in (0, 360]");
   if (!std::isfinite(start_deg)) errors.push_back("start_deg = " + num(start_deg) + "; must be finite");
   return errors;
 }

@@ -8,13 +8,14 @@
 // Geometry: parallel beam, 1 mm pixels, detector spacing 1 mm, no offset
 // (ct_geometry.h). ANGLES.txt holds degrees, one per line. .npy files are
 // little-endian float32, C order, 2-D (read and written here, no numpy needed).
+#include <algorithm>
 #include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <ctime>
 #include <fstream>
 #include <functional>
-#include <algorithm>
 #include <iostream>
 #include <sstream>
 #include <string>
@@ -97,12 +98,19 @@ recofold::CtGeometry parallel(Index ny, Index nx, std::vector<double> angles, In
   return g;
 }
 
-double seconds_of(const std::function<void()>& f, int repeats) {
+// Best wall-clock time of `repeats` runs; `cpu` gets the process CPU time of
+// that run (all threads), which shows how much a loaded machine stretched it.
+double seconds_of(const std::function<void()>& f, int repeats, double* cpu = nullptr) {
   double best = 1e300;
   for (int r = 0; r < repeats; ++r) {
+    const std::clock_t c0 = std::clock();
     const auto t0 = std::chrono::steady_clock::now();
     f();
-    best = std::min(best, std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count());
+    const double t = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+    if (t < best) {
+      best = t;
+      if (cpu) *cpu = double(std::clock() - c0) / CLOCKS_PER_SEC;
+    }
   }
   return best;
 }
@@ -146,11 +154,14 @@ int run(int argc, char** argv) {
     const double t_setup = seconds_of([&] { recofold::JosephProjector tmp(g); }, repeats);
     recofold::JosephProjector a(g);
     std::vector<float> img(static_cast<size_t>(n * n), 1.0f), s(static_cast<size_t>(a.range_size()));
-    const double t_fp = seconds_of([&] { a.project(img.data(), s.data()); }, repeats);
-    const double t_bp = seconds_of([&] { a.back_project(s.data(), img.data()); }, repeats);
-    const double t_fbp = seconds_of([&] { recofold::fbp(g, s.data(), recofold::FbpOptions{}); }, repeats);
+    double c_fp = 0, c_bp = 0, c_fbp = 0;
+    const double t_fp = seconds_of([&] { a.project(img.data(), s.data()); }, repeats, &c_fp);
+    const double t_bp = seconds_of([&] { a.back_project(s.data(), img.data()); }, repeats, &c_bp);
+    const double t_fbp = seconds_of([&] { recofold::fbp(g, s.data(), recofold::FbpOptions{}); }, repeats, &c_fbp);
     std::cout << "{\"n\": " << n << ", \"views\": " << views << ", \"setup_s\": " << t_setup
-              << ", \"project_s\": " << t_fp << ", \"backproject_s\": " << t_bp << ", \"fbp_s\": " << t_fbp << "}\n";
+              << ", \"project_s\": " << t_fp << ", \"backproject_s\": " << t_bp << ", \"fbp_s\": " << t_fbp
+              << ", \"project_cpu_s\": " << c_fp << ", \"backproject_cpu_s\": " << c_bp << ", \"fbp_cpu_s\": " << c_fbp
+              << "}\n";
     return 0;
   }
   throw std::runtime_error("bad arguments for '" + cmd + "'; see the file header");

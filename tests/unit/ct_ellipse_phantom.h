@@ -24,9 +24,9 @@ struct TestEllipse {
 
 // Modified Shepp-Logan (Toft's intensities) in the REFERENCES.md geometry.
 inline std::vector<TestEllipse> modified_shepp_logan() {
-  return {{1.0, .69, .92, 0, 0, 0},          {-.8, .6624, .874, 0, -.0184, 0}, {-.2, .11, .31, .22, 0, -18},
-          {-.2, .16, .41, -.22, 0, 18},      {.1, .21, .25, 0, .35, 0},        {.1, .046, .046, 0, .1, 0},
-          {.1, .046, .046, 0, -.1, 0},       {.1, .046, .023, -.08, -.605, 0}, {.1, .023, .023, 0, -.606, 0},
+  return {{1.0, .69, .92, 0, 0, 0},       {-.8, .6624, .874, 0, -.0184, 0}, {-.2, .11, .31, .22, 0, -18},
+          {-.2, .16, .41, -.22, 0, 18},   {.1, .21, .25, 0, .35, 0},        {.1, .046, .046, 0, .1, 0},
+          {.1, .046, .046, 0, -.1, 0},    {.1, .046, .023, -.08, -.605, 0}, {.1, .023, .023, 0, -.606, 0},
           {.1, .023, .046, .06, -.605, 0}};
 }
 
@@ -45,8 +45,8 @@ inline double ellipse_line_integral(const std::vector<TestEllipse>& es, double t
 }
 
 // Line integral along the line through (ax, ay) and (bx, by).
-inline double ellipse_line_integral_points(const std::vector<TestEllipse>& es, double ax, double ay, double bx,
-                                           double by) {
+inline double ellipse_line_integral_points(
+    const std::vector<TestEllipse>& es, double ax, double ay, double bx, double by) {
   const double wx = bx - ax, wy = by - ay, len = std::hypot(wx, wy);
   const double ex = wy / len, ey = -wx / len;  // unit normal
   return ellipse_line_integral(es, std::atan2(ey, ex), ax * ex + ay * ey);

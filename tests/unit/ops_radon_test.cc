@@ -87,9 +87,9 @@ TEST(JosephProjector, ProjectsUniformImageToChordLength) {
   JosephProjector a(g);
   std::vector<float> img(64 * 64, 1.0f), sino(static_cast<size_t>(a.range_size()));
   a.project(img.data(), sino.data());
-  EXPECT_NEAR(sino[32], 32.0, 1e-4);             // view 0, centre detector
+  EXPECT_NEAR(sino[32], 32.0, 1e-4);                        // view 0, centre detector
   EXPECT_NEAR(sino[65 + 32], 32.0 * std::sqrt(2.0), 0.05);  // view 1 = 45 degrees
-  EXPECT_NEAR(sino[2 * 65 + 32], 32.0, 1e-4);    // 90 degrees
+  EXPECT_NEAR(sino[2 * 65 + 32], 32.0, 1e-4);               // 90 degrees
 }
 
 // Relative L2 difference of Joseph(raster) and the exact sinogram of the

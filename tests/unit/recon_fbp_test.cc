@@ -65,8 +65,8 @@ TEST(Fbp, UniformDiskReconstructsToItsIntensityWithEveryFilter) {
   const std::vector<testing::TestEllipse> disk{{1.0, 0.8, 0.8, 0, 0, 0}};
   const CtGeometry g = parallel_geometry(128, 180, 183);
   const auto sino = exact_sinogram(g, disk);
-  for (FbpFilter f : {FbpFilter::kRamLak, FbpFilter::kSheppLogan, FbpFilter::kCosine, FbpFilter::kHamming,
-                      FbpFilter::kHann}) {
+  for (FbpFilter f :
+       {FbpFilter::kRamLak, FbpFilter::kSheppLogan, FbpFilter::kCosine, FbpFilter::kHamming, FbpFilter::kHann}) {
     FbpOptions o;
     o.filter = f;
     const ImageF img = fbp(g, sino.data(), o);
@@ -140,8 +140,8 @@ TEST(FbpOptions, ValidateReportsEveryViolation) {
 }
 
 TEST(FbpFilter, ParsesEveryNameItPrints) {
-  for (FbpFilter f : {FbpFilter::kRamLak, FbpFilter::kSheppLogan, FbpFilter::kCosine, FbpFilter::kHamming,
-                      FbpFilter::kHann})
+  for (FbpFilter f :
+       {FbpFilter::kRamLak, FbpFilter::kSheppLogan, FbpFilter::kCosine, FbpFilter::kHamming, FbpFilter::kHann})
     EXPECT_EQ(parse_fbp_filter(to_string(f)), f);
   EXPECT_FALSE(parse_fbp_filter("ramp").has_value());
 }

@@ -1,13 +1,13 @@
 // SPDX-License-Identifier: Apache-2.0
 // Tests of CT view sets: spacing, golden-angle order, angle files and the shipped protocols.
 #include <gtest/gtest.h>
+#include <unistd.h>
 
 #include <algorithm>
 #include <cmath>
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
-#include <unistd.h>
 
 #include "recofold/core/error.h"
 #include "recofold/sampling/view_set.h"

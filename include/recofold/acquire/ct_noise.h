@@ -41,14 +41,14 @@ std::vector<double> incident_photons(const TransmissionNoiseOptions& options, In
 // Views draw from independent streams Rng::for_stream(seed, view), so the
 // result does not depend on the thread count. Throws InputError for invalid
 // options.
-std::vector<double> transmission_counts(const TransmissionNoiseOptions& options, const float* line_integrals,
-                                        Index views, Index detectors, uint64_t seed);
+std::vector<double> transmission_counts(
+    const TransmissionNoiseOptions& options, const float* line_integrals, Index views, Index detectors, uint64_t seed);
 
 // p_hat = -ln(max(counts, 1) / i0).
 float counts_to_line_integral(double counts, double i0);
 
 // Replaces each line integral by its noisy estimate p_hat (in place).
-void add_transmission_noise(const TransmissionNoiseOptions& options, float* line_integrals, Index views,
-                            Index detectors, uint64_t seed);
+void add_transmission_noise(
+    const TransmissionNoiseOptions& options, float* line_integrals, Index views, Index detectors, uint64_t seed);
 
 }  // namespace recofold

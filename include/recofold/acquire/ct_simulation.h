@@ -28,9 +28,9 @@ struct CtSimulationOptions {
   // true: exact line integrals of the analytic phantom (no inverse crime);
   // false: the Joseph projector applied to the raster ("discrete" truth).
   bool analytic = true;
-  bool noisy = false;               // add transmission noise (below)
-  TransmissionNoiseOptions noise;   // used when noisy
-  uint64_t seed = 0;                // noise streams (Rng::for_stream(seed, view))
+  bool noisy = false;              // add transmission noise (below)
+  TransmissionNoiseOptions noise;  // used when noisy
+  uint64_t seed = 0;               // noise streams (Rng::for_stream(seed, view))
 };
 
 // Simulates a CT acquisition. `phantom` is required when options.analytic

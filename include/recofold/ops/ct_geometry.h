@@ -61,15 +61,15 @@ struct CtRay {
 struct CtGeometry {
   CtBeam beam = CtBeam::kParallel;
   FanDetector fan_detector = FanDetector::kEquiangular;  // fan only
-  std::vector<double> angles_rad;     // view angles theta (parallel) or beta (fan), any order
-  Index detector_count = 0;           // elements per view, >= 1
-  double detector_spacing_mm = 1.0;   // parallel: spacing of t; fan: spacing on the detector
-                                      // (flat: mm along it; equiangular: arc length at radius D)
-  double detector_offset_mm = 0.0;    // shift of the detector centre along its axis
-  double source_to_isocenter_mm = 0;  // fan only: R, must exceed the image's half-diagonal
-  double source_to_detector_mm = 0;   // fan only: D, must exceed R
-  Index ny = 0, nx = 0;               // image grid
-  double pixel_size_mm = 1.0;         // square pixels
+  std::vector<double> angles_rad;                        // view angles theta (parallel) or beta (fan), any order
+  Index detector_count = 0;                              // elements per view, >= 1
+  double detector_spacing_mm = 1.0;                      // parallel: spacing of t; fan: spacing on the detector
+                                                         // (flat: mm along it; equiangular: arc length at radius D)
+  double detector_offset_mm = 0.0;                       // shift of the detector centre along its axis
+  double source_to_isocenter_mm = 0;                     // fan only: R, must exceed the image's half-diagonal
+  double source_to_detector_mm = 0;                      // fan only: D, must exceed R
+  Index ny = 0, nx = 0;                                  // image grid
+  double pixel_size_mm = 1.0;                            // square pixels
 
   // Every violation, one message each, naming the field, its value and the
   // rule (zero views, no detectors, non-finite angles, fan source inside the

@@ -30,6 +30,8 @@ struct Measurement;
 //
 // Domain [ny, nx] (row-major image), range [views, detectors] (geometry.h).
 //
+// Loops: parallel beams walk each view row by row (column by column) with the
+// detectors in the inner loop; fan beams walk ray by ray.
 // Threads (OpenMP): the projector runs in parallel over views, each thread
 // writing its own sinogram rows. The transpose runs in parallel over blocks
 // of image rows (for row-stepped rays) and then over blocks of image columns
@@ -68,9 +70,23 @@ class JosephProjector final : public LinearOperator {
     int lo = 0, hi = -1;
     bool by_rows = true;
   };
+  // A parallel-beam view: every ray shares slope, weight and stepping axis,
+  // and ray j starts at start0 + j * delta, so the loops run over detectors
+  // inside each image row (contiguous reads and writes).
+  struct ParallelView {
+    float start0 = 0, delta = 0, slope = 0, weight = 0;
+    bool by_rows = true;
+  };
+  void project_parallel(const float* rows, const float* cols, float* sinogram) const;
+  void back_project_parallel(const float* sinogram, float* rows, float* cols) const;
+  void project_rays(const float* rows, const float* cols, float* sinogram) const;
+  void back_project_rays(const float* sinogram, float* rows, float* cols) const;
+
   CtGeometry geometry_;
   double scale_;
-  std::vector<Ray> rays_;  // [views * detectors]
+  bool parallel_ = false;
+  std::vector<ParallelView> views_;  // parallel beams: [views]
+  std::vector<Ray> rays_;            // fan beams: [views * detectors]
   bool any_by_columns_ = false;
 };
 

@@ -27,11 +27,11 @@ std::optional<ViewOrder> parse_view_order(std::string_view text);  // "sequentia
 // Angles cover [start, start + arc) (the end point is left out, so a full
 // 180 or 360 degree arc has no duplicate view).
 struct ViewSetSpec {
-  int views = 180;           // number of views, >= 1
-  double arc_deg = 180.0;    // (0, 360]
-  double start_deg = 0.0;    // angle of the first view, finite
+  int views = 180;         // number of views, >= 1
+  double arc_deg = 180.0;  // (0, 360]
+  double start_deg = 0.0;  // angle of the first view, finite
   ViewOrder order = ViewOrder::kSequential;
-  std::string file;          // non-empty: angles come from this file (views/arc/order ignored)
+  std::string file;  // non-empty: angles come from this file (views/arc/order ignored)
 
   // Every violation, "views = 0; must be >= 1" style.
   std::vector<std::string> validate() const;
