@@ -19,14 +19,16 @@ namespace recofold {
 
 namespace {
 
-// Silences HDF5's own error stack printing once per process: our errors carry
-// the file and dataset instead.
+// Silences HDF5's own error stack printing (our errors carry the file and
+// dataset instead). Debian's HDF5 is built thread-safe, and then the error
+// stack settings are per thread, so this runs once per thread, from every
+// entry point that may touch HDF5.
 void silence_hdf5() {
-  static const bool done = [] {
+  thread_local bool done = false;
+  if (!done) {
     H5Eset_auto2(H5E_DEFAULT, nullptr, nullptr);
-    return true;
-  }();
-  (void)done;
+    done = true;
+  }
 }
 
 // Owns one HDF5 identifier and closes it with the matching H5*close.
@@ -86,6 +88,7 @@ std::string normalise(const std::string& path) {
 
 // True if every link on the way to `path` exists.
 bool link_exists(hid_t file, const std::string& path) {
+  silence_hdf5();
   const std::string p = normalise(path);
   if (p == "/") return true;
   size_t pos = 1;
@@ -182,6 +185,7 @@ struct H5Writer::Impl {
   }
 
   void write_dataset(const std::string& path, const Shape& shape, hid_t ftype, hid_t mtype, const void* data) {
+    silence_hdf5();
     const std::string p = normalise(path);
     if (link_exists(fid(), p)) fail("dataset " + p + " written twice");
     Hid space = make_space(shape);
@@ -280,6 +284,7 @@ struct H5Reader::Impl {
   }
 
   Hid open_dataset(const std::string& dataset) const {
+    silence_hdf5();
     const std::string p = normalise(dataset);
     if (!link_exists(file.get(), p)) bad(p, "dataset is missing");
     H5O_info_t info;
@@ -318,6 +323,7 @@ struct H5Reader::Impl {
   }
 
   Hid open_attr(const std::string& object, const std::string& name) const {
+    silence_hdf5();
     const std::string p = normalise(object);
     if (!link_exists(file.get(), p)) bad(p, "object is missing (looking for attribute '" + name + "')");
     if (H5Aexists_by_name(file.get(), p.c_str(), name.c_str(), H5P_DEFAULT) <= 0)

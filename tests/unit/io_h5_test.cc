@@ -8,6 +8,7 @@
 #include <cstdlib>
 #include <fstream>
 #include <string>
+#include <thread>
 #include <vector>
 
 #include "recofold/core/atomic_file.h"
@@ -185,6 +186,34 @@ TEST(H5Reader, RejectsMissingDatasetAndWrongTypesNamingThePath) {
   expect_field([&] { r.shape("/"); }, "/", "not a dataset");
   expect_field([&] { r.attr_double("/f", "absent"); }, "/f", "absent");
   expect_field([&] { r.attr_string("/", "research_use_only"); }, "/", "expected a string");
+}
+
+TEST(H5Reader, ReadsAndReportsErrorsFromSeveralThreadsAtOnce) {
+  const std::string dir = fresh_dir();
+  NdArray<float> a(Shape{32, 32});
+  for (Index k = 0; k < a.size(); ++k) a.data[static_cast<size_t>(k)] = static_cast<float>(k);
+  for (int f = 0; f < 4; ++f) {
+    H5Writer w(dir + "/f" + std::to_string(f) + ".h5");
+    w.write("/x", a);
+    w.commit();
+  }
+  std::vector<int> ok(4, 0), errors(4, 0);
+  std::vector<std::thread> threads;
+  for (int t = 0; t < 4; ++t)
+    threads.emplace_back([&, t] {
+      for (int rep = 0; rep < 20; ++rep) {
+        H5Reader r(dir + "/f" + std::to_string((t + rep) % 4) + ".h5");
+        if (r.read_float("/x").data == a.data) ++ok[t];
+        try {
+          r.read_float("/absent");
+        } catch (const InputError&) {
+          ++errors[t];
+        }
+      }
+    });
+  for (auto& th : threads) th.join();
+  EXPECT_EQ(ok, (std::vector<int>{20, 20, 20, 20}));
+  EXPECT_EQ(errors, (std::vector<int>{20, 20, 20, 20}));
 }
 
 }  // namespace
