@@ -2,6 +2,7 @@
 // Periodised orthogonal 2-D wavelet transform: filters, analysis/synthesis, sub-band map, shifts.
 #include "recofold/ops/wavelet.h"
 
+#include <algorithm>
 #include <cmath>
 #include <sstream>
 
@@ -60,24 +61,38 @@ std::vector<double> wavelet_lowpass(WaveletFamily family) {
 
 namespace {
 
+// Both line routines work on a periodically extended copy of the signal,
+// ext[t] = s[(t + off - (L - 1)) mod n], t = 0 .. n + L - 2, so that the
+// sample s[(2k + off - j) mod n] of the formula in the header is
+// ext[2k + L - 1 - j] and the inner loops need no modulo.
+
 // One analysis level along a strided line of length n (even): writes n/2
 // approximation then n/2 detail coefficients into `out` (contiguous).
 void analyse_line(const cfloat* in, Index stride, Index n, const std::vector<float>& lo,
-                  const std::vector<float>& hi, cfloat* out) {
+                  const std::vector<float>& hi, std::vector<cfloat>& ext, cfloat* out) {
   const Index len = static_cast<Index>(lo.size());
   const Index half = n / 2;
-  const Index off = len / 2;
+  const Index shift = len / 2 - (len - 1);  // off - (L - 1), in (-L, 0]
+  ext.resize(static_cast<size_t>(n + len - 1));
+  for (Index t = 0; t < n + len - 1; ++t) {
+    Index idx = (t + shift) % n;
+    if (idx < 0) idx += n;
+    ext[static_cast<size_t>(t)] = in[idx * stride];
+  }
+  const float* h = lo.data();
+  const float* g = hi.data();
   for (Index k = 0; k < half; ++k) {
-    cfloat a(0.f, 0.f), d(0.f, 0.f);
+    const cfloat* e = ext.data() + 2 * k + len - 1;  // e[-j] = sample for tap j
+    float ar = 0.f, ai = 0.f, dr = 0.f, di = 0.f;
     for (Index j = 0; j < len; ++j) {
-      Index idx = (2 * k + off - j) % n;
-      if (idx < 0) idx += n;
-      const cfloat s = in[idx * stride];
-      a += lo[static_cast<size_t>(j)] * s;
-      d += hi[static_cast<size_t>(j)] * s;
+      const float sr = e[-j].real(), si = e[-j].imag();
+      ar += h[j] * sr;
+      ai += h[j] * si;
+      dr += g[j] * sr;
+      di += g[j] * si;
     }
-    out[k] = a;
-    out[half + k] = d;
+    out[k] = cfloat(ar, ai);
+    out[half + k] = cfloat(dr, di);
   }
 }
 
@@ -87,17 +102,22 @@ void synthesise_line(const cfloat* in, Index n, const std::vector<float>& lo, co
                      cfloat* out, Index stride, std::vector<cfloat>& acc) {
   const Index len = static_cast<Index>(lo.size());
   const Index half = n / 2;
-  const Index off = len / 2;
-  acc.assign(static_cast<size_t>(n), cfloat(0.f, 0.f));
+  const Index shift = len / 2 - (len - 1);
+  acc.assign(static_cast<size_t>(n + len - 1), cfloat(0.f, 0.f));
+  const float* h = lo.data();
+  const float* g = hi.data();
   for (Index k = 0; k < half; ++k) {
     const cfloat a = in[k], d = in[half + k];
-    for (Index j = 0; j < len; ++j) {
-      Index idx = (2 * k + off - j) % n;
-      if (idx < 0) idx += n;
-      acc[static_cast<size_t>(idx)] += lo[static_cast<size_t>(j)] * a + hi[static_cast<size_t>(j)] * d;
-    }
+    cfloat* e = acc.data() + 2 * k + len - 1;
+    for (Index j = 0; j < len; ++j) e[-j] += h[j] * a + g[j] * d;
   }
-  for (Index i = 0; i < n; ++i) out[i * stride] = acc[static_cast<size_t>(i)];
+  // Fold the extension back onto the period.
+  for (Index i = 0; i < n; ++i) out[i * stride] = cfloat(0.f, 0.f);
+  for (Index t = 0; t < n + len - 1; ++t) {
+    Index idx = (t + shift) % n;
+    if (idx < 0) idx += n;
+    out[idx * stride] += acc[static_cast<size_t>(t)];
+  }
 }
 
 }  // namespace
@@ -134,19 +154,22 @@ void WaveletTransform::apply(const VecC& x, VecC& y) const {
   RECOFOLD_CHECK(x.size() == ny * nx) << "wavelet input size " << x.size() << " for shape " << shape_.to_string();
   y = x;
   cfloat* c = y.data();
-  Index h = ny, w = nx;
-  std::vector<cfloat> line(static_cast<size_t>(std::max(ny, nx)));
   for (int l = 0; l < levels_; ++l) {
-    for (Index r = 0; r < h; ++r) {
-      analyse_line(c + r * nx, 1, w, lo_, hi_, line.data());
-      std::copy(line.begin(), line.begin() + w, c + r * nx);
+    const Index h = ny >> l, w = nx >> l;
+#pragma omp parallel if (h * w >= 32768)
+    {
+      std::vector<cfloat> line(static_cast<size_t>(std::max(h, w))), ext;
+#pragma omp for schedule(static)
+      for (Index r = 0; r < h; ++r) {
+        analyse_line(c + r * nx, 1, w, lo_, hi_, ext, line.data());
+        std::copy(line.begin(), line.begin() + w, c + r * nx);
+      }
+#pragma omp for schedule(static)
+      for (Index col = 0; col < w; ++col) {
+        analyse_line(c + col, nx, h, lo_, hi_, ext, line.data());
+        for (Index r = 0; r < h; ++r) c[r * nx + col] = line[static_cast<size_t>(r)];
+      }
     }
-    for (Index col = 0; col < w; ++col) {
-      analyse_line(c + col, nx, h, lo_, hi_, line.data());
-      for (Index r = 0; r < h; ++r) c[r * nx + col] = line[static_cast<size_t>(r)];
-    }
-    h /= 2;
-    w /= 2;
   }
 }
 
@@ -156,17 +179,21 @@ void WaveletTransform::adjoint(const VecC& y, VecC& x) const {
                                       << shape_.to_string();
   x = y;
   cfloat* c = x.data();
-  std::vector<cfloat> line(static_cast<size_t>(std::max(ny, nx)));
-  std::vector<cfloat> acc;
   for (int l = levels_ - 1; l >= 0; --l) {
     const Index h = ny >> l, w = nx >> l;
-    for (Index col = 0; col < w; ++col) {
-      for (Index r = 0; r < h; ++r) line[static_cast<size_t>(r)] = c[r * nx + col];
-      synthesise_line(line.data(), h, lo_, hi_, c + col, nx, acc);
-    }
-    for (Index r = 0; r < h; ++r) {
-      std::copy(c + r * nx, c + r * nx + w, line.begin());
-      synthesise_line(line.data(), w, lo_, hi_, c + r * nx, 1, acc);
+#pragma omp parallel if (h * w >= 32768)
+    {
+      std::vector<cfloat> line(static_cast<size_t>(std::max(h, w))), acc;
+#pragma omp for schedule(static)
+      for (Index col = 0; col < w; ++col) {
+        for (Index r = 0; r < h; ++r) line[static_cast<size_t>(r)] = c[r * nx + col];
+        synthesise_line(line.data(), h, lo_, hi_, c + col, nx, acc);
+      }
+#pragma omp for schedule(static)
+      for (Index r = 0; r < h; ++r) {
+        std::copy(c + r * nx, c + r * nx + w, line.begin());
+        synthesise_line(line.data(), w, lo_, hi_, c + r * nx, 1, acc);
+      }
     }
   }
 }

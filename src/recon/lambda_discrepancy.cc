@@ -7,6 +7,7 @@
 #include <cstdio>
 
 #include "recofold/core/error.h"
+#include "recofold/core/rng.h"
 #include "recofold/priors/option_errors.h"
 #include "solver_support.h"
 
@@ -14,7 +15,9 @@ namespace recofold {
 
 std::vector<std::string> DiscrepancyOptions::validate() const {
   std::vector<std::string> e;
-  if (!(noise_sigma > 0.0) || !std::isfinite(noise_sigma))
+  if (!std::isfinite(target) || target < 0.0)
+    e.push_back("discrepancy.target = " + std::to_string(target) + "; must be finite and >= 0");
+  if (target <= 0.0 && (!(noise_sigma > 0.0) || !std::isfinite(noise_sigma)))
     e.push_back("discrepancy.noise_sigma = " + std::to_string(noise_sigma) + "; must be finite and > 0");
   if (measurement_count < 0)
     e.push_back("discrepancy.measurement_count = " + std::to_string(measurement_count) + "; must be >= 0");
@@ -31,19 +34,28 @@ double discrepancy_target(Index measurement_count, double sigma, bool complex_no
   return safety * static_cast<double>(measurement_count) * (complex_noise ? 2.0 : 1.0) * sigma * sigma;
 }
 
+double transmission_noise_energy(const VecC& sinogram, double photons_per_ray) {
+  double sum = 0.0;
+  for (Index i = 0; i < sinogram.size(); ++i) sum += std::exp(std::max(double(sinogram[i].real()), 0.0));
+  return sum / photons_per_ray;
+}
+
 namespace {
 
-double automatic_start(const LinearOperator& a, const VecC& y, const Prior& prior) {
-  VecC aty, k;
-  a.adjoint(y, aty);
-  const internal::PriorParts parts = internal::split_prior(prior);
-  const VecC* v = &aty;
-  if (parts.analysis) {
-    parts.analysis->analysis_operator()->apply(aty, k);
-    v = &k;
+double automatic_start(const LinearOperator& a, double sigma) {
+  // 10 sigma times the RMS column norm of A, sqrt(trace(A^H A) / n), from two
+  // Hutchinson probes: the scale of A^H(noise) per pixel, i.e. of the lambda
+  // at which an l1-type prior starts to suppress noise.
+  Rng rng(2718);
+  double ratio = 0.0;
+  for (int probe = 0; probe < 2; ++probe) {
+    VecC z(a.domain_size()), az;
+    for (Index i = 0; i < z.size(); ++i) z[i] = cfloat(float(rng.normal()), float(rng.normal()));
+    a.apply(z, az);
+    ratio += 0.5 * norm_squared(az) / std::max(norm_squared(z), 1e-30);
   }
-  const double m = v->size() ? double(v->cwiseAbs().maxCoeff()) : 0.0;
-  return m > 0.0 ? 0.5 * m : 1.0;
+  const double start = 10.0 * sigma * std::sqrt(ratio);
+  return start > 0.0 && std::isfinite(start) ? start : 1.0;
 }
 
 }  // namespace
@@ -55,9 +67,13 @@ DiscrepancyChoice choose_lambda_discrepancy(const DiscrepancyOptions& options, c
   internal::prepare_solve("discrepancy", a, y, x);
   const Index m = options.measurement_count > 0 ? options.measurement_count : a.range_size();
   DiscrepancyChoice choice;
-  choice.target = discrepancy_target(m, options.noise_sigma, options.complex_noise, options.safety);
+  choice.target = options.target > 0.0
+                      ? options.target
+                      : discrepancy_target(m, options.noise_sigma, options.complex_noise, options.safety);
   const double target = choice.target;
-  const double start = options.lambda_start > 0.0 ? options.lambda_start : automatic_start(a, y, prior);
+  const double v_factor = options.complex_noise ? 2.0 : 1.0;
+  const double sigma_eff = std::sqrt(target / (static_cast<double>(m) * v_factor));
+  const double start = options.lambda_start > 0.0 ? options.lambda_start : automatic_start(a, sigma_eff);
 
   // The sweep is run here (not through sweep_lambda) so that the images of
   // the bracketing pair stay available for the refinement's warm start.
@@ -134,6 +150,16 @@ DiscrepancyChoice choose_lambda_discrepancy(const DiscrepancyOptions& options, c
     choice.lambda = lo_lam;
     choice.residual_squared = lo_res;
     x = *lo_image;
+  }
+  if (options.target > 0.0) {
+    std::snprintf(buf, sizeof buf,
+                  "discrepancy principle: ||Ax-y||^2 = given noise energy %.5g; geometric sweep x%.3g from %.4g with "
+                  "warm starts, %zu solves%s; lambda = %.5g, misfit %.5g",
+                  target, going_down ? options.ratio : 1.0 / options.ratio, start, choice.curve.points.size(),
+                  !bracketed ? ", target not bracketed" : (options.refine ? ", log-interpolated" : ""), choice.lambda,
+                  choice.residual_squared);
+    choice.rule = buf;
+    return choice;
   }
   std::snprintf(buf, sizeof buf,
                 "discrepancy principle: ||Ax-y||^2 = %.3g * m * %s (m = %lld, sigma = %.4g, target %.5g); "

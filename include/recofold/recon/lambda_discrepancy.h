@@ -26,16 +26,22 @@ namespace recofold {
 // bracketing pair, warm-started from the larger lambda's image. Without
 // refinement the result is the largest grid lambda whose misfit is <= T.
 struct DiscrepancyOptions {
-  double noise_sigma = 0.0;     // sigma > 0 (per real/imaginary part for complex noise)
+  double noise_sigma = 0.0;     // sigma > 0 (per real/imaginary part for complex noise); unused when target > 0
   Index measurement_count = 0;  // m; 0 = A's range size (set it when the range holds unmeasured zeros)
   bool complex_noise = true;    // v = 2 sigma^2 (true) or sigma^2 (false)
   double safety = 1.0;          // > 0, the factor on the expected noise energy (Morozov's tau; 1 - 1.1 usual)
-  // First lambda; <= 0 means 0.5 * max |K A^H y| for an analysis-form prior
-  // (the scale at which an l1 prior zeroes everything), else 0.5 * max |A^H y|.
+  // First lambda; <= 0 means 10 sigma_e sqrt(trace(A^H A)/n): the size of
+  // A^H(noise) per pixel times 10, with sigma_e = sqrt(T / (m v/sigma^2)) the
+  // noise level implied by the target (sigma itself unless `target` is given)
+  // and the trace from two seeded random probes. The sweep goes up or down
+  // from there, so this only sets how many solves are needed.
   double lambda_start = 0.0;
   double ratio = 0.5;           // geometric factor per step, in (0, 1)
   int max_steps = 16;           // solves in the sweep (not counting the refinement), >= 2
   bool refine = true;           // the interpolated extra solve
+  // > 0: use this misfit target T directly (e.g. transmission_noise_energy()
+  // for CT, whose noise variance differs per ray); noise_sigma is then unused.
+  double target = 0.0;
 
   std::vector<std::string> validate() const;  // "discrepancy.noise_sigma = 0; must be > 0", ...
 };
@@ -51,6 +57,12 @@ struct DiscrepancyChoice {
 
 // E||noise||^2 = safety * m * (2 sigma^2 or sigma^2).
 double discrepancy_target(Index measurement_count, double sigma, bool complex_noise, double safety = 1.0);
+
+// Expected noise energy of a transmission (CT) sinogram p = -ln(N / I0) with
+// Poisson counts N: var(p_i) ~ exp(p_i) / I0 per ray (delta method; from
+// memory), summed over the rays: sum_i exp(max(p_i, 0)) / I0. Real parts of
+// `sinogram` are used; electronic noise is not included.
+double transmission_noise_energy(const VecC& sinogram, double photons_per_ray);
 
 // Runs the rule. `x`: start on input (zeros when empty), the image at the
 // chosen lambda on output. Throws InputError for invalid options.
