@@ -480,7 +480,9 @@ SamplingMask mask_from_values(const NdArray<float>& values, const std::string& f
 
 MaskOptions mask_options_from_config(const Config& cfg) {
   cfg.expect_only({"pattern", "size", "accel", "center", "seed", "density", "power", "sigma", "radius_growth", "spokes",
-                   "description", "name"});
+                   "description", "name", "kind"});
+  if (cfg.has("kind") && cfg.get_string("kind") != "mri-mask")
+    throw cfg.error("kind", "'" + cfg.get_string("kind") + "' is not a k-space mask spec (expected kind = \"mri-mask\")");
   MaskOptions o;
   const std::string pat = cfg.get_string("pattern");
   const auto p = parse_mask_pattern(pat);

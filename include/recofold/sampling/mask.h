@@ -101,6 +101,7 @@ SamplingMask mask_from_values(const NdArray<float>& values, const std::string& f
 //   pattern = "lines-vd"       size = [ny, nx] (or one integer)   accel = 4.0
 //   center = 0.08   seed = 1   density = "polynomial"|"gaussian"   power = 2.0
 //   sigma = 0.35    radius_growth = 2.0    spokes = 32    description = "..."
+//   kind = "mri-mask" (optional; tells these specs from the CT view sets in the same folder)
 // Unknown keys and bad values throw InputError with file, line and key.
 MaskOptions mask_options_from_config(const Config& cfg);
 
