@@ -53,6 +53,8 @@ def main():
             bad = good.copy()
             bad[3, 5] = np.nan
             f["image"] = bad
+        with h5py.File(os.path.join(tmp, "strings.h5"), "w") as f:
+            f["image"] = np.array([[b"a", b"b"], [b"c", b"d"]], dtype="S1")
         with h5py.File(os.path.join(tmp, "small.h5"), "w") as f:
             f["image"] = good[:8, :12]
         inputs = set(os.listdir(tmp))
@@ -63,6 +65,7 @@ def main():
             ("convert: HDF5 without /image", ["convert", "noimage.h5", "out.png"], ["noimage.h5", "/image"]),
             ("convert: wrong rank", ["convert", "rank1.h5", "out.mha"], ["rank1.h5", "/image", "rank 1"]),
             ("convert: NaN values", ["convert", "nan.h5", "out.h5"], ["nan.h5", "/image", "non-finite"]),
+            ("convert: wrong dtype", ["convert", "strings.h5", "out.nrrd"], ["strings.h5", "/image", "string"]),
             ("convert: unknown flag", ["convert", "good.h5", "out.h5", "--bogus"], ["--bogus"]),
             ("convert: unsupported output", ["convert", "good.h5", "out.tiff"], ["out.tiff", ".tiff"]),
             ("convert: missing output folder", ["convert", "good.h5", "nodir/out.h5"], ["nodir"]),
