@@ -1,0 +1,74 @@
+// SPDX-License-Identifier: Apache-2.0
+// The case grid of a study: acquisitions, cases with stable keys and seeds, and deterministic shards.
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "recofold/study/study_config.h"
+
+namespace recofold {
+
+// One acquisition protocol point. MRI fields are set for modality "mri", CT
+// fields for "ct"; the others stay at their defaults and are blank in results.csv.
+struct Acquisition {
+  std::string modality;      // "mri" | "ct"
+  std::string pattern;       // MRI mask pattern
+  double accel = 0.0;        // MRI acceleration R
+  int coils = 0;             // MRI receive coils
+  double noise = 0.0;        // MRI noise sigma
+  int views = 0;             // CT views
+  double arc = 0.0;          // CT arc, degrees
+  double photons = 0.0;      // CT photons per ray (0: noiseless)
+
+  // "mri/lines-vd/R4/c1/s0.01" or "ct/v60/a180/p1e+05".
+  std::string key() const;
+};
+
+// The acquisition axes (results.csv column names, in order), MRI then CT.
+const std::vector<std::string>& acquisition_axes();
+// The value of axis `axis` as CSV text ("" when the axis is not the acquisition's modality).
+std::string axis_value(const Acquisition& a, const std::string& axis);
+
+// MRI grid (pattern x accel x coils x noise) then CT grid (views x arc x photons).
+std::vector<Acquisition> expand_acquisitions(const StudyConfig& config);
+
+// One case: indices into the config's phantoms, acquisitions and methods.
+struct StudyCase {
+  int index = 0;             // position in the canonical order (below)
+  int phantom = 0;
+  int acquisition = 0;
+  int method = 0;
+  int repetition = 0;
+  int group = 0;             // index of its measurement (phantom, acquisition, repetition)
+  std::string key;           // "<phantom>|<acquisition key>|<method>|r<rep>", unique
+  std::string measurement_key;  // "<phantom>|<acquisition key>|r<rep>"
+  uint64_t mask_seed = 0;    // sampling (same for every phantom of an acquisition and repetition)
+  uint64_t noise_seed = 0;   // acquisition noise (per measurement)
+};
+
+struct CaseGrid {
+  std::vector<Acquisition> acquisitions;
+  std::vector<StudyCase> cases;  // canonical order: phantom, acquisition, repetition, method
+  int groups = 0;                // measurements (cases sharing one simulated measurement)
+};
+
+// Expands the grid. Methods that do not apply to an acquisition's modality
+// are left out. Seeds come from the study seed and the case's keys only (not
+// from positions), so adding a method or a phantom does not change others'.
+CaseGrid expand_grid(const StudyConfig& config);
+
+// A deterministic 1/N part of a study: shard I of N (1 <= I <= N) holds the
+// measurement groups g with g mod N = I - 1, so every case is in exactly one
+// shard and a measurement is simulated by one shard only.
+struct Shard {
+  int index = 1;
+  int count = 1;
+  bool contains(const StudyCase& c) const { return c.group % count == index - 1; }
+  std::string to_string() const { return std::to_string(index) + "/" + std::to_string(count); }
+  // Parses "I/N"; InputError(file "", field `flag`) unless 1 <= I <= N.
+  static Shard parse(const std::string& text, const std::string& flag = "--shard");
+};
+
+}  // namespace recofold

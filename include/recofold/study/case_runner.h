@@ -1,0 +1,61 @@
+// SPDX-License-Identifier: Apache-2.0
+// One study case: simulate its measurement, reconstruct with one method, score against the truth.
+//
+// This is the single place where a study turns a method description into
+// library calls (zero_filled, fbp, solve_cg/ista/fista/admm/pdhg with a prior
+// from make_prior, and learned models through LearnedModelSet). When the recon
+// module offers a shared "reconstruct(measurement, method spec)" function,
+// run_case_method() switches to it.
+#pragma once
+
+#include <cstdint>
+#include <limits>
+#include <string>
+
+#include "recofold/core/measurement.h"
+#include "recofold/core/types.h"
+#include "recofold/metrics/image_quality.h"
+#include "recofold/study/case_grid.h"
+#include "recofold/study/study_config.h"
+
+namespace recofold {
+
+class LearnedModelSet;
+
+// A simulated measurement with its truth and the scoring region.
+struct CaseMeasurement {
+  Measurement measurement;
+  ImageF truth;    // real truth: |object| for MRI, the attenuation image for CT
+  ImageF region;   // empty: whole image
+};
+
+// Simulates phantom x acquisition:
+//   MRI: mask make_mask(pattern, accel, center, mask_seed) on [ny, nx];
+//        simulate_mri with analytic truth, `coils` synthetic coils, noise sigma,
+//        seed noise_seed;
+//   CT:  parallel beam, `views` equally spaced over `arc`, detectors
+//        ceil(sqrt(2) max(ny, nx)), pixel fov_mm / nx, mu from [ct] (0: automatic), exact line
+//        integrals, Poisson noise with `photons` per ray (none when 0).
+// InputError/WorkError from the library pass through.
+CaseMeasurement simulate_case_measurement(const StudyConfig& config, const StudyPhantom& phantom,
+                                          const Acquisition& acquisition, uint64_t mask_seed, uint64_t noise_seed);
+
+// What one case produced. A failing case has ok = false and the error text;
+// the study writes it into the row and goes on.
+struct CaseOutcome {
+  bool ok = false;
+  std::string error;
+  Scores scores;
+  double seconds = 0.0;    // reconstruction wall time (all lambdas of an oracle list)
+  int iterations = 0;      // solver iterations (0 for direct methods)
+  double lambda = std::numeric_limits<double>::quiet_NaN();  // the weight used (NaN: none)
+  std::string in_training;  // learned methods: "yes" | "no"; "" otherwise
+  std::string outside;      // learned methods: which conditions lie outside training
+  ImageF image;             // the reconstruction (magnitude for MRI, real part for CT)
+};
+
+// Reconstructs and scores one case; never throws for a failing reconstruction
+// (the error goes into the outcome). `learned` is needed for unrolled methods.
+CaseOutcome run_case_method(const StudyMethod& method, const CaseMeasurement& data, const LearnedModelSet* learned);
+
+}  // namespace recofold

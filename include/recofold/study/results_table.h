@@ -1,0 +1,50 @@
+// SPDX-License-Identifier: Apache-2.0
+// results.csv of a study: its columns, one row per case, reading back (tolerating a cut-off last line).
+//
+// Columns, in order:
+//   case                    unique case key (case_grid.h)
+//   phantom, modality, method, prior
+//   pattern, accel, coils, noise, views, arc, photons   acquisition axes (blank for the other modality)
+//   repetition, lambda      lambda: the prior weight used (blank when none)
+//   psnr, ssim, nrmse, hfen the metrics under the names `score --json` uses
+//   time                    reconstruction wall time of the case, seconds
+//   iterations              solver iterations (0 for direct methods)
+//   in_training_conditions  learned methods: yes | no; blank otherwise
+//   error                   empty for a successful case, else the error message
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "recofold/study/case_grid.h"
+#include "recofold/study/case_runner.h"
+#include "recofold/study/study_config.h"
+
+namespace recofold {
+
+const std::vector<std::string>& result_columns();
+// The header line (no newline).
+std::string result_header();
+// One row (no newline) for a case and its outcome.
+std::string format_result_row(const StudyConfig& config, const CaseGrid& grid, const StudyCase& c,
+                              const CaseOutcome& outcome);
+
+struct ResultsTable {
+  std::vector<std::string> columns;
+  std::vector<std::vector<std::string>> rows;
+  bool had_partial_line = false;  // the file ended in a line without newline (dropped)
+  // Index of a column; -1 if absent.
+  int column(const std::string& name) const;
+  // Cell of row r, column `name` ("" if the column is absent).
+  const std::string& cell(size_t r, const std::string& name) const;
+};
+
+// Reads a results.csv. A last line without a newline (a write cut off by a
+// kill) is dropped. InputError naming the file when the header differs from
+// result_columns() or a row has the wrong number of cells.
+ResultsTable read_results(const std::string& path);
+
+// The CSV text of a table (header + rows, each line ending in a newline).
+std::string results_text(const ResultsTable& table);
+
+}  // namespace recofold

@@ -1,0 +1,164 @@
+// SPDX-License-Identifier: Apache-2.0
+// Study configuration: phantoms, acquisition axes, methods and repetitions read from a TOML file.
+//
+// A study compares reconstruction methods over a grid of cases
+//   phantom x acquisition x method x repetition
+// (case_grid.h expands it). The file (a commented example is
+// configs/study-example.toml):
+//
+//   name        = "qc-protocols"    optional; default the file name without extension
+//   description = "..."             optional
+//   size        = 64                image grid: N or [ny, nx] (each 16..1024)
+//   repetitions = 2                 >= 1; each repetition draws new masks and noise
+//   seed        = 1                 study seed (masks, noise, families, learned models)
+//   metrics     = ["psnr", "ssim"]  optional: metrics shown in the summary and
+//                                   report (results.csv always has all of
+//                                   psnr, ssim, nrmse, hfen)
+//   [region]                        optional region of interest for the metrics:
+//   radius = 0.8                    a centred disc, fraction of the half-width (0, 1]
+//
+//   [[phantom]]                     one table per phantom source:
+//   table  = "phantoms/qc-disk.toml"  a phantom table (relative to the config file
+//                                     or, if not found there, to the current folder)
+//   or
+//   family = "textured"             a seeded family (phantom/family.h)
+//   count  = 2                      objects 0..count-1 (1..1000)
+//   seed   = 7                      family seed (default: the study seed)
+//
+//   [mri]                           optional MRI protocol axes (lists or single values):
+//   pattern = ["lines-vd"]          mask patterns (sampling/mask.h)
+//   accel   = [2, 4, 8]             accelerations R (1..64)
+//   coils   = [1, 4]                receive coils (1..32)
+//   noise   = [0.0, 0.01]           complex noise sigma per real/imaginary part (object max ~1)
+//   center  = 0.08                  fully sampled centre fraction (single value)
+//
+//   [ct]                            optional CT protocol axes (parallel beam):
+//   views   = [60, 120]             views equally spaced over the arc (>= 2)
+//   arc     = [180]                 arc in degrees, (0, 360]
+//   photons = [0, 1e5]              incident photons per ray (0: noiseless)
+//   mu      = 0.0                   attenuation per unit intensity, 1/mm (single value);
+//                                   0 (default): automatic, the largest line integral is 4
+//
+//   [[method]]                      one table per method:
+//   name      = "fista-wavelet"     label in results.csv (default: method-prior)
+//   method    = "fista"             zero-filled | fbp | cg | ista | fista | admm | pdhg | unrolled
+//   prior     = "wavelet"           none | l2 | wavelet | tv | tv-aniso (solvers only)
+//   lambda    = 0.01                weight >= 0; or a list [1e-3, 1e-2]: per case the
+//                                   value with the best PSNR against the truth is
+//                                   kept (an oracle choice: the best a tuned
+//                                   classical method can do; the row records it)
+//   iters     = 50                  iterations (solvers)
+//   wavelet   = "db4"   levels = 3  wavelet prior options
+//   nonneg    = true                box x >= 0 (default true for CT, false for MRI)
+//   filter    = "ram-lak"           fbp window
+//   modality  = "mri"               restrict to one modality (default: where the method
+//                                   applies: zero-filled MRI, fbp CT, solvers both;
+//                                   required for unrolled)
+//   model     = "models/mri.h5"     unrolled: a trained model file
+//   train     = "configs/train-robustness-mri.toml"
+//                                   unrolled: train a model inside the study first
+//                                   (into DIR/models/<name>.h5; its trained_on
+//                                   conditions mark the results)
+//   train_steps = 200               optional override of the training config's steps
+//   optional  = true                unrolled: leave the method out (with a note in the
+//                                   report) when this build has no learn module
+//
+// Every problem is an InputError naming the file, line and key. Nothing is
+// run or written by loading.
+#pragma once
+
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "recofold/core/config.h"
+#include "recofold/core/types.h"
+
+namespace recofold {
+
+// One object of the study (a table, or one member of a family).
+struct StudyPhantom {
+  std::string label;        // "qc-disk", "textured-7-0" (family, seed, index)
+  std::string table_path;   // set for table phantoms (resolved path)
+  std::string family;       // set for family objects
+  uint64_t family_seed = 0;
+  int family_index = 0;
+};
+
+// MRI protocol axes; each list has at least one value.
+struct MriAxes {
+  std::vector<std::string> patterns = {"lines-vd"};
+  std::vector<double> accelerations = {4.0};
+  std::vector<int> coils = {1};
+  std::vector<double> noise_sigmas = {0.0};
+  double center_fraction = 0.08;
+};
+
+// CT protocol axes (parallel beam, detectors ceil(sqrt(2) max(ny, nx)), pixel fov / nx).
+struct CtAxes {
+  std::vector<int> views = {60};
+  std::vector<double> arcs_deg = {180.0};
+  std::vector<double> photons = {0.0};
+  double mu_per_mm = 0.0;  // 0: automatic (acquire/ct_simulation.h)
+};
+
+// One method of the study.
+struct StudyMethod {
+  std::string name;                 // label (unique per modality)
+  std::string method;               // zero-filled, fbp, cg, ista, fista, admm, pdhg, unrolled
+  std::string prior = "none";       // none, l2, wavelet, tv, tv-aniso
+  std::vector<double> lambdas;      // empty: 0; one: fixed; several: oracle choice per case
+  int iterations = 50;
+  std::string wavelet = "db4";
+  int levels = 3;
+  std::optional<bool> nonneg;       // unset: true for CT, false for MRI
+  std::string filter = "ram-lak";   // fbp
+  std::vector<std::string> modalities;  // where it runs ("mri", "ct")
+  std::string model_path;           // unrolled: model file (resolved)
+  std::string train_config;         // unrolled: training config (resolved)
+  int64_t train_steps = 0;          // > 0 overrides the training config's steps
+  bool optional = false;            // unrolled: skip when learn is absent
+  int line = 0;                     // line of the [[method]] table
+
+  bool learned() const { return method == "unrolled"; }
+  bool applies_to(const std::string& modality) const;
+};
+
+struct StudyConfig {
+  std::string file;         // path it was read from ("" for parsed text)
+  std::string text;         // the config text
+  std::string name, description;
+  Index ny = 64, nx = 64;
+  int repetitions = 1;
+  uint64_t seed = 1;
+  std::vector<std::string> metrics = {"psnr", "ssim", "nrmse", "hfen"};
+  double region_radius = 0.0;  // 0: whole image
+  std::vector<StudyPhantom> phantoms;
+  std::optional<MriAxes> mri;
+  std::optional<CtAxes> ct;
+  std::vector<StudyMethod> methods;
+  // Methods left out when loading (e.g. optional learned methods in a build
+  // without learn), one sentence each; shown in the report.
+  std::vector<std::string> notes;
+  // 16 hex digits: FNV-1a of the config text and of every phantom table and
+  // model file it names. Shards and resumed runs must share it.
+  std::string hash;
+
+  // Reads and validates `path`. InputError (file, line, key) on any problem:
+  // unknown keys (e.g. an unknown acquisition axis), an empty grid (no
+  // phantom, no protocol, no method that applies to a protocol), a model
+  // file that does not exist, a learned method in a build without learn.
+  static StudyConfig load(const std::string& path);
+  // Parses text; `name` stands in for the file; relative paths resolve
+  // against `base_dir` and then the current folder.
+  static StudyConfig parse(const std::string& text, const std::string& name, const std::string& base_dir = ".");
+};
+
+// True when this build can run learned (unrolled) methods.
+bool study_has_learn();
+
+// The metric names results.csv uses (those of `score --json`).
+const std::vector<std::string>& study_metric_names();
+
+}  // namespace recofold

@@ -1,0 +1,66 @@
+// SPDX-License-Identifier: Apache-2.0
+// Running a study (parallel, resumable, sharded) and merging shards into one result folder.
+//
+// Output folder layout:
+//   study.toml      the config text
+//   manifest.json   name, config hash, shard, case counts, producer, command
+//   results.csv     one row per case (results_table.h), appended as each case
+//                   finishes; rewritten in canonical case order when the run
+//                   (or shard) is complete
+//   summary.csv     mean +- std per method and condition (summary.h)
+//   report.html     self-contained report (report.h); figures/ holds its plots
+//                   (SVG) and montages (PNG)
+//   images/         reconstructions of the montage cases (first phantom, first
+//                   repetition) and their truths, recofold image files (.h5)
+//   models/         models trained inside the study ([train] methods)
+#pragma once
+
+#include <atomic>
+#include <string>
+#include <vector>
+
+#include "recofold/core/progress.h"
+#include "recofold/study/case_grid.h"
+#include "recofold/study/study_config.h"
+
+namespace recofold {
+
+struct StudyRunOptions {
+  std::string out_dir;          // created if missing (its parent must exist)
+  int jobs = 1;                 // cases run side by side, >= 1
+  // OpenMP/FFTW threads per job; 0 = max(1, cores / jobs).
+  int threads_per_job = 0;
+  Shard shard;                  // default 1/1: the whole study
+  ProgressSink* progress = nullptr;         // cases done / total; may be null
+  const std::atomic<bool>* stop = nullptr;  // set: finish cases in flight, start no new ones
+  std::string command;          // for provenance (manifest)
+  bool write_report = true;     // summary.csv and report.html when complete
+  std::vector<std::string> validate() const;  // "jobs = 0; must be >= 1"
+};
+
+struct StudyRunSummary {
+  int cases_total = 0;     // in the whole grid
+  int cases_in_shard = 0;
+  int cases_skipped = 0;   // already in results.csv (resume)
+  int cases_run = 0;
+  int cases_failed = 0;    // run here and failed (error in their rows)
+  bool complete = false;   // every case of the shard has a row
+  double wall_seconds = 0.0;
+  double case_seconds = 0.0;  // sum of the reconstruction times of the cases run here
+  std::string results_path, summary_path, report_path;
+};
+
+// Runs the (shard of the) study into options.out_dir, skipping cases whose
+// rows are already there. Refuses (InputError, nothing written) an output
+// folder that holds a different config or another shard. Failing cases are
+// recorded in their rows and do not stop the study.
+StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& options);
+
+// Combines shard folders into `out_dir`: every folder must hold the same
+// config (same hash) and no case may appear twice; the merged results.csv is
+// in canonical order, equal to an unsharded run's apart from the time column.
+// InputError (naming the folder) otherwise; nothing is written then.
+StudyRunSummary merge_studies(const std::vector<std::string>& dirs, const std::string& out_dir,
+                              const std::string& command);
+
+}  // namespace recofold

@@ -1,0 +1,56 @@
+// SPDX-License-Identifier: Apache-2.0
+// `recofold study`: run a config-driven study (parallel, sharded, resumable) or merge shard folders.
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "cli_common.h"
+#include "recofold/core/error.h"
+#include "recofold/core/provenance.h"
+#include "recofold/study/study_runner.h"
+#include "study_cli.h"
+
+namespace recofold::cli {
+
+namespace {
+
+struct StudyFlags {
+  std::string config, out, shard;
+  int jobs = 0;
+  std::vector<std::string> merge;
+};
+
+void run(const StudyFlags& f, const Context& ctx) {
+  if (!f.merge.empty()) {
+    if (!f.config.empty()) throw InputError("", "--merge", "give either --config or --merge, not both");
+    if (f.out.empty()) throw InputError("", "--out", "an output folder is required");
+    const StudyRunSummary s = merge_studies(f.merge, f.out, ctx.command_line);
+    say(ctx, "merged " + std::to_string(f.merge.size()) + " folders: " + std::to_string(s.cases_skipped) + " of " +
+                 std::to_string(s.cases_total) + " cases" + (s.complete ? "" : " (incomplete: some shards missing)"));
+    say(ctx, "results: " + s.results_path);
+    say(ctx, "summary: " + s.summary_path);
+    say(ctx, "report: " + s.report_path);
+    say(ctx, kResearchUseLine);
+    return;
+  }
+  if (f.config.empty()) throw InputError("", "--config", "a study config is required (or --merge DIR...)");
+  run_study_command(ctx, f.config, f.out, f.jobs, f.shard);
+}
+
+}  // namespace
+
+void register_cmd_study(CLI::App& app, Context& ctx) {
+  auto flags = std::make_shared<StudyFlags>();
+  CLI::App* sub = app.add_subcommand(
+      "study", "Run a study: phantoms x acquisitions x methods x repetitions, with results table and report");
+  sub->add_option("--config", flags->config, "Study config (TOML; see configs/study-example.toml)");
+  sub->add_option("--out", flags->out, "Output folder (created; a rerun into it resumes)");
+  sub->add_option("--jobs", flags->jobs, "Cases run in parallel (default 0: all cores)");
+  sub->add_option("--shard", flags->shard, "Run shard I of N (I/N) of the cases, e.g. 2/4");
+  sub->add_option("--merge", flags->merge, "Merge these shard folders into --out")->expected(1, -1);
+  sub->footer("Writes results.csv (one row per case, as cases finish), summary.csv and report.html.\n" +
+              std::string(kResearchUseLine));
+  sub->callback([flags, &ctx] { run(*flags, ctx); });
+}
+
+}  // namespace recofold::cli

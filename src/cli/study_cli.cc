@@ -1,0 +1,75 @@
+// SPDX-License-Identifier: Apache-2.0
+// Running a study from the command line: signals, progress, the closing lines.
+#include "study_cli.h"
+
+#include <algorithm>
+#include <atomic>
+#include <cmath>
+#include <csignal>
+#include <cstdio>
+#include <thread>
+
+#include "recofold/core/error.h"
+#include "recofold/core/provenance.h"
+#include "recofold/study/study_config.h"
+#include "recofold/study/study_runner.h"
+
+namespace recofold::cli {
+
+namespace {
+
+std::atomic<bool> g_stop{false};
+
+extern "C" void on_stop_signal(int) { g_stop.store(true); }
+
+std::string seconds(double s) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%.1f s", s);
+  return buf;
+}
+
+}  // namespace
+
+std::string run_study_command(const Context& ctx, const std::string& config_path, const std::string& out_dir,
+                              int jobs, const std::string& shard_text) {
+  if (out_dir.empty()) throw InputError("", "--out", "an output folder is required");
+  if (jobs < 0) throw InputError("", "--jobs", "= " + std::to_string(jobs) + "; must be >= 1 (0: all cores)");
+  const Shard shard = shard_text.empty() ? Shard{} : Shard::parse(shard_text, "--shard");
+  const StudyConfig config = StudyConfig::load(config_path);
+  apply_threads(ctx);
+  StudyRunOptions o;
+  o.out_dir = out_dir;
+  const int cores = ctx.threads > 0 ? ctx.threads : std::max(1, int(std::thread::hardware_concurrency()));
+  o.jobs = jobs > 0 ? jobs : cores;
+  o.threads_per_job = std::max(1, cores / o.jobs);
+  o.shard = shard;
+  o.command = ctx.command_line;
+  o.stop = &g_stop;
+  const auto progress = make_progress(ctx, "study " + config.name);
+  o.progress = progress.get();
+  g_stop.store(false);
+  std::signal(SIGINT, on_stop_signal);
+  std::signal(SIGTERM, on_stop_signal);
+  const StudyRunSummary s = run_study(config, o);
+  std::signal(SIGINT, SIG_DFL);
+  std::signal(SIGTERM, SIG_DFL);
+  say(ctx, "study " + config.name + ": " + std::to_string(s.cases_in_shard) + " cases" +
+               (shard.count > 1 ? " in shard " + shard.to_string() + " of " + std::to_string(s.cases_total) : "") +
+               ", " + std::to_string(s.cases_run) + " run, " + std::to_string(s.cases_skipped) +
+               " already done, " + std::to_string(s.cases_failed) + " failed");
+  const double busy = s.case_seconds / (s.wall_seconds * double(std::min(o.jobs, std::max(1, s.cases_run))));
+  say(ctx, "wall " + seconds(s.wall_seconds) + ", reconstruction " + seconds(s.case_seconds) + " over " +
+               std::to_string(o.jobs) + " job(s); overhead " +
+               std::to_string(int(std::round(100.0 * (1.0 - std::min(1.0, busy))))) + "%");
+  say(ctx, "results: " + s.results_path);
+  if (!s.complete) {
+    say(ctx, "study incomplete (stopped); run the same command again to resume");
+    return "";
+  }
+  say(ctx, "summary: " + s.summary_path);
+  say(ctx, "report: " + s.report_path);
+  say(ctx, kResearchUseLine);
+  return s.report_path;
+}
+
+}  // namespace recofold::cli

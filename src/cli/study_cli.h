@@ -1,0 +1,18 @@
+// SPDX-License-Identifier: Apache-2.0
+// Shared by `recofold study` and `recofold demo`: run a study config into a folder and print what happened.
+#pragma once
+
+#include <string>
+
+#include "cli_common.h"
+
+namespace recofold::cli {
+
+// Runs `config_path` into `out_dir` with `jobs` parallel cases (0: all
+// cores) and shard "I/N" ("" = whole study); prints the counts, timings and
+// where the report is. SIGINT/SIGTERM finish the cases in flight and stop
+// (a rerun resumes). Returns the report path ("" when the run is incomplete).
+std::string run_study_command(const Context& ctx, const std::string& config_path, const std::string& out_dir,
+                              int jobs, const std::string& shard);
+
+}  // namespace recofold::cli

@@ -1,0 +1,129 @@
+// SPDX-License-Identifier: Apache-2.0
+// Expansion of a study config into acquisitions and cases; shards.
+#include "recofold/study/case_grid.h"
+
+#include <cstdlib>
+#include <map>
+
+#include "recofold/core/error.h"
+#include "recofold/core/rng.h"
+#include "study_util.h"
+
+namespace recofold {
+
+std::string Acquisition::key() const {
+  if (modality == "mri")
+    return "mri/" + pattern + "/R" + format_number(accel) + "/c" + std::to_string(coils) + "/s" +
+           format_number(noise);
+  return "ct/v" + std::to_string(views) + "/a" + format_number(arc) + "/p" + format_number(photons);
+}
+
+const std::vector<std::string>& acquisition_axes() {
+  static const std::vector<std::string> axes = {"pattern", "accel", "coils", "noise", "views", "arc", "photons"};
+  return axes;
+}
+
+std::string axis_value(const Acquisition& a, const std::string& axis) {
+  if (a.modality == "mri") {
+    if (axis == "pattern") return a.pattern;
+    if (axis == "accel") return format_number(a.accel);
+    if (axis == "coils") return std::to_string(a.coils);
+    if (axis == "noise") return format_number(a.noise);
+  } else {
+    if (axis == "views") return std::to_string(a.views);
+    if (axis == "arc") return format_number(a.arc);
+    if (axis == "photons") return format_number(a.photons);
+  }
+  return "";
+}
+
+std::vector<Acquisition> expand_acquisitions(const StudyConfig& c) {
+  std::vector<Acquisition> out;
+  if (c.mri)
+    for (const auto& p : c.mri->patterns)
+      for (double r : c.mri->accelerations)
+        for (int coils : c.mri->coils)
+          for (double s : c.mri->noise_sigmas) {
+            Acquisition a;
+            a.modality = "mri";
+            a.pattern = p;
+            a.accel = r;
+            a.coils = coils;
+            a.noise = s;
+            out.push_back(a);
+          }
+  if (c.ct)
+    for (int v : c.ct->views)
+      for (double arc : c.ct->arcs_deg)
+        for (double ph : c.ct->photons) {
+          Acquisition a;
+          a.modality = "ct";
+          a.views = v;
+          a.arc = arc;
+          a.photons = ph;
+          out.push_back(a);
+        }
+  return out;
+}
+
+namespace {
+uint64_t seed_of(uint64_t study_seed, const std::string& key) {
+  Rng rng = Rng::for_stream(study_seed, fnv1a(key));
+  // Keep seeds in the signed 63-bit range so they survive int64 config and file attributes.
+  return rng.next_u64() >> 1;
+}
+}  // namespace
+
+CaseGrid expand_grid(const StudyConfig& c) {
+  CaseGrid g;
+  g.acquisitions = expand_acquisitions(c);
+  int group = 0;
+  for (size_t p = 0; p < c.phantoms.size(); ++p)
+    for (size_t a = 0; a < g.acquisitions.size(); ++a) {
+      const Acquisition& acq = g.acquisitions[a];
+      for (int r = 0; r < c.repetitions; ++r) {
+        const std::string rep = "r" + std::to_string(r);
+        const std::string mkey = c.phantoms[p].label + "|" + acq.key() + "|" + rep;
+        bool any = false;
+        for (size_t m = 0; m < c.methods.size(); ++m) {
+          if (!c.methods[m].applies_to(acq.modality)) continue;
+          StudyCase sc;
+          sc.index = static_cast<int>(g.cases.size());
+          sc.phantom = static_cast<int>(p);
+          sc.acquisition = static_cast<int>(a);
+          sc.method = static_cast<int>(m);
+          sc.repetition = r;
+          sc.group = group;
+          sc.measurement_key = mkey;
+          sc.key = c.phantoms[p].label + "|" + acq.key() + "|" + c.methods[m].name + "|" + rep;
+          sc.mask_seed = seed_of(c.seed, "mask|" + acq.key() + "|" + rep);
+          sc.noise_seed = seed_of(c.seed, "noise|" + mkey);
+          g.cases.push_back(sc);
+          any = true;
+        }
+        if (any) ++group;
+      }
+    }
+  g.groups = group;
+  return g;
+}
+
+Shard Shard::parse(const std::string& text, const std::string& flag) {
+  const size_t slash = text.find('/');
+  auto bad = [&](const std::string& why) { return InputError("", flag, "'" + text + "'; " + why); };
+  if (slash == std::string::npos) throw bad("expected I/N, e.g. 1/4");
+  char* end = nullptr;
+  const std::string a = text.substr(0, slash), b = text.substr(slash + 1);
+  const long i = std::strtol(a.c_str(), &end, 10);
+  if (a.empty() || *end != '\0') throw bad("expected I/N with integers");
+  const long n = std::strtol(b.c_str(), &end, 10);
+  if (b.empty() || *end != '\0') throw bad("expected I/N with integers");
+  if (n < 1 || n > 100000) throw bad("N must be in 1..100000");
+  if (i < 1 || i > n) throw bad("I must be in 1..N (shard " + a + " of " + b + " does not exist)");
+  Shard s;
+  s.index = static_cast<int>(i);
+  s.count = static_cast<int>(n);
+  return s;
+}
+
+}  // namespace recofold

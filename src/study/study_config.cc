@@ -1,0 +1,323 @@
+// SPDX-License-Identifier: Apache-2.0
+// Reading and validating study configs (study_config.h).
+#include "recofold/study/study_config.h"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <sstream>
+
+#include "recofold/core/atomic_file.h"
+#include "recofold/core/error.h"
+#include "recofold/core/provenance.h"
+#include "recofold/phantom/family.h"
+#include "recofold/priors/prior_spec.h"
+#include "recofold/recon/fbp.h"
+#include "recofold/sampling/mask.h"
+#include "study_util.h"
+
+namespace recofold {
+
+namespace {
+
+const std::vector<std::string> kMethodNames = {"zero-filled", "fbp", "cg", "ista", "fista", "admm", "pdhg", "unrolled"};
+
+std::string join(const std::vector<std::string>& v) {
+  std::string s;
+  for (const auto& x : v) s += (s.empty() ? "" : ", ") + x;
+  return s;
+}
+
+// A number or a list of numbers under `key` (at least one value).
+std::vector<double> number_list(const Config& t, const std::string& key) {
+  std::vector<double> out;
+  try {
+    out.push_back(t.get_double(key));
+  } catch (const InputError&) {
+    out = t.get_double_list(key);
+  }
+  if (out.empty()) throw t.error(key, "empty list; give at least one value");
+  for (double v : out)
+    if (!std::isfinite(v)) throw t.error(key, "values must be finite");
+  return out;
+}
+
+std::vector<std::string> string_list(const Config& t, const std::string& key) {
+  std::vector<std::string> out;
+  try {
+    out.push_back(t.get_string(key));
+  } catch (const InputError&) {
+    out = t.get_string_list(key);
+  }
+  if (out.empty()) throw t.error(key, "empty list; give at least one value");
+  return out;
+}
+
+std::vector<int> int_list(const Config& t, const std::string& key, int lo, int hi) {
+  std::vector<int> out;
+  for (double v : number_list(t, key)) {
+    if (v != std::floor(v) || v < lo || v > hi)
+      throw t.error(key, "= " + format_number(v) + "; must be an integer in " + std::to_string(lo) + ".." +
+                             std::to_string(hi));
+    out.push_back(static_cast<int>(v));
+  }
+  return out;
+}
+
+void check_range(const Config& t, const std::string& key, const std::vector<double>& v, double lo, double hi,
+                 bool lo_open, const std::string& rule) {
+  for (double x : v)
+    if (x > hi || x < lo || (lo_open && x == lo)) throw t.error(key, "= " + format_number(x) + "; must be " + rule);
+}
+
+std::string resolve(const std::string& path, const std::string& base_dir) {
+  if (path.empty() || path[0] == '/') return path;
+  const std::string beside = base_dir + "/" + path;
+  if (file_exists(beside)) return beside;
+  return path;
+}
+
+StudyMethod parse_method(const Config& t, const std::string& base_dir) {
+  t.expect_only({"name", "method", "prior", "lambda", "iters", "wavelet", "levels", "nonneg", "filter", "modality",
+                 "model", "train", "train_steps", "optional"});
+  StudyMethod m;
+  m.line = t.line();
+  m.method = t.get_string("method");
+  if (std::find(kMethodNames.begin(), kMethodNames.end(), m.method) == kMethodNames.end())
+    throw t.error("method", "'" + m.method + "'; expected one of " + join(kMethodNames));
+  m.prior = t.get_string_or("prior", "none");
+  if (!parse_prior(m.prior)) throw t.error("prior", "'" + m.prior + "'; expected one of " + accepted_priors());
+  const bool solver = m.method != "zero-filled" && m.method != "fbp" && m.method != "unrolled";
+  if (!solver && t.has("prior") && m.prior != "none")
+    throw t.error("prior", "method " + m.method + " takes no prior");
+  if ((m.method == "admm" || m.method == "pdhg") && m.prior == "none")
+    throw t.error("prior", "method " + m.method + " needs a prior (l2, wavelet, tv, tv-aniso)");
+  if (m.method == "cg" && m.prior != "none" && m.prior != "l2")
+    throw t.error("prior", "method cg takes prior none or l2 (lambda is the Tikhonov weight)");
+  if (t.has("lambda")) {
+    bool is_text = true;
+    try {
+      (void)t.get_string("lambda");
+    } catch (const InputError&) {
+      is_text = false;
+    }
+    if (is_text)
+      throw t.error("lambda", "give a number, or a list of numbers for a per-case oracle choice (an automatic "
+                              "rule is not available to studies in this build)");
+    m.lambdas = number_list(t, "lambda");
+    check_range(t, "lambda", m.lambdas, 0.0, 1e12, false, ">= 0");
+  }
+  m.iterations = static_cast<int>(t.get_int_or("iters", 50));
+  if (m.iterations < 1 || m.iterations > 100000) throw t.error("iters", "must be in 1..100000");
+  m.wavelet = t.get_string_or("wavelet", "db4");
+  m.levels = static_cast<int>(t.get_int_or("levels", 3));
+  if (t.has("nonneg")) m.nonneg = t.get_bool("nonneg");
+  m.filter = t.get_string_or("filter", "ram-lak");
+  if (!parse_fbp_filter(m.filter)) throw t.error("filter", "'" + m.filter + "'; expected " + fbp_filter_names());
+  if (t.has("modality")) {
+    const std::string mod = t.get_string("modality");
+    if (mod != "mri" && mod != "ct") throw t.error("modality", "'" + mod + "'; expected mri or ct");
+    if ((m.method == "zero-filled" && mod != "mri") || (m.method == "fbp" && mod != "ct"))
+      throw t.error("modality", "method " + m.method + " does not run on " + mod);
+    m.modalities = {mod};
+  } else if (m.method == "zero-filled") {
+    m.modalities = {"mri"};
+  } else if (m.method == "fbp") {
+    m.modalities = {"ct"};
+  } else if (m.method == "unrolled") {
+    throw t.error("modality", "missing; an unrolled method needs modality = \"mri\" or \"ct\"");
+  } else {
+    m.modalities = {"mri", "ct"};
+  }
+  m.name = t.get_string_or("name", m.prior == "none" ? m.method : m.method + "-" + m.prior);
+  if (m.name.empty() || m.name.find_first_of(",|\"\n/") != std::string::npos)
+    throw t.error("name", "'" + m.name + "'; must be non-empty without , | \" / or newlines");
+  m.optional = t.get_bool_or("optional", false);
+  m.train_steps = t.get_int_or("train_steps", 0);
+  if (m.train_steps < 0) throw t.error("train_steps", "must be >= 0");
+  if (m.method == "unrolled") {
+    const bool has_model = t.has("model"), has_train = t.has("train");
+    if (has_model == has_train) throw t.error(has_model ? "train" : "model", "an unrolled method needs exactly one of model or train");
+    if (has_model) {
+      m.model_path = resolve(t.get_string("model"), base_dir);
+      if (!file_exists(m.model_path)) throw t.error("model", "model file '" + m.model_path + "' does not exist");
+    } else {
+      m.train_config = resolve(t.get_string("train"), base_dir);
+      if (!file_exists(m.train_config))
+        throw t.error("train", "training config '" + m.train_config + "' does not exist");
+    }
+  } else {
+    for (const char* k : {"model", "train", "train_steps", "optional"})
+      if (t.has(k)) throw t.error(k, std::string("only unrolled methods take ") + k);
+  }
+  return m;
+}
+
+}  // namespace
+
+bool StudyMethod::applies_to(const std::string& modality) const {
+  return std::find(modalities.begin(), modalities.end(), modality) != modalities.end();
+}
+
+const std::vector<std::string>& study_metric_names() {
+  static const std::vector<std::string> names = {"psnr", "ssim", "nrmse", "hfen"};
+  return names;
+}
+
+StudyConfig StudyConfig::load(const std::string& path) {
+  const std::string text = read_text_file(path);
+  std::string base = ".";
+  const size_t slash = path.find_last_of('/');
+  if (slash != std::string::npos) base = path.substr(0, slash == 0 ? 1 : slash);
+  StudyConfig c = parse(text, path, base);
+  return c;
+}
+
+StudyConfig StudyConfig::parse(const std::string& text, const std::string& name, const std::string& base_dir) {
+  const Config root = Config::parse(text, name);
+  root.expect_only({"name", "description", "size", "repetitions", "seed", "metrics", "region", "phantom", "mri", "ct",
+                    "method"});
+  StudyConfig c;
+  c.file = name;
+  c.text = text;
+  {
+    std::string stem = name;
+    const size_t slash = stem.find_last_of('/');
+    if (slash != std::string::npos) stem = stem.substr(slash + 1);
+    const size_t dot = stem.find('.');
+    if (dot != std::string::npos) stem = stem.substr(0, dot);
+    c.name = root.get_string_or("name", stem);
+  }
+  c.description = root.get_string_or("description", "");
+  {
+    const std::vector<int> size = int_list(root, "size", 16, 1024);
+    if (size.size() > 2) throw root.error("size", "give N or [ny, nx]");
+    c.ny = size[0];
+    c.nx = size.size() == 2 ? size[1] : size[0];
+  }
+  c.repetitions = static_cast<int>(root.get_int_or("repetitions", 1));
+  if (c.repetitions < 1 || c.repetitions > 10000) throw root.error("repetitions", "must be in 1..10000");
+  const int64_t seed = root.get_int_or("seed", 1);
+  if (seed < 0) throw root.error("seed", "must be >= 0");
+  c.seed = static_cast<uint64_t>(seed);
+  if (root.has("metrics")) {
+    c.metrics = string_list(root, "metrics");
+    for (const auto& m : c.metrics)
+      if (std::find(study_metric_names().begin(), study_metric_names().end(), m) == study_metric_names().end())
+        throw root.error("metrics", "'" + m + "'; expected any of " + join(study_metric_names()));
+  }
+  if (root.has("region")) {
+    const Config r = root.table("region");
+    r.expect_only({"radius"});
+    c.region_radius = r.get_double("radius");
+    if (!(c.region_radius > 0.0 && c.region_radius <= 1.0)) throw r.error("radius", "must be in (0, 1]");
+  }
+
+  // Phantoms.
+  const std::vector<Config> phantoms = root.tables("phantom");
+  if (phantoms.empty()) throw root.error("phantom", "empty grid: no [[phantom]] table");
+  for (const Config& p : phantoms) {
+    p.expect_only({"table", "family", "count", "seed"});
+    if (p.has("table") == p.has("family")) throw p.error("table", "give exactly one of table or family");
+    if (p.has("table")) {
+      for (const char* k : {"count", "seed"})
+        if (p.has(k)) throw p.error(k, "only family phantoms take " + std::string(k));
+      StudyPhantom sp;
+      sp.table_path = resolve(p.get_string("table"), base_dir);
+      if (!file_exists(sp.table_path)) throw p.error("table", "phantom table '" + sp.table_path + "' does not exist");
+      std::string stem = sp.table_path.substr(sp.table_path.find_last_of('/') + 1);
+      sp.label = stem.substr(0, stem.find('.'));
+      c.phantoms.push_back(sp);
+    } else {
+      const std::string fam = p.get_string("family");
+      if (!parse_family(fam)) throw p.error("family", "'" + fam + "'; expected one of " + family_names());
+      const int64_t count = p.get_int_or("count", 1);
+      if (count < 1 || count > 1000) throw p.error("count", "must be in 1..1000");
+      const int64_t fseed = p.get_int_or("seed", static_cast<int64_t>(c.seed));
+      if (fseed < 0) throw p.error("seed", "must be >= 0");
+      for (int64_t i = 0; i < count; ++i) {
+        StudyPhantom sp;
+        sp.family = fam;
+        sp.family_seed = static_cast<uint64_t>(fseed);
+        sp.family_index = static_cast<int>(i);
+        sp.label = fam + "-" + std::to_string(fseed) + "-" + std::to_string(i);
+        c.phantoms.push_back(sp);
+      }
+    }
+  }
+  for (size_t i = 0; i < c.phantoms.size(); ++i)
+    for (size_t j = 0; j < i; ++j)
+      if (c.phantoms[i].label == c.phantoms[j].label)
+        throw root.error("phantom", "phantom '" + c.phantoms[i].label + "' is listed twice");
+
+  // Protocols.
+  if (root.has("mri")) {
+    const Config t = root.table("mri");
+    t.expect_only({"pattern", "accel", "coils", "noise", "center"});
+    MriAxes a;
+    if (t.has("pattern")) a.patterns = string_list(t, "pattern");
+    for (const auto& p : a.patterns)
+      if (!parse_mask_pattern(p)) throw t.error("pattern", "'" + p + "'; expected one of " + accepted_mask_patterns());
+    if (t.has("accel")) a.accelerations = number_list(t, "accel");
+    check_range(t, "accel", a.accelerations, 1.0, 64.0, false, "in [1, 64]");
+    if (t.has("coils")) a.coils = int_list(t, "coils", 1, 32);
+    if (t.has("noise")) a.noise_sigmas = number_list(t, "noise");
+    check_range(t, "noise", a.noise_sigmas, 0.0, 1e6, false, ">= 0");
+    a.center_fraction = t.get_double_or("center", 0.08);
+    if (!(a.center_fraction >= 0.0 && a.center_fraction < 1.0)) throw t.error("center", "must be in [0, 1)");
+    c.mri = a;
+  }
+  if (root.has("ct")) {
+    const Config t = root.table("ct");
+    t.expect_only({"views", "arc", "photons", "mu"});
+    CtAxes a;
+    if (t.has("views")) a.views = int_list(t, "views", 2, 100000);
+    if (t.has("arc")) a.arcs_deg = number_list(t, "arc");
+    check_range(t, "arc", a.arcs_deg, 0.0, 360.0, true, "in (0, 360]");
+    if (t.has("photons")) a.photons = number_list(t, "photons");
+    check_range(t, "photons", a.photons, 0.0, 1e15, false, ">= 0 (0: noiseless)");
+    a.mu_per_mm = t.get_double_or("mu", 0.0);
+    if (!(a.mu_per_mm >= 0.0 && std::isfinite(a.mu_per_mm)))
+      throw t.error("mu", "must be >= 0 (0: automatic, the largest line integral becomes 4)");
+    c.ct = a;
+  }
+  if (!c.mri && !c.ct) throw root.error("mri", "empty grid: give an [mri] or a [ct] protocol table");
+
+  // Methods.
+  const std::vector<Config> methods = root.tables("method");
+  if (methods.empty()) throw root.error("method", "empty grid: no [[method]] table");
+  for (const Config& t : methods) {
+    StudyMethod m = parse_method(t, base_dir);
+    if (m.learned() && !study_has_learn()) {
+      if (m.optional) {
+        c.notes.push_back("Learned method '" + m.name +
+                          "' was left out: this build has no learn module (RECOFOLD_WITH_LIBTORCH=OFF).");
+        continue;
+      }
+      throw t.error("method", "unrolled needs the learn module; this build has none (RECOFOLD_WITH_LIBTORCH=OFF); "
+                              "set optional = true to skip it");
+    }
+    for (const StudyMethod& o : c.methods)
+      for (const auto& mod : m.modalities)
+        if (o.name == m.name && o.applies_to(mod))
+          throw t.error("name", "'" + m.name + "' is used twice for " + mod + "; give the methods distinct names");
+    c.methods.push_back(std::move(m));
+  }
+  bool any = false;
+  for (const StudyMethod& m : c.methods)
+    any = any || (c.mri && m.applies_to("mri")) || (c.ct && m.applies_to("ct"));
+  if (!any) throw root.error("method", "empty grid: no method runs on the given protocols");
+
+  // Hash: config text plus the bytes of every file it names.
+  std::string h = fnv1a_hex(text);
+  for (const StudyPhantom& p : c.phantoms)
+    if (!p.table_path.empty()) h += file_checksum(p.table_path);
+  for (const StudyMethod& m : c.methods) {
+    if (!m.model_path.empty()) h += file_checksum(m.model_path);
+    if (!m.train_config.empty()) h += file_checksum(m.train_config);
+  }
+  c.hash = fnv1a_hex(h);
+  return c;
+}
+
+}  // namespace recofold

@@ -1,0 +1,370 @@
+// SPDX-License-Identifier: Apache-2.0
+// Parallel, resumable, sharded execution of a study and merging of shard folders.
+#include "recofold/study/study_runner.h"
+
+#include <fcntl.h>
+#include <sys/stat.h>
+#include <unistd.h>
+#include <omp.h>
+
+#include <algorithm>
+#include <chrono>
+#include <map>
+#include <mutex>
+#include <set>
+#include <thread>
+
+#include "recofold/core/atomic_file.h"
+#include "recofold/core/error.h"
+#include "recofold/core/provenance.h"
+#include "recofold/io/image_file.h"
+#include "recofold/ops/fft.h"
+#include "recofold/study/case_runner.h"
+#include "recofold/study/learned_models.h"
+#include "recofold/study/report.h"
+#include "recofold/study/results_table.h"
+#include "recofold/study/summary.h"
+#include "study_util.h"
+
+namespace recofold {
+
+namespace {
+
+bool is_dir(const std::string& p) {
+  struct stat st;
+  return ::stat(p.c_str(), &st) == 0 && S_ISDIR(st.st_mode);
+}
+
+void make_dir(const std::string& p) {
+  if (is_dir(p)) return;
+  if (::mkdir(p.c_str(), 0777) != 0 && !is_dir(p)) throw WorkError("cannot create folder '" + p + "'");
+}
+
+std::string parent_of(const std::string& p) {
+  std::string s = p;
+  while (s.size() > 1 && s.back() == '/') s.pop_back();
+  const size_t slash = s.find_last_of('/');
+  if (slash == std::string::npos) return ".";
+  return slash == 0 ? "/" : s.substr(0, slash);
+}
+
+// "key": "value" of a flat JSON object written by write_manifest.
+std::string json_value(const std::string& json, const std::string& key) {
+  const std::string pat = "\"" + key + "\": \"";
+  const size_t p = json.find(pat);
+  if (p == std::string::npos) return "";
+  const size_t start = p + pat.size();
+  const size_t end = json.find('"', start);
+  return end == std::string::npos ? "" : json.substr(start, end - start);
+}
+
+std::string json_escape(const std::string& s) {
+  std::string out;
+  for (char c : s) {
+    if (c == '"' || c == '\\') out += '\\';
+    if (c == '\n') {
+      out += "\\n";
+      continue;
+    }
+    out += c;
+  }
+  return out;
+}
+
+std::string config_dir(const StudyConfig& c) {
+  char buf[4096];
+  std::string dir = parent_of(c.file.empty() ? "./x" : c.file);
+  if (::realpath(dir.c_str(), buf) != nullptr) dir = buf;
+  return dir;
+}
+
+void write_manifest(const std::string& dir, const StudyConfig& c, const std::string& shard, int total, int in_shard,
+                    const std::string& command) {
+  std::string j = "{\n";
+  j += "  \"name\": \"" + json_escape(c.name) + "\",\n";
+  j += "  \"config_hash\": \"" + c.hash + "\",\n";
+  j += "  \"config_dir\": \"" + json_escape(config_dir(c)) + "\",\n";
+  j += "  \"shard\": \"" + shard + "\",\n";
+  j += "  \"cases_total\": \"" + std::to_string(total) + "\",\n";
+  j += "  \"cases_in_shard\": \"" + std::to_string(in_shard) + "\",\n";
+  j += "  \"producer\": \"" + json_escape(producer_string()) + "\",\n";
+  j += "  \"created_utc\": \"" + Provenance::utc_timestamp() + "\",\n";
+  j += "  \"command\": \"" + json_escape(command) + "\",\n";
+  j += "  \"research_use\": \"" + json_escape(kResearchUseLine) + "\"\n}\n";
+  write_text_atomic(dir + "/manifest.json", j);
+}
+
+ImageRecord record_of(const ImageF& img, const std::string& description) {
+  ImageRecord r;
+  r.pixels = NdArray<cfloat>(Shape{img.rows(), img.cols()});
+  for (Index k = 0; k < img.size(); ++k) r.pixels.data[size_t(k)] = cfloat(img.data()[k], 0.0f);
+  r.description = description;
+  return r;
+}
+
+// Rows sorted in canonical case order (cases not in the grid go last, by key).
+void sort_canonical(ResultsTable& t, const CaseGrid& grid) {
+  std::map<std::string, int> order;
+  for (const StudyCase& c : grid.cases) order[c.key] = c.index;
+  const int kc = t.column("case");
+  std::stable_sort(t.rows.begin(), t.rows.end(), [&](const auto& a, const auto& b) {
+    const auto ia = order.find(a[size_t(kc)]), ib = order.find(b[size_t(kc)]);
+    const int oa = ia == order.end() ? 1 << 30 : ia->second, ob = ib == order.end() ? 1 << 30 : ib->second;
+    if (oa != ob) return oa < ob;
+    return a[size_t(kc)] < b[size_t(kc)];
+  });
+}
+
+void finish_outputs(const std::string& dir, const StudyConfig& config, const CaseGrid& grid, ResultsTable& table,
+                    const LearnedModelSet* learned, StudyRunSummary& s) {
+  sort_canonical(table, grid);
+  write_text_atomic(dir + "/results.csv", results_text(table));
+  const std::vector<SummaryRow> summary = summarize(table);
+  write_text_atomic(dir + "/summary.csv", summary_csv(summary));
+  s.summary_path = dir + "/summary.csv";
+  ReportInputs in;
+  in.dir = dir;
+  in.config = &config;
+  in.grid = &grid;
+  in.results = &table;
+  in.summary = &summary;
+  in.learned = learned;
+  s.report_path = write_study_report(in);
+}
+
+}  // namespace
+
+std::vector<std::string> StudyRunOptions::validate() const {
+  std::vector<std::string> e;
+  if (out_dir.empty()) e.push_back("out_dir is empty");
+  if (jobs < 1) e.push_back("jobs = " + std::to_string(jobs) + "; must be >= 1");
+  if (threads_per_job < 0) e.push_back("threads_per_job = " + std::to_string(threads_per_job) + "; must be >= 0");
+  return e;
+}
+
+StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& options) {
+  const auto t0 = std::chrono::steady_clock::now();
+  {
+    const auto errors = options.validate();
+    if (!errors.empty()) throw InputError("", errors[0].substr(0, errors[0].find(' ')), errors[0]);
+  }
+  const std::string dir = options.out_dir;
+  if (!is_dir(parent_of(dir))) throw InputError("", "--out", "the folder '" + parent_of(dir) + "' does not exist");
+  const CaseGrid grid = expand_grid(config);
+  std::vector<const StudyCase*> mine;
+  for (const StudyCase& c : grid.cases)
+    if (options.shard.contains(c)) mine.push_back(&c);
+  StudyRunSummary s;
+  s.cases_total = int(grid.cases.size());
+  s.cases_in_shard = int(mine.size());
+  if (grid.cases.empty()) throw InputError(config.file, "method", "empty grid: no case to run");
+
+  // An existing folder must hold this config and this shard.
+  const std::string manifest = dir + "/manifest.json";
+  if (file_exists(manifest)) {
+    const std::string text = read_text_file(manifest);
+    const std::string hash = json_value(text, "config_hash");
+    if (hash != config.hash)
+      throw InputError(manifest, "config_hash",
+                       "the folder holds results of a different config (" + hash + ", this config " + config.hash +
+                           "); choose another --out");
+    const std::string shard = json_value(text, "shard");
+    if (shard != options.shard.to_string())
+      throw InputError(manifest, "shard",
+                       "the folder holds shard " + shard + ", not " + options.shard.to_string() +
+                           "; choose another --out");
+  }
+
+  LearnedModelSet learned;
+  learned.prepare(config, dir, options.progress);
+
+  make_dir(dir);
+  make_dir(dir + "/images");
+  write_text_atomic(dir + "/study.toml", config.text);
+  if (!file_exists(manifest))
+    write_manifest(dir, config, options.shard.to_string(), s.cases_total, s.cases_in_shard, options.command);
+
+  // Rows already there.
+  const std::string results_path = dir + "/results.csv";
+  s.results_path = results_path;
+  std::set<std::string> done;
+  if (file_exists(results_path)) {
+    ResultsTable t = read_results(results_path);
+    if (t.had_partial_line) write_text_atomic(results_path, results_text(t));
+    const int kc = t.column("case");
+    for (const auto& r : t.rows) done.insert(r[size_t(kc)]);
+  } else {
+    write_text_atomic(results_path, result_header() + "\n");
+  }
+
+  // Pending cases grouped by measurement.
+  std::map<int, std::vector<const StudyCase*>> groups;
+  for (const StudyCase* c : mine) {
+    if (done.count(c->key)) {
+      ++s.cases_skipped;
+      continue;
+    }
+    groups[c->group].push_back(c);
+  }
+  std::vector<std::vector<const StudyCase*>> tasks;
+  for (auto& [g, cs] : groups) tasks.push_back(std::move(cs));
+
+  const int fd = ::open(results_path.c_str(), O_WRONLY | O_APPEND);
+  if (fd < 0) throw WorkError("cannot open '" + results_path + "' for appending");
+  std::mutex mutex;
+  size_t next_task = 0;
+  int finished = s.cases_skipped;
+  const int jobs = std::max(1, std::min<int>(options.jobs, int(tasks.size())));
+  const int threads = options.threads_per_job > 0 ? options.threads_per_job
+                                                  : std::max(1, omp_get_max_threads() / std::max(1, options.jobs));
+  if (options.jobs > 1 || options.threads_per_job > 0) set_fft_threads(threads);
+  std::string write_error;
+
+  auto worker = [&]() {
+    omp_set_num_threads(threads);
+    for (;;) {
+      std::vector<const StudyCase*> task;
+      {
+        std::lock_guard<std::mutex> lock(mutex);
+        if (next_task >= tasks.size() || (options.stop && options.stop->load()) || !write_error.empty()) return;
+        task = tasks[next_task++];
+      }
+      const StudyCase& first = *task.front();
+      const bool keep_images = first.phantom == 0 && first.repetition == 0;
+      CaseMeasurement data;
+      std::string sim_error;
+      try {
+        data = simulate_case_measurement(config, config.phantoms[size_t(first.phantom)],
+                                         grid.acquisitions[size_t(first.acquisition)], first.mask_seed,
+                                         first.noise_seed);
+        if (keep_images)
+          write_image_file(study_image_path(dir, "truth|" + first.measurement_key),
+                           record_of(data.truth, "truth of " + first.measurement_key), Provenance{});
+      } catch (const std::exception& e) {
+        sim_error = std::string("simulation failed: ") + e.what();
+      }
+      for (const StudyCase* c : task) {
+        {
+          std::lock_guard<std::mutex> lock(mutex);
+          if (!write_error.empty()) return;
+        }
+        CaseOutcome o;
+        if (sim_error.empty()) {
+          o = run_case_method(config.methods[size_t(c->method)], data, &learned);
+          if (o.ok && keep_images) {
+            try {
+              write_image_file(study_image_path(dir, c->key), record_of(o.image, "reconstruction of " + c->key),
+                               Provenance{});
+            } catch (const std::exception& e) {
+              o.ok = false;
+              o.error = std::string("writing the montage image failed: ") + e.what();
+            }
+          }
+        } else {
+          o.error = sim_error;
+        }
+        const std::string line = format_result_row(config, grid, *c, o) + "\n";
+        std::lock_guard<std::mutex> lock(mutex);
+        if (::write(fd, line.data(), line.size()) != ssize_t(line.size())) {
+          write_error = "writing '" + results_path + "' failed";
+          return;
+        }
+        ++s.cases_run;
+        if (!o.ok) ++s.cases_failed;
+        s.case_seconds += o.seconds;
+        ++finished;
+        if (options.progress) options.progress->update(finished, s.cases_in_shard, c->key);
+      }
+    }
+  };
+  std::vector<std::thread> pool;
+  for (int j = 1; j < jobs; ++j) pool.emplace_back(worker);
+  worker();
+  for (auto& t : pool) t.join();
+  ::close(fd);
+  if (!write_error.empty()) throw WorkError(write_error);
+
+  ResultsTable table = read_results(results_path);
+  std::set<std::string> have;
+  for (const auto& r : table.rows) have.insert(r[size_t(table.column("case"))]);
+  s.complete = true;
+  for (const StudyCase* c : mine) s.complete = s.complete && have.count(c->key) > 0;
+  if (s.complete && options.write_report) finish_outputs(dir, config, grid, table, &learned, s);
+  if (options.progress) options.progress->finish(s.complete ? "study complete" : "study incomplete");
+  s.wall_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  return s;
+}
+
+StudyRunSummary merge_studies(const std::vector<std::string>& dirs, const std::string& out_dir,
+                              const std::string& command) {
+  const auto t0 = std::chrono::steady_clock::now();
+  if (dirs.size() < 2) throw InputError("", "--merge", "give at least two study folders to merge");
+  if (!is_dir(parent_of(out_dir))) throw InputError("", "--out", "the folder '" + parent_of(out_dir) + "' does not exist");
+  std::string hash, config_text, cdir;
+  ResultsTable merged;
+  std::map<std::string, std::string> owner;
+  for (const std::string& d : dirs) {
+    const std::string manifest = d + "/manifest.json";
+    if (!file_exists(manifest)) throw InputError(d, "manifest.json", "missing: not a study folder");
+    const std::string text = read_text_file(manifest);
+    const std::string h = json_value(text, "config_hash");
+    if (hash.empty()) {
+      hash = h;
+      config_text = read_text_file(d + "/study.toml");
+      cdir = json_value(text, "config_dir");
+    } else if (h != hash) {
+      throw InputError(manifest, "config_hash",
+                       "shard of a different config (" + h + ", first folder " + hash + "); refusing to merge");
+    }
+    ResultsTable t = read_results(d + "/results.csv");
+    if (merged.columns.empty()) merged.columns = t.columns;
+    const int kc = t.column("case");
+    for (auto& r : t.rows) {
+      const std::string& key = r[size_t(kc)];
+      const auto it = owner.find(key);
+      if (it != owner.end())
+        throw InputError(d + "/results.csv", "case",
+                         "case '" + key + "' is also in " + it->second + "; shards overlap, refusing to merge");
+      owner[key] = d;
+      merged.rows.push_back(r);
+    }
+  }
+  if (out_dir == dirs.front() || std::find(dirs.begin(), dirs.end(), out_dir) != dirs.end())
+    throw InputError("", "--out", "'" + out_dir + "' is one of the folders being merged; choose a new one");
+  // The config (its relative paths resolve against its original folder).
+  StudyConfig config = StudyConfig::parse(config_text, cdir + "/study.toml", cdir);
+  config.file = cdir + "/study.toml";
+  if (config.hash != hash)
+    throw InputError(dirs.front() + "/study.toml", "config_hash",
+                     "the config or a file it names changed since the shards ran (" + config.hash + " now, " + hash +
+                         " then)");
+  const CaseGrid grid = expand_grid(config);
+
+  make_dir(out_dir);
+  make_dir(out_dir + "/images");
+  write_text_atomic(out_dir + "/study.toml", config_text);
+  StudyRunSummary s;
+  s.cases_total = int(grid.cases.size());
+  s.cases_in_shard = s.cases_total;
+  s.cases_skipped = int(merged.rows.size());
+  // Montage images from every shard.
+  for (const std::string& d : dirs)
+    for (const StudyCase& c : grid.cases) {
+      if (c.phantom != 0 || c.repetition != 0) continue;
+      for (const std::string& key : {c.key, "truth|" + c.measurement_key}) {
+        const std::string from = study_image_path(d, key), to = study_image_path(out_dir, key);
+        if (file_exists(from) && !file_exists(to)) write_text_atomic(to, read_text_file(from));
+      }
+    }
+  write_manifest(out_dir, config, "merged", s.cases_total, s.cases_total, command);
+  std::set<std::string> have;
+  for (const auto& r : merged.rows) have.insert(r[size_t(merged.column("case"))]);
+  s.complete = true;
+  for (const StudyCase& c : grid.cases) s.complete = s.complete && have.count(c.key) > 0;
+  s.results_path = out_dir + "/results.csv";
+  finish_outputs(out_dir, config, grid, merged, nullptr, s);
+  s.wall_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  return s;
+}
+
+}  // namespace recofold
