@@ -2,6 +2,7 @@
 // `recofold phantom`: raster a phantom table or a seeded random family into an image file.
 #include <cstdint>
 #include <memory>
+#include <sstream>
 #include <string>
 
 #include "cli_common.h"
@@ -42,6 +43,12 @@ struct PhantomFlags {
 };
 
 const std::vector<std::string> kImageExtensions = {".h5", ".nii.gz", ".nii", ".mha", ".nrrd", ".png"};
+
+std::string format_number(double v) {
+  std::ostringstream s;
+  s << v;
+  return s.str();
+}
 
 void check_size(int value, const std::string& flag) {
   if (value < 1 || value > kMaxSize)
@@ -89,7 +96,7 @@ void run_phantom(const PhantomFlags& f, const CLI::App& sub, const Context& ctx)
   const int ny = f.size, nx = sub.count("--size-x") > 0 ? f.size_x : f.size;
   if (sub.count("--size-x") > 0) check_size(f.size_x, "--size-x");
   if (sub.count("--fov") > 0 && !(f.fov_mm > 0.0))
-    throw InputError("", "--fov", "= " + std::to_string(f.fov_mm) + "; must be > 0 (mm)");
+    throw InputError("", "--fov", "= " + format_number(f.fov_mm) + "; must be > 0 (mm)");
   if (use_table) {
     for (const char* flag : {"--count", "--seed", "--components", "--intensity-min", "--intensity-max", "--size-min",
                              "--size-max", "--texture", "--texture-blobs", "--texture-contrast"})
