@@ -22,8 +22,10 @@ struct CtSimulationOptions {
   // Attenuation per unit phantom intensity (1/mm). <= 0 selects it
   // automatically as kAutoLargestLineIntegral / (largest noiseless line
   // integral in intensity x mm), so any phantom's most attenuating ray gets
-  // p = 4 (e.g. the modified Shepp-Logan head at 256 mm gets mu of about
-  // 0.07/mm: brain 0.2 -> 0.014/mm, near water; skull 1.0 -> 0.07/mm, bone-like).
+  // p = 4. At 256 mm this gives (measured): qc-disk 0.022/mm (its water-like
+  // background 1.0 lands near water's 0.02/mm); Shepp-Logan 1974 0.016/mm
+  // (brain ~1.0); modified Shepp-Logan 0.056/mm (brain 0.2 -> 0.011/mm,
+  // skull 1.0 -> 0.056/mm). Give --mu for a fixed physical mapping instead.
   double mu_per_mm = 0.0;
   // true: exact line integrals of the analytic phantom (no inverse crime);
   // false: the Joseph projector applied to the raster ("discrete" truth).
