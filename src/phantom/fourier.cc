@@ -163,12 +163,15 @@ ImageC kspace_on_grid(const Phantom& p, int ny, int nx) {
       col_im[static_cast<size_t>(v) * nc + c] = std::sin(arg);
     }
   }
+  // A real object has F(-k) = conj(F(k)), and the grid phase factor flips
+  // sign with (m, n) too, so element (-n, -m) is the conjugate of (n, m):
+  // rows with n < 0 copy their mirror when it lies on the grid.
+  const bool hermitian = !p.is_complex();
+  const int first_row = ny / 2;  // n = 0
   ImageC out(ny, nx);
-#pragma omp parallel for schedule(static)
-  for (int u = 0; u < ny; ++u) {
+  auto compute_row = [&](int u, std::vector<double>& row_re, std::vector<double>& row_im) {
     const int n = u - ny / 2;
     const double ky = -n / 2.0 - p.phase_gy;
-    std::vector<double> row_re(nc), row_im(nc);
     for (size_t c = 0; c < nc; ++c) {
       const double arg = -2.0 * kPi * ky * frames[c].y0;
       row_re[c] = std::cos(arg);
@@ -176,6 +179,10 @@ ImageC kspace_on_grid(const Phantom& p, int ny, int nx) {
     }
     for (int v = 0; v < nx; ++v) {
       const int m = v - nx / 2;
+      if (hermitian && n < 0) {
+        const int mu = ny / 2 - n, mv = nx / 2 - m;  // indices of (-n, -m)
+        if (mu < ny && mv >= 0 && mv < nx) continue;  // filled by mirroring below
+      }
       const double kx = m / 2.0 - p.phase_gx;
       double sr = 0.0, si = 0.0;
       for (size_t c = 0; c < nc; ++c) {
@@ -190,6 +197,26 @@ ImageC kspace_on_grid(const Phantom& p, int ny, int nx) {
       }
       const cdouble value = cdouble(sr, si) * std::polar(scale, p.phase0_rad + 2.0 * kPi * (cx * m / nx + cy * n / ny));
       out(u, v) = cfloat(static_cast<float>(value.real()), static_cast<float>(value.imag()));
+    }
+  };
+#pragma omp parallel
+  {
+    std::vector<double> row_re(nc), row_im(nc);
+    // Rows n >= 0 first (every row when the object is complex) ...
+#pragma omp for schedule(static)
+    for (int u = 0; u < ny; ++u)
+      if (!hermitian || u >= first_row) compute_row(u, row_re, row_im);
+    // ... then rows n < 0: direct values where no mirror exists, copies elsewhere.
+#pragma omp for schedule(static)
+    for (int u = 0; u < first_row; ++u) {
+      if (!hermitian) continue;
+      compute_row(u, row_re, row_im);
+      const int n = u - ny / 2;
+      for (int v = 0; v < nx; ++v) {
+        const int m = v - nx / 2;
+        const int mu = ny / 2 - n, mv = nx / 2 - m;
+        if (mu < ny && mv >= 0 && mv < nx) out(u, v) = std::conj(out(mu, mv));
+      }
     }
   }
   return out;

@@ -141,8 +141,14 @@ TEST(PhantomFourier, BatchEqualsPointwise) {
 
 TEST(PhantomFourier, GridSamplesFollowTheCentredDftLayout) {
   // Element [u, v] = F(m/2, -n/2) sqrt(ny nx)/4 exp(i 2 pi (cx m/nx + cy n/ny)).
-  Phantom p = testing::load_repo_phantom("qc-disk");
-  for (const auto& [ny, nx] : {std::pair<int, int>{16, 16}, {15, 18}}) {
+  // A real object (values mirrored by Hermitian symmetry) and a phased one
+  // (every value computed).
+  Phantom real_object = testing::load_repo_phantom("qc-disk");
+  Phantom phased = real_object;
+  phased.phase0_rad = 0.4;
+  phased.phase_gx = 0.75;
+  for (const Phantom& p : {real_object, phased})
+  for (const auto& [ny, nx] : {std::pair<int, int>{16, 16}, {15, 18}, {17, 17}}) {
     const ImageC g = kspace_on_grid(p, ny, nx);
     const double cx = nx % 2 == 0 ? 0.5 : 0.0, cy = ny % 2 == 0 ? 0.5 : 0.0;
     for (int u = 0; u < ny; ++u)
