@@ -7,7 +7,9 @@
 # n detectors (skimage's circle=True layout). Times are the best of R runs
 # (wall clock). skimage has no separate back-projector; iradon(filter_name=None)
 # (unfiltered back-projection) stands in for it. Both sides run in this one
-# process tree with the same thread limit, so a busy machine slows both.
+# process tree with the same thread limit, so a busy machine slows both; the
+# CPU-time speed-up (process CPU seconds, all threads) is also printed, as it
+# varies less with the machine's load.
 import argparse
 import json
 import os
@@ -22,12 +24,15 @@ CASES = [(256, 180), (512, 360)]
 
 
 def best_of(fn, repeats):
-    best = float("inf")
+    """Best wall-clock time of `repeats` runs and the CPU time of that run."""
+    best, cpu = float("inf"), float("inf")
     for _ in range(repeats):
-        t0 = time.perf_counter()
+        c0, t0 = time.process_time(), time.perf_counter()
         fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
+        t, c = time.perf_counter() - t0, time.process_time() - c0
+        if t < best:
+            best, cpu = t, c
+    return best, cpu
 
 
 def main():
@@ -48,23 +53,30 @@ def main():
         img = (rng.random((n, n)) * ((yy ** 2 + xx ** 2) < (n // 2) ** 2)).astype(np.float64)
         theta = np.arange(views) * 180.0 / views
         sino = radon(img, theta=theta, circle=True)
-        sk_fp = best_of(lambda: radon(img, theta=theta, circle=True), args.repeats)
-        sk_bp = best_of(lambda: iradon(sino, theta=theta, filter_name=None, circle=True), args.repeats)
-        sk_fbp = best_of(lambda: iradon(sino, theta=theta, filter_name="ramp", circle=True), args.repeats)
-        rows.append({"n": n, "views": views, "threads": threads,
+        sk_fp, sk_fp_cpu = best_of(lambda: radon(img, theta=theta, circle=True), args.repeats)
+        sk_bp, sk_bp_cpu = best_of(lambda: iradon(sino, theta=theta, filter_name=None, circle=True), args.repeats)
+        sk_fbp, sk_fbp_cpu = best_of(lambda: iradon(sino, theta=theta, filter_name="ramp", circle=True),
+                                     args.repeats)
+        rows.append({"n": n, "views": views, "threads": threads, "load_average": os.getloadavg()[0],
                      "recofold_project_s": ours["project_s"], "skimage_radon_s": sk_fp,
                      "recofold_backproject_s": ours["backproject_s"], "skimage_backproject_s": sk_bp,
                      "recofold_fbp_s": ours["fbp_s"], "skimage_iradon_s": sk_fbp,
                      "speedup_project": sk_fp / ours["project_s"],
                      "speedup_backproject": sk_bp / ours["backproject_s"],
-                     "speedup_fbp": sk_fbp / ours["fbp_s"]})
-    print(f"threads (OMP_NUM_THREADS) = {threads}")
+                     "speedup_fbp": sk_fbp / ours["fbp_s"],
+                     "cpu_speedup_project": sk_fp_cpu / ours["project_cpu_s"],
+                     "cpu_speedup_backproject": sk_bp_cpu / ours["backproject_cpu_s"],
+                     "cpu_speedup_fbp": sk_fbp_cpu / ours["fbp_cpu_s"]})
+    print(f"threads (OMP_NUM_THREADS) = {threads}, load average {os.getloadavg()[0]:.1f} on "
+          f"{os.cpu_count()} cores; wall-clock time and speed-up (skimage / recofold), "
+          "then the speed-up in CPU time (all threads)")
     print(f"{'case':>12} {'project':>22} {'back-project':>22} {'FBP':>22}")
     for r in rows:
         print(f"{r['n']:>5}^2 x{r['views']:>4} "
               f"{r['recofold_project_s']*1e3:7.1f} ms {r['speedup_project']:6.1f}x   "
               f"{r['recofold_backproject_s']*1e3:7.1f} ms {r['speedup_backproject']:6.1f}x   "
-              f"{r['recofold_fbp_s']*1e3:7.1f} ms {r['speedup_fbp']:6.1f}x")
+              f"{r['recofold_fbp_s']*1e3:7.1f} ms {r['speedup_fbp']:6.1f}x   | cpu "
+              f"{r['cpu_speedup_project']:5.1f}x {r['cpu_speedup_backproject']:5.1f}x {r['cpu_speedup_fbp']:5.1f}x")
     if len(rows) == 2:
         a, b = rows
         for key in ("project", "backproject", "fbp"):
