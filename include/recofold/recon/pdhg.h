@@ -35,7 +35,10 @@ struct PdhgOptions {
   int max_iterations = 500;          // >= 1
   double tau = 0.0;                  // primal step; <= 0 with sigma <= 0: automatic (above)
   double sigma = 0.0;                // dual step; set both or neither
-  double balance = 1.0;              // > 0, the automatic steps' dual/primal balance
+  // > 0, the automatic steps' dual/primal balance. 1 is the symmetric
+  // choice; 5 reached the data fit in about 10x fewer iterations on a 128^2,
+  // 60-view CT problem (recon_end_to_end_test) and is the default.
+  double balance = 5.0;
   int power_iterations = 50;         // for ||A||^2 and ||K||^2, >= 1
   double relative_tolerance = 1e-6;  // stop when ||x_k - x_{k-1}|| / ||x_k|| <= this; >= 0
   // Stop when gap <= gap_tolerance * max(1, |P(x)|); 0 = never; needs record_gap.
