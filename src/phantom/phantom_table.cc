@@ -210,8 +210,10 @@ std::vector<Phantom> phantoms_from_table(const Table& table, const std::string& 
     for (const std::string& c : kColumns)
       if (!std::isfinite(row[col[c]])) throw table_error(file, where + c + " is not finite");
     const double obj = v("object");
-    if (obj < 0 || obj != std::floor(obj) || obj > 1e7)
-      throw table_error(file, where + "object = " + num(obj) + "; must be a non-negative integer");
+    // Every object has at least one row, so an index cannot reach the row count.
+    if (obj < 0 || obj != std::floor(obj) || obj >= static_cast<double>(s[0]))
+      throw table_error(file, where + "object = " + num(obj) + "; must be an integer in 0.." +
+                                  std::to_string(s[0] - 1) + " (objects are numbered from 0 without gaps)");
     const double type = v("type");
     if (type != 0.0 && type != 1.0) throw table_error(file, where + "type = " + num(type) + "; must be 0 (ellipse) or 1 (blob)");
     Component c;

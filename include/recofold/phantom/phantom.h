@@ -7,6 +7,13 @@
 // view `fov_mm` is the width of that square. In a raster of ny x nx pixels,
 // row 0 is the top (y near +1) and column 0 the left (x near -1); pixel (iy, ix)
 // has its centre at x = -1 + (2 ix + 1)/nx, y = 1 - (2 iy + 1)/ny.
+//
+// The evaluations live beside this header: raster.h (rasterize,
+// rasterize_stack), fourier.h (fourier_transform, kspace_on_grid),
+// line_integral.h (line_integral, line_integrals, line_integrals_through,
+// parallel_sinogram); phantom_table.h loads phantoms/*.toml and converts to and
+// from the /phantom/components table of phantom files; family.h draws seeded
+// random objects.
 #pragma once
 
 #include <optional>
