@@ -61,6 +61,13 @@ bool prepare(const Component& comp, int ny, int nx, const RasterOptions& o, Prep
     p.method = Method::kEllipse;
     p.edge_radius = 0.5 * std::hypot(dx, dy) / std::min(p.f.a, p.f.b);
     p.samples = o.edge_supersample;
+    // An ellipse thinner (in y) than a few sub-rows would fall between them
+    // or be measured coarsely: give it at least 32 sub-rows across its
+    // height, up to 1024 per pixel (cheap: most sub-rows miss it at once).
+    if (p.samples > 0) {
+      const double needed = std::ceil(32.0 * dy / (2.0 * hy));
+      p.samples = static_cast<int>(std::max(static_cast<double>(p.samples), std::min(needed, 1024.0)));
+    }
     return true;
   }
   const bool axis_aligned = p.f.sin_phi == 0.0 || p.f.cos_phi == 0.0 || p.f.a == p.f.b;
