@@ -19,7 +19,8 @@
 //       coarse: 6 rotated anisotropic blobs, sigma U(0.08, 0.2)
 //       medium: 40 rotated anisotropic blobs, sigma U(0.025, 0.06)
 //       fine:   texture_blobs round blobs, sigma U(0.006, 0.02)
-//                (about 1-2.5 pixels at 128^2, texture down to a few pixels).
+//                (sigma 0.4-1.3 pixels, FWHM 1-3 pixels at 128^2: texture
+//                down to a few pixels).
 // Everything stays exact in k-space and in projection (phantom/fourier.h,
 // phantom/line_integral.h).
 #pragma once
