@@ -63,7 +63,7 @@ SolverSummary solve_ista(const IstaOptions& options, const LinearOperator& a, co
       message = "non-finite value at iteration " + std::to_string(k);
       break;
     }
-    if (rec.relative_change <= options.relative_tolerance) {
+    if (options.relative_tolerance > 0.0 && rec.relative_change <= options.relative_tolerance) {
       term = Termination::kConverged;
       char buf[96];
       std::snprintf(buf, sizeof buf, "relative change %.2e <= %.2e", rec.relative_change, options.relative_tolerance);

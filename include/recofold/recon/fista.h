@@ -22,7 +22,7 @@ struct FistaOptions {
   double step_size = 0.0;            // 1/L; <= 0 means 1/(1.05 L) with L estimated by power iteration
   int power_iterations = 50;         // only used when step_size <= 0; >= 1
   uint64_t power_seed = 1;           // seed of the power iteration's start vector
-  double relative_tolerance = 1e-6;  // stop when ||x_k - x_{k-1}|| / ||x_k|| is below this; >= 0
+  double relative_tolerance = 1e-6;  // stop when ||x_k - x_{k-1}|| / ||x_k|| is below this; >= 0; 0 = never
   bool adaptive_restart = true;      // O'Donoghue & Candes (2015)
   // Objective and data residual per iteration: one extra A apply per iteration
   // (the gradient is taken at v_k, not x_k). Switch off for timing runs.
