@@ -8,7 +8,10 @@
 #include "cli_common.h"
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
+#include "recofold/core/atomic_file.h"
+#include "recofold/io/h5_file.h"
 #include "recofold/io/image_export.h"
+#include "recofold/io/measurement_file.h"
 #include "recofold/metrics/image_quality.h"
 
 namespace recofold::cli {
@@ -47,7 +50,22 @@ std::string json_string(const std::string& s) {
 }
 
 // One slice of an image file: --index applies to stacks, 2-D files ignore it.
+// A measurement file (HDF5 without /image but with /truth/image) gives its ground truth.
 ImageF load(const std::string& path, int index) {
+  if (file_extension(path) == ".h5") {
+    bool truth_only = false;
+    {
+      const H5Reader r(path);
+      truth_only = !r.has("/image") && r.has("/truth/image");
+    }
+    if (truth_only) {
+      const Measurement m = read_measurement_file(path);
+      ImageRecord rec;
+      rec.pixels = *m.truth;
+      rec.is_complex = m.truth_is_complex;
+      return image_slice(rec, 0, path);
+    }
+  }
   const ImageRecord rec = read_image_any(path);
   return image_slice(rec, rec.pixels.shape.rank() == 3 ? index : 0, path);
 }
@@ -98,7 +116,9 @@ void run_score(const ScoreFlags& f, const Context& ctx) {
 void register_cmd_score(CLI::App& app, Context& ctx) {
   auto flags = std::make_shared<ScoreFlags>();
   CLI::App* sub = app.add_subcommand("score", "Score an image against a reference: PSNR, SSIM, NRMSE, HFEN");
-  sub->add_option("--reference", flags->reference, "Reference image (.h5, .nii.gz, .nii, .mha, .nrrd, .png)")
+  sub->add_option("--reference", flags->reference,
+                  "Reference image (.h5, .nii.gz, .nii, .mha, .nrrd, .png), or a measurement file with "
+                  "/truth/image (its ground truth is used)")
       ->required();
   sub->add_option("--image", flags->image, "Image to score, same shape as the reference")->required();
   sub->add_flag("--json", flags->json,
