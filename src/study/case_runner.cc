@@ -22,6 +22,7 @@
 #include "recofold/recon/fbp.h"
 #include "recofold/recon/fista.h"
 #include "recofold/recon/ista.h"
+#include "recofold/recon/lambda_discrepancy.h"
 #include "recofold/recon/pdhg.h"
 #include "recofold/recon/zero_filled.h"
 #include "recofold/sampling/mask.h"
@@ -61,8 +62,11 @@ ImageF image_of(const ImageC& x, bool magnitude) {
   return out;
 }
 
-// One solver run with weight `lambda`; returns the image and the iteration count.
-ImageF run_solver(const StudyMethod& method, const Measurement& m, double lambda, int* iterations) {
+// One solver run with weight `lambda` (or, when `lambda` is NaN, with the weight
+// chosen by the discrepancy principle); returns the image, the weight used and
+// the iteration count of the final solve.
+ImageF run_solver(const StudyMethod& method, const Measurement& m, double lambda, double* lambda_used,
+                  int* iterations) {
   const bool mri = m.modality == "mri";
   std::unique_ptr<LinearOperator> op;
   VecC y;
@@ -76,16 +80,18 @@ ImageF run_solver(const StudyMethod& method, const Measurement& m, double lambda
   const Shape shape{m.ny, m.nx};
   VecC x;
   SolverSummary summary;
+  *lambda_used = lambda;
   if (method.method == "cg") {
     CgOptions o;
     o.max_iterations = method.iterations;
     o.tikhonov = method.prior == "l2" ? lambda : 0.0;
     o.record_objective = false;
     summary = solve_cg(o, *op, y, x);
+    if (method.prior != "l2") *lambda_used = std::numeric_limits<double>::quiet_NaN();
   } else {
     PriorSpec spec;
     spec.kind = *parse_prior(method.prior);
-    spec.lambda = lambda;
+    spec.lambda = std::isnan(lambda) ? 1.0 : lambda;
     if (const auto w = parse_wavelet(method.wavelet)) spec.wavelet.family = *w;
     else throw InputError("", "method.wavelet", "'" + method.wavelet + "'; expected db1, db2, db3 or db4");
     spec.wavelet.levels = method.levels;
@@ -93,29 +99,59 @@ ImageF run_solver(const StudyMethod& method, const Measurement& m, double lambda
     const bool nonneg = method.nonneg.value_or(!mri);
     if (nonneg) spec.box = Box{};
     const std::unique_ptr<Prior> prior = make_prior(spec, shape);
-    if (method.method == "ista") {
-      IstaOptions o;
-      o.max_iterations = method.iterations;
-      o.record_objective = false;
-      summary = solve_ista(o, *op, *prior, y, x);
-    } else if (method.method == "fista") {
-      FistaOptions o;
-      o.max_iterations = method.iterations;
-      o.record_objective = false;
-      summary = solve_fista(o, *op, *prior, y, x);
-    } else if (method.method == "admm") {
-      AdmmOptions o;
-      o.max_iterations = method.iterations;
-      o.record_objective = false;
-      summary = solve_admm(o, *op, *prior, y, x);
-    } else if (method.method == "pdhg") {
-      PdhgOptions o;
-      o.max_iterations = method.iterations;
-      o.record_gap = false;
-      summary = solve_pdhg(o, *op, *prior, y, x);
-    } else {
-      throw InputError("", "method.method", "'" + method.method + "' is not a solver");
+    const int iters = method.iterations;
+    const std::string name = method.method;
+    const LinearOperator& a = *op;
+    const RegularisedSolve solve = [&a, &y, iters, name](const Prior& p, VecC& xs) {
+      if (name == "ista") {
+        IstaOptions o;
+        o.max_iterations = iters;
+        o.record_objective = false;
+        return solve_ista(o, a, p, y, xs);
+      }
+      if (name == "fista") {
+        FistaOptions o;
+        o.max_iterations = iters;
+        o.record_objective = false;
+        return solve_fista(o, a, p, y, xs);
+      }
+      if (name == "admm") {
+        AdmmOptions o;
+        o.max_iterations = iters;
+        o.record_objective = false;
+        return solve_admm(o, a, p, y, xs);
+      }
+      if (name == "pdhg") {
+        PdhgOptions o;
+        o.max_iterations = iters;
+        o.record_gap = false;
+        return solve_pdhg(o, a, p, y, xs);
+      }
+      throw InputError("", "method.method", "'" + name + "' is not a solver");
+    };
+    if (std::isnan(lambda)) {
+      DiscrepancyOptions d;
+      if (mri) {
+        if (!(m.mri->noise_sigma > 0.0))
+          throw InputError("", "method.lambda", "auto needs noisy data (the discrepancy principle matches the noise)");
+        Index sampled = 0;
+        for (uint8_t v : m.mri->mask.data) sampled += v != 0;
+        d.noise_sigma = m.mri->noise_sigma;
+        d.measurement_count = sampled * (m.mri->kspace.shape.rank() == 3 ? m.mri->kspace.shape[0] : 1);
+        d.complex_noise = true;
+      } else {
+        if (!(m.ct->photons_per_ray > 0.0))
+          throw InputError("", "method.lambda", "auto needs noisy data (photons > 0)");
+        d.target = transmission_noise_energy(y, m.ct->photons_per_ray);
+        d.complex_noise = false;
+      }
+      d.max_steps = 10;
+      const DiscrepancyChoice choice = choose_lambda_discrepancy(d, a, y, *prior, solve, x);
+      *lambda_used = choice.lambda;
+      *iterations = choice.curve.points.empty() ? 0 : choice.curve.points.back().iterations;
+      return image_of(x, m.ny, m.nx, mri);
     }
+    summary = solve(*prior, x);
   }
   if (!summary.is_usable()) throw WorkError(method.method + ": " + summary.brief_report());
   *iterations = static_cast<int>(summary.iterations.size());
@@ -199,17 +235,20 @@ CaseOutcome run_case_method(const StudyMethod& method, const CaseMeasurement& da
       out.image = image_of(learned->reconstruct(method.name, m, &out.outside), m.modality == "mri");
       out.in_training = out.outside.empty() ? "yes" : "no";
     } else {
-      const std::vector<double> lambdas = method.lambdas.empty() ? std::vector<double>{0.0} : method.lambdas;
+      const std::vector<double> lambdas =
+          method.lambda_auto ? std::vector<double>{std::numeric_limits<double>::quiet_NaN()}
+                             : (method.lambdas.empty() ? std::vector<double>{0.0} : method.lambdas);
       double best = -std::numeric_limits<double>::infinity();
       for (double lambda : lambdas) {
         int iterations = 0;
-        ImageF image = run_solver(method, m, lambda, &iterations);
+        double used = lambda;
+        ImageF image = run_solver(method, m, lambda, &used, &iterations);
         const double p = lambdas.size() > 1 ? psnr(data.truth, image, so) : 0.0;
         if (lambdas.size() == 1 || p > best) {
           best = p;
           out.image = std::move(image);
           out.iterations = iterations;
-          out.lambda = lambda;
+          out.lambda = used;
         }
       }
     }

@@ -95,17 +95,24 @@ StudyMethod parse_method(const Config& t, const std::string& base_dir) {
   if (m.method == "cg" && m.prior != "none" && m.prior != "l2")
     throw t.error("prior", "method cg takes prior none or l2 (lambda is the Tikhonov weight)");
   if (t.has("lambda")) {
+    std::string text;
     bool is_text = true;
     try {
-      (void)t.get_string("lambda");
+      text = t.get_string("lambda");
     } catch (const InputError&) {
       is_text = false;
     }
-    if (is_text)
-      throw t.error("lambda", "give a number, or a list of numbers for a per-case oracle choice (an automatic "
-                              "rule is not available to studies in this build)");
-    m.lambdas = number_list(t, "lambda");
-    check_range(t, "lambda", m.lambdas, 0.0, 1e12, false, ">= 0");
+    if (is_text) {
+      if (text != "auto")
+        throw t.error("lambda", "'" + text + "'; give a number, a list of numbers (per-case oracle choice) or \"auto\"");
+      if (m.method != "ista" && m.method != "fista" && m.method != "admm" && m.method != "pdhg")
+        throw t.error("lambda", "auto needs a prior solver (ista, fista, admm, pdhg), not " + m.method);
+      if (m.prior == "none") throw t.error("lambda", "auto needs a prior");
+      m.lambda_auto = true;
+    } else {
+      m.lambdas = number_list(t, "lambda");
+      check_range(t, "lambda", m.lambdas, 0.0, 1e12, false, ">= 0");
+    }
   }
   m.iterations = static_cast<int>(t.get_int_or("iters", 50));
   if (m.iterations < 1 || m.iterations > 100000) throw t.error("iters", "must be in 1..100000");
@@ -132,6 +139,7 @@ StudyMethod parse_method(const Config& t, const std::string& base_dir) {
   m.name = t.get_string_or("name", m.prior == "none" ? m.method : m.method + "-" + m.prior);
   if (m.name.empty() || m.name.find_first_of(",|\"\n/") != std::string::npos)
     throw t.error("name", "'" + m.name + "'; must be non-empty without , | \" / or newlines");
+  if (m.method == "unrolled") m.prior = "learned";  // the prior column of results.csv
   m.optional = t.get_bool_or("optional", false);
   m.train_steps = t.get_int_or("train_steps", 0);
   if (m.train_steps < 0) throw t.error("train_steps", "must be >= 0");

@@ -46,7 +46,10 @@
 //   lambda    = 0.01                weight >= 0; or a list [1e-3, 1e-2]: per case the
 //                                   value with the best PSNR against the truth is
 //                                   kept (an oracle choice: the best a tuned
-//                                   classical method can do; the row records it)
+//                                   classical method can do; the row records it);
+//                                   or "auto": Morozov's discrepancy principle with the
+//                                   measurement's known noise (recon/lambda_discrepancy.h;
+//                                   needs noisy data: MRI noise > 0, CT photons > 0)
 //   iters     = 50                  iterations (solvers)
 //   wavelet   = "db4"   levels = 3  wavelet prior options
 //   nonneg    = true                box x >= 0 (default true for CT, false for MRI)
@@ -109,6 +112,7 @@ struct StudyMethod {
   std::string method;               // zero-filled, fbp, cg, ista, fista, admm, pdhg, unrolled
   std::string prior = "none";       // none, l2, wavelet, tv, tv-aniso
   std::vector<double> lambdas;      // empty: 0; one: fixed; several: oracle choice per case
+  bool lambda_auto = false;         // "auto": discrepancy principle per case
   int iterations = 50;
   std::string wavelet = "db4";
   int levels = 3;

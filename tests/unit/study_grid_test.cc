@@ -1,0 +1,192 @@
+// SPDX-License-Identifier: Apache-2.0
+// Study config and case grid: counts and keys with every axis, shards, seeds, bad configs.
+#include <gtest/gtest.h>
+
+#include <cstdlib>
+#include <map>
+#include <set>
+#include <string>
+
+#include "recofold/core/error.h"
+#include "recofold/study/case_grid.h"
+#include "recofold/study/study_config.h"
+
+namespace recofold {
+namespace {
+
+std::string source_dir() {
+  const char* s = std::getenv("RECOFOLD_SOURCE_DIR");
+  return s ? s : ".";
+}
+
+// Every axis with two values; three phantoms (a table and a family of two).
+const char* kEveryAxis = R"(
+name = "every-axis"
+size = 32
+repetitions = 2
+seed = 3
+[[phantom]]
+table = "phantoms/qc-disk.toml"
+[[phantom]]
+family = "ellipses"
+count = 2
+seed = 9
+[mri]
+pattern = ["lines-vd", "lines-uniform"]
+accel = [2, 4]
+coils = [1, 4]
+noise = [0.0, 0.01]
+[ct]
+views = [20, 40]
+arc = [120, 180]
+photons = [0, 1e5]
+[[method]]
+method = "zero-filled"
+[[method]]
+method = "fbp"
+[[method]]
+name = "fista-wavelet"
+method = "fista"
+prior = "wavelet"
+lambda = 0.01
+iters = 5
+levels = 2
+)";
+
+StudyConfig every_axis() { return StudyConfig::parse(kEveryAxis, "every-axis.toml", source_dir()); }
+
+TEST(StudyGrid, CountsEveryAxisCombination) {
+  const StudyConfig c = every_axis();
+  ASSERT_EQ(c.phantoms.size(), 3u);
+  const CaseGrid g = expand_grid(c);
+  EXPECT_EQ(g.acquisitions.size(), 16u + 8u);
+  // Per phantom and repetition: 16 MRI acquisitions x 2 methods + 8 CT x 2 methods.
+  EXPECT_EQ(g.cases.size(), 3u * 2u * (16u * 2u + 8u * 2u));
+  EXPECT_EQ(g.groups, 3 * 2 * 24);
+}
+
+TEST(StudyGrid, KeysAreUniqueAndNameEveryAxis) {
+  const CaseGrid g = expand_grid(every_axis());
+  std::set<std::string> keys;
+  for (const StudyCase& c : g.cases) {
+    EXPECT_TRUE(keys.insert(c.key).second) << c.key;
+    EXPECT_EQ(c.index, int(&c - &g.cases[0]));
+  }
+  EXPECT_TRUE(keys.count("qc-disk|mri/lines-uniform/R4/c4/s0.01|fista-wavelet|r1"));
+  EXPECT_TRUE(keys.count("ellipses-9-1|ct/v40/a120/p100000|fbp|r0"));
+  EXPECT_FALSE(keys.count("qc-disk|ct/v40/a120/p100000|zero-filled|r0")) << "zero-filled is MRI only";
+  for (const Acquisition& a : g.acquisitions)
+    for (const std::string& axis : acquisition_axes()) {
+      const bool mri_axis = axis == "pattern" || axis == "accel" || axis == "coils" || axis == "noise";
+      EXPECT_EQ(axis_value(a, axis).empty(), mri_axis != (a.modality == "mri")) << a.key() << " " << axis;
+    }
+}
+
+TEST(StudyGrid, SeedsDependOnKeysNotPositions) {
+  const CaseGrid g = expand_grid(every_axis());
+  std::map<std::string, uint64_t> mask_of_acq_rep;
+  std::set<uint64_t> noise_seeds;
+  for (const StudyCase& c : g.cases) {
+    const std::string k = g.acquisitions[size_t(c.acquisition)].key() + std::to_string(c.repetition);
+    auto [it, fresh] = mask_of_acq_rep.emplace(k, c.mask_seed);
+    EXPECT_EQ(it->second, c.mask_seed) << "one mask per acquisition and repetition";
+    noise_seeds.insert(c.noise_seed);
+  }
+  EXPECT_EQ(noise_seeds.size(), size_t(g.groups)) << "one noise seed per measurement";
+  // Dropping a method leaves the other cases' seeds unchanged.
+  StudyConfig fewer = every_axis();
+  fewer.methods.pop_back();
+  const CaseGrid h = expand_grid(fewer);
+  std::map<std::string, uint64_t> seeds;
+  for (const StudyCase& c : g.cases) seeds[c.key] = c.noise_seed;
+  for (const StudyCase& c : h.cases) EXPECT_EQ(seeds.at(c.key), c.noise_seed);
+}
+
+TEST(StudyGrid, ShardsCoverEveryCaseExactlyOnce) {
+  const CaseGrid g = expand_grid(every_axis());
+  for (int n = 1; n <= 7; ++n) {
+    std::map<int, int> seen;
+    for (int i = 1; i <= n; ++i) {
+      Shard s = Shard::parse(std::to_string(i) + "/" + std::to_string(n));
+      for (const StudyCase& c : g.cases)
+        if (s.contains(c)) ++seen[c.index];
+    }
+    ASSERT_EQ(seen.size(), g.cases.size()) << "n = " << n;
+    for (const auto& [index, count] : seen) EXPECT_EQ(count, 1) << "case " << index << " n = " << n;
+  }
+}
+
+TEST(StudyGrid, ShardParseRejectsImpossibleShards) {
+  for (const char* bad : {"3/2", "0/2", "1/0", "a/b", "2", "1/2/3", "-1/2"}) {
+    try {
+      Shard::parse(bad);
+      ADD_FAILURE() << bad << " accepted";
+    } catch (const InputError& e) {
+      EXPECT_EQ(e.field(), "--shard") << bad;
+    }
+  }
+  EXPECT_EQ(Shard::parse("2/3").to_string(), "2/3");
+}
+
+std::string error_of(const std::string& text) {
+  try {
+    StudyConfig::parse(text, "bad.toml", source_dir());
+  } catch (const InputError& e) {
+    return e.field() + ": " + e.reason();
+  }
+  return "";
+}
+
+TEST(StudyConfigLoad, RejectsUnknownAcquisitionAxis) {
+  std::string text = kEveryAxis;
+  text.replace(text.find("[mri]"), 5, "[mri]\necho_time = [5, 10]");
+  const std::string e = error_of(text);
+  EXPECT_NE(e.find("mri.echo_time"), std::string::npos) << e;
+}
+
+TEST(StudyConfigLoad, RejectsEmptyGrids) {
+  EXPECT_NE(error_of("size = 32\n[mri]\naccel = 2\n[[method]]\nmethod = \"zero-filled\"\n").find("phantom"),
+            std::string::npos);
+  EXPECT_NE(error_of("size = 32\n[[phantom]]\nfamily = \"ellipses\"\n[mri]\naccel = 2\n[[method]]\nmethod = \"fbp\"\n")
+                .find("empty grid"),
+            std::string::npos);
+  EXPECT_NE(error_of("size = 32\n[[phantom]]\nfamily = \"ellipses\"\n[[method]]\nmethod = \"fbp\"\n").find("empty grid"),
+            std::string::npos);
+  EXPECT_NE(error_of("size = 32\n[[phantom]]\nfamily = \"ellipses\"\n[mri]\naccel = []\n[[method]]\nmethod = \"zero-filled\"\n")
+                .find("mri.accel"),
+            std::string::npos);
+}
+
+TEST(StudyConfigLoad, RejectsMissingModelFileByName) {
+  const std::string e = error_of(
+      "size = 32\n[[phantom]]\nfamily = \"ellipses\"\n[mri]\naccel = 2\n[[method]]\nmethod = \"unrolled\"\n"
+      "modality = \"mri\"\nmodel = \"no-such-model.h5\"\n");
+  EXPECT_NE(e.find("method[0].model"), std::string::npos) << e;
+  EXPECT_NE(e.find("no-such-model.h5"), std::string::npos) << e;
+}
+
+TEST(StudyConfigLoad, RejectsBadValuesWithKey) {
+  EXPECT_NE(error_of("size = 32\n[[phantom]]\nfamily = \"blobs\"\n").find("phantom[0].family"), std::string::npos);
+  std::string text = kEveryAxis;
+  text.replace(text.find("lambda = 0.01"), 13, "lambda = -1");
+  EXPECT_NE(error_of(text).find("lambda"), std::string::npos);
+  text = kEveryAxis;
+  text.replace(text.find("lambda = 0.01"), 13, "lambda = \"best\"");
+  EXPECT_NE(error_of(text).find("lambda"), std::string::npos);
+  text = kEveryAxis;
+  text.replace(text.find("lambda = 0.01"), 13, "lambda = \"auto\"");
+  EXPECT_EQ(error_of(text), "") << "auto is accepted for a prior solver";
+}
+
+TEST(StudyConfigLoad, HashFollowsTheText) {
+  const StudyConfig a = every_axis();
+  std::string text = kEveryAxis;
+  text.replace(text.find("seed = 3"), 8, "seed = 4");
+  const StudyConfig b = StudyConfig::parse(text, "every-axis.toml", source_dir());
+  EXPECT_EQ(a.hash, every_axis().hash);
+  EXPECT_NE(a.hash, b.hash);
+  EXPECT_EQ(a.hash.size(), 16u);
+}
+
+}  // namespace
+}  // namespace recofold
