@@ -2,6 +2,7 @@
 // Tikhonov prior with optional reference image.
 #include "recofold/priors/l2.h"
 
+#include <cmath>
 #include <limits>
 #include <sstream>
 
@@ -11,6 +12,8 @@ namespace recofold {
 
 L2Prior::L2Prior(Shape image_shape, double weight, VecC reference)
     : Prior(weight), shape_(std::move(image_shape)), reference_(std::move(reference)), identity_(identity(shape_)) {
+  if (!(weight >= 0.0) || !std::isfinite(weight))
+    throw InputError("", "prior.lambda", "= " + std::to_string(weight) + "; must be finite and >= 0");
   if (reference_.size() != 0 && reference_.size() != shape_.size())
     throw InputError("", "l2.reference",
                      "has " + std::to_string(reference_.size()) + " values, image shape is " + shape_.to_string());
