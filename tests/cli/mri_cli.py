@@ -1,0 +1,161 @@
+#!/usr/bin/python3
+# SPDX-License-Identifier: Apache-2.0
+# End-to-end MRI path through the real executable (the newcomer's four
+# commands): phantom -> mask (JSON report + PNG) -> simulate 8 coils with
+# noise -> zero-filled recon -> score; plus spec files, coil-combination
+# variants, and bad input (exit 2, a message naming the problem, no output left).
+import json
+import os
+import shutil
+import subprocess
+import sys
+import tempfile
+
+import h5py
+import numpy as np
+
+EXE = os.environ.get("RECOFOLD_EXE", "./recofold")
+SRC = os.environ.get("RECOFOLD_SOURCE_DIR", os.path.join(os.path.dirname(__file__), "..", ".."))
+failures = []
+
+
+def run(args, cwd):
+    return subprocess.run([EXE, "--quiet"] + args, capture_output=True, text=True, cwd=cwd)
+
+
+def check(cond, what):
+    print(("ok   " if cond else "FAIL ") + what)
+    if not cond:
+        failures.append(what)
+
+
+def must_succeed(args, cwd):
+    out = run(args, cwd)
+    check(out.returncode == 0, " ".join(args[:1]) + f" exits 0 (got {out.returncode}: {out.stderr.strip()})")
+    return out
+
+
+def bad_case(name, args, must_mention, workdir):
+    before = set(os.listdir(workdir))
+    out = run(args, workdir)
+    left = sorted(set(os.listdir(workdir)) - before)
+    problems = []
+    if out.returncode != 2:
+        problems.append(f"exit {out.returncode}, expected 2")
+    for word in must_mention:
+        if word not in out.stderr:
+            problems.append(f"message does not name '{word}'")
+    if left:
+        problems.append(f"left files behind: {left}")
+    print(("ok   " if not problems else "FAIL ") + f"{name}: {out.stderr.strip()}")
+    for p in problems:
+        failures.append(f"{name}: {p}")
+
+
+def newcomer_flow(tmp):
+    table = os.path.join(SRC, "phantoms", "shepp-logan-modified.toml")
+    must_succeed(["phantom", "--table", table, "--size", "64", "--out", "ph.h5"], tmp)
+    out = must_succeed(["mask", "--pattern", "lines-vd", "--size", "64", "--accel", "4", "--center", "0.1",
+                        "--seed", "1", "--out", "m4.h5", "--report", "m4.json", "--png", "m4.png"], tmp)
+    check("R 4.000" in out.stdout, "mask prints the achieved R")
+    rep = json.load(open(os.path.join(tmp, "m4.json")))
+    check(abs(rep["achieved_acceleration"] - 4.0) < 0.04, "report: achieved R within 1% of 4")
+    a = rep["analysis"]
+    for key in ["samples", "calibration", "psf_sidelobe_ratio", "tpsf_sidelobe_ratio", "psf_peak"]:
+        check(key in a, f"report has analysis.{key}")
+    check(a["calibration"]["rows"] >= 6, "report: calibration rows found")
+    check(0 < a["psf_sidelobe_ratio"] < 1, "report: PSF side-lobe ratio in (0, 1)")
+    with open(os.path.join(tmp, "m4.png"), "rb") as f:
+        check(f.read(8) == b"\x89PNG\r\n\x1a\n", "mask picture is a PNG")
+    with h5py.File(os.path.join(tmp, "m4.h5"), "r") as f:
+        check(f["mask"].shape == (64, 64) and f["mask"].dtype == np.uint8, "mask file: /mask uint8 [64, 64]")
+        check(f["mask"].attrs["pattern"] in ("lines-vd", b"lines-vd"), "mask file: pattern attribute")
+
+    must_succeed(["simulate", "--phantom", "ph.h5", "--modality", "mri", "--mask", "m4.h5", "--coils", "8",
+                  "--noise", "0.003", "--seed", "2", "--out", "meas.h5"], tmp)
+    with h5py.File(os.path.join(tmp, "meas.h5"), "r") as f:
+        k = f["mri/kspace"][()]
+        m = f["mri/mask"][()]
+        check(k.shape == (8, 64, 64), "measurement: /mri/kspace [8, 64, 64]")
+        check(f["mri/coil_maps"].shape == (8, 64, 64), "measurement: /mri/coil_maps [8, 64, 64]")
+        check(abs(f["mri"].attrs["noise_sigma"] - 0.003) < 1e-12, "measurement: noise_sigma = 0.003")
+        check(np.all(k[:, m == 0] == 0), "measurement: unsampled k-space is zero")
+        check("truth" in f and f["truth/image"].shape == (64, 64), "measurement: /truth/image")
+        check("provenance" in f, "measurement: /provenance")
+        maps = f["mri/coil_maps"][()]
+        check(np.allclose(np.sum(np.abs(maps) ** 2, axis=0), 1.0, atol=1e-4), "coil maps: sum |S|^2 = 1")
+
+    must_succeed(["recon", "--meas", "meas.h5", "--method", "zero-filled", "--out", "zf.h5", "--png", "zf.png"], tmp)
+    out = must_succeed(["score", "--reference", "ph.h5", "--image", "zf.h5", "--json"], tmp)
+    s = json.loads(out.stdout)
+    print(f"     zero-filled sos at 64^2, R 4, 8 coils: PSNR {s['psnr']:.2f} dB, SSIM {s['ssim']:.3f}")
+    check(s["psnr"] > 15, "zero-filled PSNR above 15 dB")
+    for combine in [["--combine", "sense"], ["--combine", "sense", "--maps", "estimated"]]:
+        must_succeed(["recon", "--meas", "meas.h5", "--method", "zero-filled", "--out", "zs.h5"] + combine, tmp)
+        out = must_succeed(["score", "--reference", "ph.h5", "--image", "zs.h5", "--json"], tmp)
+        check(json.loads(out.stdout)["psnr"] > 15, "zero-filled " + " ".join(combine) + " PSNR above 15 dB")
+
+    # Fully sampled, noiseless, single coil: the zero-filled image is the object.
+    must_succeed(["simulate", "--phantom", "ph.h5", "--modality", "mri", "--out", "full.h5"], tmp)
+    must_succeed(["recon", "--meas", "full.h5", "--method", "zero-filled", "--combine", "sense", "--out", "f.h5"], tmp)
+    out = must_succeed(["score", "--reference", "ph.h5", "--image", "f.h5", "--json"], tmp)
+    check(json.loads(out.stdout)["psnr"] > 20, "fully sampled exact k-space reconstructs (PSNR > 20 dB, Gibbs aside)")
+
+
+def spec_files(tmp):
+    for spec in ["lines-4x-256", "lines-8x-256", "lines-uniform-4x-256", "poisson-6x-256", "radial-golden-32"]:
+        path = os.path.join(SRC, "sampling-masks", spec + ".toml")
+        out = run(["mask", "--spec", path, "--out", spec + ".h5"], tmp)
+        check(out.returncode == 0, f"mask --spec {spec} exits 0 ({out.stderr.strip()})")
+    with h5py.File(os.path.join(tmp, "radial-golden-32.h5"), "r") as f:
+        check(f["spoke_angles_rad"].shape == (32,), "golden-angle mask file stores 32 spoke angles")
+
+
+def bad_inputs(tmp):
+    work = os.path.join(tmp, "bad")
+    os.mkdir(work)
+    for name in ["ph.h5", "meas.h5", "m4.h5"]:
+        shutil.copy(os.path.join(tmp, name), work)
+    run(["mask", "--pattern", "lines-uniform", "--size", "32", "--accel", "2", "--out", "m32.h5"], work)
+    with h5py.File(os.path.join(work, "sparse.h5"), "w") as f:
+        m = np.zeros((64, 64), np.uint8)
+        m[32, 32] = 1
+        f["mask"] = m
+    shutil.copy(os.path.join(work, "meas.h5"), os.path.join(work, "nan.h5"))
+    with h5py.File(os.path.join(work, "nan.h5"), "r+") as f:
+        k = f["mri/kspace"][()]
+        k[0, 32, 32] = np.nan
+        del f["mri/kspace"]
+        f["mri/kspace"] = k
+    sim = ["simulate", "--phantom", "ph.h5", "--modality", "mri", "--out", "o.h5"]
+    bad_case("mask shape differs from image", sim + ["--mask", "m32.h5"], ["--mask", "[32, 32]"], work)
+    bad_case("mask R above 64", sim + ["--mask", "sparse.h5"], ["--mask", "64"], work)
+    bad_case("R below 1", ["mask", "--pattern", "lines-vd", "--accel", "0.5", "--out", "x.h5"], ["--accel"], work)
+    bad_case("R above 64", ["mask", "--pattern", "points-vd", "--accel", "65", "--out", "x.h5"], ["--accel"], work)
+    bad_case("unknown pattern", ["mask", "--pattern", "spiral", "--out", "x.h5"], ["--pattern", "poisson-disc"], work)
+    bad_case("zero coils", sim + ["--coils", "0"], ["--coils"], work)
+    bad_case("negative sigma", sim + ["--noise", "-0.1"], ["--noise"], work)
+    bad_case("CT flag with MRI", sim + ["--views", "60"], ["--views"], work)
+    bad_case("NaN in k-space", ["recon", "--meas", "nan.h5", "--method", "zero-filled", "--out", "r.h5"],
+             ["nan.h5", "/mri/kspace"], work)
+    bad_case("unknown method", ["recon", "--meas", "meas.h5", "--method", "magic", "--out", "r.h5"],
+             ["--method", "zero-filled"], work)
+    bad_case("fbp on MRI data", ["recon", "--meas", "meas.h5", "--method", "fbp", "--out", "r.h5"],
+             ["meas.h5", "ct"], work)
+    bad_case("bad combine", ["recon", "--meas", "meas.h5", "--method", "zero-filled", "--combine", "max",
+                             "--out", "r.h5"], ["--combine"], work)
+
+
+def main():
+    with tempfile.TemporaryDirectory() as tmp:
+        newcomer_flow(tmp)
+        spec_files(tmp)
+        bad_inputs(tmp)
+    if failures:
+        print(f"{len(failures)} failure(s)")
+        return 1
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
