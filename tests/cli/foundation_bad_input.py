@@ -3,7 +3,9 @@
 # Bad input through the real executable: each case exits 2, prints one short
 # message naming the file / dataset / flag / sub-command, and leaves no output
 # file (nor temporary file) behind. Commands exercised: convert, score, info.
+import concurrent.futures
 import os
+import shutil
 import subprocess
 import sys
 import tempfile
@@ -15,7 +17,12 @@ EXE = os.environ.get("RECOFOLD_EXE", "./recofold")
 failures = []
 
 
-def case(name, args, must_mention, workdir, inputs):
+def case(name, args, must_mention, src_dir, inputs):
+    # Each case runs in its own copy of the inputs, so cases can run side by side
+    # (the program's start-up dominates the run time).
+    workdir = tempfile.mkdtemp(dir=src_dir, prefix="case-")
+    for n in inputs:
+        shutil.copy(os.path.join(src_dir, n), workdir)
     out = subprocess.run([EXE] + args, capture_output=True, text=True, cwd=workdir)
     err_lines = [l for l in out.stderr.splitlines() if l.strip()]
     leftovers = sorted(set(os.listdir(workdir)) - set(inputs))
@@ -32,10 +39,7 @@ def case(name, args, must_mention, workdir, inputs):
     if leftovers:
         problems.append(f"left files behind: {leftovers}")
     status = "ok  " if not problems else "FAIL"
-    print(f"{status} {name}: {out.stderr.strip()}")
-    for p in problems:
-        print(f"       {p}")
-        failures.append(f"{name}: {p}")
+    return name, status, out.stderr.strip(), problems
 
 
 def main():
@@ -91,8 +95,13 @@ def main():
             ("unknown sub-command", ["frobnicate", "good.h5"], ["frobnicate"]),
             ("unknown global flag", ["--colour", "info", "good.h5"], ["--colour"]),
         ]
-        for name, args, words in cases:
-            case(name, args, words, tmp, inputs)
+        with concurrent.futures.ThreadPoolExecutor(max_workers=4) as pool:
+            results = list(pool.map(lambda c: case(c[0], c[1], c[2], tmp, inputs), cases))
+        for name, status, message, problems in results:
+            print(f"{status} {name}: {message}")
+            for p in problems:
+                print(f"       {p}")
+                failures.append(f"{name}: {p}")
 
     if failures:
         print(f"{len(failures)} problem(s)")

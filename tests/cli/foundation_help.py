@@ -3,6 +3,7 @@
 # `recofold --help` lists every sub-command (one per src/cli/cmd_<name>.cc) with a
 # one-line purpose and carries the research-use line; `--version` prints the
 # version; both exit 0. Every sub-command's --help exits 0 too.
+import concurrent.futures
 import glob
 import os
 import re
@@ -45,8 +46,9 @@ def main():
     for c in commands:
         check(c in listed and len(listed[c]) > 10, f"--help lists '{c}' with a purpose: {listed.get(c)!r}")
 
-    for c in commands:
-        sub = subprocess.run([EXE, c, "--help"], capture_output=True, text=True)
+    with concurrent.futures.ThreadPoolExecutor(max_workers=4) as pool:
+        subs = list(pool.map(lambda c: subprocess.run([EXE, c, "--help"], capture_output=True, text=True), commands))
+    for c, sub in zip(commands, subs):
         check(sub.returncode == 0 and "Usage" in sub.stdout, f"'{c} --help' exits 0 and shows usage")
 
     ver = subprocess.run([EXE, "--version"], capture_output=True, text=True)
