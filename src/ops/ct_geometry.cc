@@ -66,8 +66,10 @@ std::vector<std::string> CtGeometry::validate() const {
     if (!(source_to_detector_mm > source_to_isocenter_mm) || !std::isfinite(source_to_detector_mm))
       errors.push_back("source_to_detector_mm = " + num(source_to_detector_mm) +
                        "; must exceed source_to_isocenter_mm = " + num(source_to_isocenter_mm));
-    if (fan_detector == FanDetector::kEquiangular && detector_count >= 1 && source_to_detector_mm > 0 &&
-        detector_spacing_mm > 0) {
+    // The fan angle is only meaningful once the distances are valid.
+    const bool distances_ok = source_to_isocenter_mm > r_obj && source_to_detector_mm > source_to_isocenter_mm &&
+                              std::isfinite(source_to_detector_mm);
+    if (fan_detector == FanDetector::kEquiangular && distances_ok && detector_count >= 1 && detector_spacing_mm > 0) {
       const double g = std::max(std::abs(detector_coordinate(0)), std::abs(detector_coordinate(detector_count - 1))) /
                        source_to_detector_mm;
       if (!(g < 0.5 * M_PI))

@@ -90,26 +90,25 @@ def main():
 
         # Very low dose (I0 = 1e3): noise lowers the score, and the Hann window
         # trades edge sharpness for noise (higher SSIM than Ram-Lak).
+        # (At 64^2 and I0 = 1e4 edges, not noise, dominate: Ram-Lak scores best.)
         must_succeed(["simulate", "--phantom", "p.h5", "--modality", "ct", "--views", "60", "--photons", "1e3",
                       "--seed", "1", "--out", "mlow.h5"], tmp)
-        must_succeed(["simulate", "--phantom", "p.h5", "--modality", "ct", "--views", "60", "--out", "mclean.h5"], tmp)
         low = {}
         for name in ["ram-lak", "hann"]:
             must_succeed(["recon", "--meas", "mlow.h5", "--method", "fbp", "--filter", name, "--out", f"l_{name}.h5"],
                          tmp)
             low[name] = score("p.h5", f"l_{name}.h5", tmp)
-        must_succeed(["recon", "--meas", "mclean.h5", "--method", "fbp", "--out", "rclean.h5"], tmp)
-        clean = score("p.h5", "rclean.h5", tmp)
         check(low["hann"]["ssim"] > low["ram-lak"]["ssim"] + 0.03,
               f"I0 = 1e3: Hann SSIM {low['hann']['ssim']:.3f} > Ram-Lak {low['ram-lak']['ssim']:.3f}")
-        check(clean["psnr"] > low["ram-lak"]["psnr"] + 0.5,
-              f"noiseless {clean['psnr']:.2f} dB beats I0 = 1e3 {low['ram-lak']['psnr']:.2f} dB (60 views, Ram-Lak)")
+        check(psnrs["ram-lak"] > low["ram-lak"]["psnr"] + 0.5,
+              f"I0 = 1e4 {psnrs['ram-lak']:.2f} dB beats I0 = 1e3 {low['ram-lak']['psnr']:.2f} dB (60 views, Ram-Lak)")
 
-        must_succeed(["simulate", "--phantom", "p.h5", "--modality", "ct", "--views", "180", "--out", "m180.h5"], tmp)
+        must_succeed(["simulate", "--phantom", "p.h5", "--modality", "ct", "--views", "180", "--golden", "--truth",
+                      "discrete", "--out", "m180.h5"], tmp)
         must_succeed(["recon", "--meas", "m180.h5", "--method", "fbp", "--out", "r180.h5"], tmp)
         p_full = score("p.h5", "r180.h5", tmp)["psnr"]
         must_succeed(["simulate", "--phantom", "p.h5", "--modality", "ct", "--geometry", "fan", "--views", "360",
-                      "--out", "mfan.h5"], tmp)
+                      "--truth", "discrete", "--out", "mfan.h5"], tmp)
         must_succeed(["recon", "--meas", "mfan.h5", "--method", "fbp", "--out", "rfan.h5"], tmp)
         p_fan = score("p.h5", "rfan.h5", tmp)["psnr"]
         check(abs(p_fan - p_full) < 1.5, f"fan-beam FBP {p_fan:.2f} dB close to parallel {p_full:.2f} dB")
@@ -121,9 +120,6 @@ def main():
             a = f["ct/angles_rad"][()]
             check(len(a) == 120 and a.max() < np.deg2rad(120.0), "limited-arc protocol: 120 views inside 120 degrees")
 
-        must_succeed(["simulate", "--phantom", "p.h5", "--modality", "ct", "--truth", "discrete", "--views", "30",
-                      "--golden", "--out", "mgold.h5"], tmp)
-
         sim = ["simulate", "--phantom", "p.h5", "--modality", "ct"]
         bad_case("zero views", sim + ["--views", "0", "--out", "b.h5"], ["--views"], tmp)
         bad_case("detector count 0", sim + ["--detectors", "0", "--out", "b.h5"], ["--detectors"], tmp)
@@ -131,7 +127,6 @@ def main():
         bad_case("negative photons", sim + ["--photons", "-5", "--out", "b.h5"], ["--photons"], tmp)
         bad_case("fan source inside the object circle", sim + ["--geometry", "fan", "--sid", "20", "--out", "b.h5"],
                  ["--sid", "circle"], tmp)
-        bad_case("unknown geometry", sim + ["--geometry", "cone", "--out", "b.h5"], ["--geometry"], tmp)
         bad_case("unknown filter", ["recon", "--meas", "m60.h5", "--method", "fbp", "--filter", "ramp", "--out",
                                     "b.h5"], ["--filter", "ram-lak"], tmp)
 
