@@ -21,7 +21,8 @@ namespace recofold {
 namespace {
 
 std::atomic<int> g_threads{0};
-std::atomic<bool> g_measure{false};
+std::atomic<bool> g_measure{true};
+constexpr double kPlanTimeLimitSeconds = 1.0;
 
 // Plans are made once per (ny, nx, direction, threads) and never destroyed
 // (they live as long as the process; a few kB each).
@@ -99,6 +100,7 @@ void fft_execute_inplace(cfloat* buffer, Index ny, Index nx, FftDirection direct
     } else {
       if (!c.threads_ready) {
         fftwf_init_threads();
+        fftwf_set_timelimit(kPlanTimeLimitSeconds);
         c.threads_ready = true;
       }
       fftwf_plan_with_nthreads(threads);

@@ -54,6 +54,27 @@ MaskedFourier::MaskedFourier(Index ny, Index nx, NdArray<uint8_t> mask, NdArray<
   const uint8_t* m = mask_.ptr();
   internal::for_each_shifted(ny, nx, internal::to_fft_order_shift(ny), internal::to_fft_order_shift(nx),
                              [&](Index d, Index s) { mask_native_[static_cast<size_t>(d)] = m[s] ? inv_n : 0.0f; });
+  even_ = ny % 2 == 0 && nx % 2 == 0;
+  if (even_) {
+    const float sign = ((ny / 2 + nx / 2) % 2 == 0) ? 1.0f : -1.0f;
+    const float scale = static_cast<float>(1.0 / std::sqrt(static_cast<double>(n)));
+    std::vector<float> chk(static_cast<size_t>(n));
+    for (Index iy = 0; iy < ny; ++iy)
+      for (Index ix = 0; ix < nx; ++ix) chk[static_cast<size_t>(iy * nx + ix)] = ((iy + ix) % 2 == 0) ? 1.0f : -1.0f;
+    weight_.resize(static_cast<size_t>(n));
+    mask_scaled_.resize(static_cast<size_t>(n));
+    for (Index i = 0; i < n; ++i) {
+      const size_t k = static_cast<size_t>(i);
+      weight_[k] = m[i] ? chk[k] * sign * scale : 0.0f;
+      mask_scaled_[k] = m[i] ? inv_n : 0.0f;
+    }
+    if (has_coil_maps()) {
+      maps_chk_.resize(maps_.data.size());
+      for (size_t k = 0; k < maps_chk_.size(); ++k) maps_chk_[k] = maps_.data[k] * chk[k % static_cast<size_t>(n)];
+    } else {
+      chk_ = std::move(chk);
+    }
+  }
 }
 
 std::string MaskedFourier::name() const {
@@ -67,10 +88,17 @@ std::string MaskedFourier::name() const {
 void MaskedFourier::forward_coil(const cfloat* x, Index c, cfloat* yc) const {
   const Index n = ny_ * nx_;
   cfloat* buf = internal::fft_scratch(static_cast<size_t>(n), 1);
+  if (even_) {
+    pre_multiply(x, c, buf);
+    internal::fft_execute_inplace(buf, ny_, nx_, FftDirection::kForward, transform_threads(coils_));
+    const float* w = weight_.data();
+    for (Index i = 0; i < n; ++i) yc[i] = buf[i] * w[i];
+    return;
+  }
   const Index sy = internal::to_fft_order_shift(ny_), sx = internal::to_fft_order_shift(nx_);
   if (has_coil_maps()) {
     const cfloat* s = maps_.ptr() + c * n;
-    internal::for_each_shifted(ny_, nx_, sy, sx, [&](Index d, Index q) { buf[d] = s[q] * x[q]; });
+    internal::for_each_shifted(ny_, nx_, sy, sx, [&](Index d, Index q) { buf[d] = internal::mul(s[q], x[q]); });
   } else {
     internal::for_each_shifted(ny_, nx_, sy, sx, [&](Index d, Index q) { buf[d] = x[q]; });
   }
@@ -84,6 +112,13 @@ void MaskedFourier::forward_coil(const cfloat* x, Index c, cfloat* yc) const {
 void MaskedFourier::adjoint_coil_accumulate(const cfloat* yc, Index c, cfloat* acc) const {
   const Index n = ny_ * nx_;
   cfloat* buf = internal::fft_scratch(static_cast<size_t>(n), 1);
+  if (even_) {
+    const float* w = weight_.data();
+    for (Index i = 0; i < n; ++i) buf[i] = yc[i] * w[i];
+    internal::fft_execute_inplace(buf, ny_, nx_, FftDirection::kInverse, transform_threads(coils_));
+    post_accumulate(buf, c, acc);
+    return;
+  }
   const uint8_t* m = mask_.ptr();
   internal::for_each_shifted(ny_, nx_, internal::to_fft_order_shift(ny_), internal::to_fft_order_shift(nx_),
                              [&](Index d, Index q) { buf[d] = m[q] ? yc[q] : cfloat(0.0f, 0.0f); });
@@ -93,7 +128,7 @@ void MaskedFourier::adjoint_coil_accumulate(const cfloat* yc, Index c, cfloat* a
   if (has_coil_maps()) {
     const cfloat* s = maps_.ptr() + c * n;
     internal::for_each_shifted(ny_, nx_, sy, sx,
-                               [&](Index d, Index q) { acc[d] += std::conj(s[d]) * (buf[q] * scale); });
+                               [&](Index d, Index q) { acc[d] += internal::mul_conj(s[d], buf[q]) * scale; });
   } else {
     internal::for_each_shifted(ny_, nx_, sy, sx, [&](Index d, Index q) { acc[d] += buf[q] * scale; });
   }
@@ -102,10 +137,20 @@ void MaskedFourier::adjoint_coil_accumulate(const cfloat* yc, Index c, cfloat* a
 void MaskedFourier::normal_coil_accumulate(const cfloat* x, Index c, cfloat* acc) const {
   const Index n = ny_ * nx_;
   cfloat* buf = internal::fft_scratch(static_cast<size_t>(n), 1);
+  if (even_) {
+    const int threads = transform_threads(coils_);
+    pre_multiply(x, c, buf);
+    internal::fft_execute_inplace(buf, ny_, nx_, FftDirection::kForward, threads);
+    const float* w = mask_scaled_.data();  // the two checkerboards cancel
+    for (Index i = 0; i < n; ++i) buf[i] *= w[i];
+    internal::fft_execute_inplace(buf, ny_, nx_, FftDirection::kInverse, threads);
+    post_accumulate(buf, c, acc);
+    return;
+  }
   const cfloat* s = has_coil_maps() ? maps_.ptr() + c * n : nullptr;
   const Index sy = internal::to_fft_order_shift(ny_), sx = internal::to_fft_order_shift(nx_);
   if (s) {
-    internal::for_each_shifted(ny_, nx_, sy, sx, [&](Index d, Index q) { buf[d] = s[q] * x[q]; });
+    internal::for_each_shifted(ny_, nx_, sy, sx, [&](Index d, Index q) { buf[d] = internal::mul(s[q], x[q]); });
   } else {
     internal::for_each_shifted(ny_, nx_, sy, sx, [&](Index d, Index q) { buf[d] = x[q]; });
   }
@@ -116,9 +161,31 @@ void MaskedFourier::normal_coil_accumulate(const cfloat* x, Index c, cfloat* acc
   internal::fft_execute_inplace(buf, ny_, nx_, FftDirection::kInverse, threads);
   const Index cy = internal::to_centred_shift(ny_), cx = internal::to_centred_shift(nx_);
   if (s) {
-    internal::for_each_shifted(ny_, nx_, cy, cx, [&](Index d, Index q) { acc[d] += std::conj(s[d]) * buf[q]; });
+    internal::for_each_shifted(ny_, nx_, cy, cx, [&](Index d, Index q) { acc[d] += internal::mul_conj(s[d], buf[q]); });
   } else {
     internal::for_each_shifted(ny_, nx_, cy, cx, [&](Index d, Index q) { acc[d] += buf[q]; });
+  }
+}
+
+void MaskedFourier::pre_multiply(const cfloat* x, Index c, cfloat* buf) const {
+  const Index n = ny_ * nx_;
+  if (has_coil_maps()) {
+    const cfloat* s = maps_chk_.data() + c * n;
+    for (Index i = 0; i < n; ++i) buf[i] = internal::mul(s[i], x[i]);
+  } else {
+    const float* k = chk_.data();
+    for (Index i = 0; i < n; ++i) buf[i] = x[i] * k[i];
+  }
+}
+
+void MaskedFourier::post_accumulate(const cfloat* buf, Index c, cfloat* acc) const {
+  const Index n = ny_ * nx_;
+  if (has_coil_maps()) {
+    const cfloat* s = maps_chk_.data() + c * n;
+    for (Index i = 0; i < n; ++i) acc[i] += internal::mul_conj(s[i], buf[i]);
+  } else {
+    const float* k = chk_.data();
+    for (Index i = 0; i < n; ++i) acc[i] += buf[i] * k[i];
   }
 }
 

@@ -49,8 +49,20 @@ class MaskedFourier final : public LinearOperator {
   // acc += conj(S_c) ∘ F^H(M ∘ yc)
   void adjoint_coil_accumulate(const cfloat* yc, Index c, cfloat* acc) const;
   void normal_coil_accumulate(const cfloat* x, Index c, cfloat* acc) const;
+  // Even sizes: buf = (S_c ⊙ chk) ⊙ x, and acc += conj(S_c ⊙ chk) ⊙ buf.
+  void pre_multiply(const cfloat* x, Index c, cfloat* buf) const;
+  void post_accumulate(const cfloat* buf, Index c, cfloat* acc) const;
 
   Index ny_, nx_, coils_;
+  // Even sizes skip the centring shifts: for even n, fftshift(fft(ifftshift(v)))
+  // = (-1)^(n/2) chk ⊙ fft(chk ⊙ v) per axis with chk = (-1)^index, so the
+  // checkerboard folds into the coil maps and the mask and every pass is a
+  // plain contiguous loop.
+  bool even_ = false;
+  std::vector<float> weight_;       // even: mask ⊙ chk ⊙ sign / sqrt(ny nx)
+  std::vector<float> mask_scaled_;  // even: mask / (ny nx), for normal()
+  std::vector<cfloat> maps_chk_;    // even with maps: S_c ⊙ chk
+  std::vector<float> chk_;          // even without maps: chk
   NdArray<uint8_t> mask_;      // centred order
   std::vector<float> mask_native_;  // mask in FFT order times 1/(ny nx), for normal()
   NdArray<cfloat> maps_;       // empty = S = 1
