@@ -1,0 +1,220 @@
+// SPDX-License-Identifier: Apache-2.0
+// Architecture of a learned unrolled network: parsing, validation, JSON.
+#include "recofold/learn/architecture.h"
+
+#include <cmath>
+
+#include "json_text.h"
+#include "recofold/core/error.h"
+#include "recofold/ops/wavelet.h"
+
+namespace recofold {
+
+std::string_view to_string(LearnedDc dc) {
+  switch (dc) {
+    case LearnedDc::kGradient: return "gradient";
+    case LearnedDc::kCg: return "cg";
+    case LearnedDc::kReplace: return "replace";
+  }
+  return "?";
+}
+
+std::optional<LearnedDc> parse_learned_dc(std::string_view text) {
+  for (LearnedDc d : {LearnedDc::kGradient, LearnedDc::kCg, LearnedDc::kReplace})
+    if (to_string(d) == text) return d;
+  return std::nullopt;
+}
+
+std::string_view to_string(LearnedPriorKind prior) {
+  switch (prior) {
+    case LearnedPriorKind::kCnn: return "cnn";
+    case LearnedPriorKind::kWavelet: return "wavelet";
+  }
+  return "?";
+}
+
+std::optional<LearnedPriorKind> parse_learned_prior(std::string_view text) {
+  for (LearnedPriorKind p : {LearnedPriorKind::kCnn, LearnedPriorKind::kWavelet})
+    if (to_string(p) == text) return p;
+  return std::nullopt;
+}
+
+namespace {
+
+std::string num(double v) { return internal::json_number(v); }
+
+const std::vector<std::string>& table_keys() {
+  static const std::vector<std::string> keys = {
+      "iterations", "prior", "dc", "cg_iterations", "init_step", "init_mu", "depth", "width",
+      "kernel", "shared_weights", "zero_last_layer", "wavelet", "levels", "init_threshold"};
+  return keys;
+}
+
+}  // namespace
+
+std::vector<std::string> UnrolledArchitecture::validate() const {
+  std::vector<std::string> e;
+  auto bad = [&](const std::string& field, const std::string& value, const std::string& rule) {
+    e.push_back("model." + field + " = " + value + "; " + rule);
+  };
+  if (modality != "mri" && modality != "ct") bad("modality", modality, "must be mri or ct");
+  if (ny < 8 || nx < 8 || ny > 4096 || nx > 4096)
+    bad("size", std::to_string(ny) + "x" + std::to_string(nx), "each side must be in 8..4096");
+  if (iterations < 1 || iterations > 50) bad("iterations", std::to_string(iterations), "must be in 1..50");
+  if (cg_iterations < 1 || cg_iterations > 200)
+    bad("cg_iterations", std::to_string(cg_iterations), "must be in 1..200");
+  if (!(init_step > 0 && std::isfinite(init_step))) bad("init_step", num(init_step), "must be > 0");
+  if (!(init_mu > 0 && std::isfinite(init_mu))) bad("init_mu", num(init_mu), "must be > 0");
+  if (depth < 2 || depth > 30) bad("depth", std::to_string(depth), "must be in 2..30");
+  if (width < 1 || width > 256) bad("width", std::to_string(width), "must be in 1..256");
+  if (kernel < 1 || kernel > 9 || kernel % 2 == 0) bad("kernel", std::to_string(kernel), "must be odd, 1..9");
+  if (!parse_wavelet(wavelet)) bad("wavelet", wavelet, "must be one of " + accepted_wavelets());
+  if (levels < 1 || levels > 8) {
+    bad("levels", std::to_string(levels), "must be in 1..8");
+  } else if (prior == LearnedPriorKind::kWavelet && (ny % (Index(1) << levels) || nx % (Index(1) << levels))) {
+    bad("levels", std::to_string(levels), "image size must be divisible by 2^levels");
+  }
+  if (!(init_threshold > 0 && std::isfinite(init_threshold)))
+    bad("init_threshold", num(init_threshold), "must be > 0");
+  if (dc == LearnedDc::kReplace && modality != "mri") bad("dc", "replace", "only for single-coil MRI");
+  return e;
+}
+
+std::string UnrolledArchitecture::to_json() const {
+  internal::JsonObjectWriter w;
+  w.add("modality", modality);
+  w.add("ny", static_cast<long long>(ny));
+  w.add("nx", static_cast<long long>(nx));
+  w.add("iterations", iterations);
+  w.add("prior", std::string(to_string(prior)));
+  w.add("dc", std::string(to_string(dc)));
+  w.add("cg_iterations", cg_iterations);
+  w.add("init_step", init_step);
+  w.add("init_mu", init_mu);
+  w.add("depth", depth);
+  w.add("width", width);
+  w.add("kernel", kernel);
+  w.add("shared_weights", shared_weights);
+  w.add("zero_last_layer", zero_last_layer);
+  w.add("wavelet", wavelet);
+  w.add("levels", levels);
+  w.add("init_threshold", init_threshold);
+  return w.str();
+}
+
+UnrolledArchitecture UnrolledArchitecture::from_json(const std::string& json, const std::string& file,
+                                                     const std::string& field) {
+  using internal::JsonValue;
+  JsonValue doc = internal::parse_json(json, file, field);
+  if (doc.kind != JsonValue::Kind::kObject) throw InputError(file, field, "must be a JSON object");
+  UnrolledArchitecture a;
+  auto need = [&](const std::string& key, const JsonValue& v, JsonValue::Kind kind, const char* what) {
+    if (v.kind != kind) throw InputError(file, field, "key '" + key + "' must be " + what);
+  };
+  auto integer = [&](const std::string& key, const JsonValue& v) {
+    need(key, v, JsonValue::Kind::kNumber, "a number");
+    if (v.number != std::floor(v.number) || std::fabs(v.number) > 1e9)
+      throw InputError(file, field, "key '" + key + "' must be an integer");
+    return static_cast<long long>(v.number);
+  };
+  for (const auto& [key, v] : doc.members) {
+    if (key == "modality") {
+      need(key, v, JsonValue::Kind::kString, "a string");
+      a.modality = v.text;
+    } else if (key == "ny") {
+      a.ny = integer(key, v);
+    } else if (key == "nx") {
+      a.nx = integer(key, v);
+    } else if (key == "iterations") {
+      a.iterations = static_cast<int>(integer(key, v));
+    } else if (key == "prior") {
+      need(key, v, JsonValue::Kind::kString, "a string");
+      auto p = parse_learned_prior(v.text);
+      if (!p) throw InputError(file, field, "prior '" + v.text + "' is not one of cnn, wavelet");
+      a.prior = *p;
+    } else if (key == "dc") {
+      need(key, v, JsonValue::Kind::kString, "a string");
+      auto d = parse_learned_dc(v.text);
+      if (!d) throw InputError(file, field, "dc '" + v.text + "' is not one of gradient, cg, replace");
+      a.dc = *d;
+    } else if (key == "cg_iterations") {
+      a.cg_iterations = static_cast<int>(integer(key, v));
+    } else if (key == "init_step") {
+      need(key, v, JsonValue::Kind::kNumber, "a number");
+      a.init_step = v.number;
+    } else if (key == "init_mu") {
+      need(key, v, JsonValue::Kind::kNumber, "a number");
+      a.init_mu = v.number;
+    } else if (key == "depth") {
+      a.depth = static_cast<int>(integer(key, v));
+    } else if (key == "width") {
+      a.width = static_cast<int>(integer(key, v));
+    } else if (key == "kernel") {
+      a.kernel = static_cast<int>(integer(key, v));
+    } else if (key == "shared_weights") {
+      need(key, v, JsonValue::Kind::kBool, "true or false");
+      a.shared_weights = v.boolean;
+    } else if (key == "zero_last_layer") {
+      need(key, v, JsonValue::Kind::kBool, "true or false");
+      a.zero_last_layer = v.boolean;
+    } else if (key == "wavelet") {
+      need(key, v, JsonValue::Kind::kString, "a string");
+      a.wavelet = v.text;
+    } else if (key == "levels") {
+      a.levels = static_cast<int>(integer(key, v));
+    } else if (key == "init_threshold") {
+      need(key, v, JsonValue::Kind::kNumber, "a number");
+      a.init_threshold = v.number;
+    } else {
+      throw InputError(file, field, "unknown architecture key '" + key + "'");
+    }
+  }
+  auto errors = a.validate();
+  if (!errors.empty()) {
+    std::string all;
+    for (const auto& m : errors) all += (all.empty() ? "" : "; ") + m;
+    throw InputError(file, field, all);
+  }
+  return a;
+}
+
+UnrolledArchitecture UnrolledArchitecture::from_config(const Config& t) {
+  t.expect_only(table_keys());
+  UnrolledArchitecture a;
+  a.iterations = static_cast<int>(t.get_int_or("iterations", a.iterations));
+  if (t.has("prior")) {
+    auto p = parse_learned_prior(t.get_string("prior"));
+    if (!p) throw t.error("prior", "'" + t.get_string("prior") + "' is not one of cnn, wavelet");
+    a.prior = *p;
+  }
+  if (t.has("dc")) {
+    auto d = parse_learned_dc(t.get_string("dc"));
+    if (!d) throw t.error("dc", "'" + t.get_string("dc") + "' is not one of gradient, cg, replace");
+    a.dc = *d;
+  }
+  a.cg_iterations = static_cast<int>(t.get_int_or("cg_iterations", a.cg_iterations));
+  a.init_step = t.get_double_or("init_step", a.init_step);
+  a.init_mu = t.get_double_or("init_mu", a.init_mu);
+  a.depth = static_cast<int>(t.get_int_or("depth", a.depth));
+  a.width = static_cast<int>(t.get_int_or("width", a.width));
+  a.kernel = static_cast<int>(t.get_int_or("kernel", a.kernel));
+  a.shared_weights = t.get_bool_or("shared_weights", a.shared_weights);
+  a.zero_last_layer = t.get_bool_or("zero_last_layer", a.zero_last_layer);
+  a.wavelet = t.get_string_or("wavelet", a.wavelet);
+  a.levels = static_cast<int>(t.get_int_or("levels", a.levels));
+  a.init_threshold = t.get_double_or("init_threshold", a.init_threshold);
+  return a;  // the caller fills modality and size from [data], then validates
+}
+
+std::string UnrolledArchitecture::describe() const {
+  std::string p = prior == LearnedPriorKind::kCnn
+                      ? "cnn depth " + std::to_string(depth) + " width " + std::to_string(width) + " k" +
+                            std::to_string(kernel) + (shared_weights ? " shared" : " per-iteration")
+                      : "wavelet " + wavelet + " " + std::to_string(levels) + " levels";
+  std::string d = std::string(to_string(dc));
+  if (dc == LearnedDc::kCg) d += "(" + std::to_string(cg_iterations) + ")";
+  return modality + " " + std::to_string(ny) + "x" + std::to_string(nx) + ", " + p + ", " +
+         std::to_string(iterations) + " it, dc " + d;
+}
+
+}  // namespace recofold

@@ -1,0 +1,36 @@
+// SPDX-License-Identifier: Apache-2.0
+// Torch state behind UnrolledModel and the model-file tensor I/O shared with checkpoints (private to learn).
+#pragma once
+
+#include <torch/torch.h>
+
+#include <string>
+#include <vector>
+
+#include "recofold/io/h5_file.h"
+#include "recofold/learn/model.h"
+#include "unrolled_net.h"
+
+namespace recofold::internal {
+
+struct ModelState {
+  explicit ModelState(const UnrolledArchitecture& a) : net(a) {}
+  UnrolledNet net;
+  ModelInfo info;
+};
+
+// Writes named tensors as float32 datasets under `group` ("/model/parameters").
+void write_tensors(H5Writer& w, const std::string& group,
+                   const std::vector<std::pair<std::string, torch::Tensor>>& tensors);
+// Copies datasets under `group` into the given tensors (names and shapes must
+// match exactly; InputError(file, dataset, ...) otherwise, also for extra datasets).
+void read_tensors(const H5Reader& r, const std::string& group,
+                  const std::vector<std::pair<std::string, torch::Tensor>>& tensors);
+// The /model group and /provenance of a model (used by save and by checkpoints).
+void write_model_groups(H5Writer& w, const ModelState& s);
+// Reads /model of a file into a new state (architecture, info, weights).
+std::unique_ptr<ModelState> read_model_groups(const H5Reader& r);
+// Parameters in registration order with their dotted names.
+std::vector<std::pair<std::string, torch::Tensor>> named_parameters(const ModelState& s);
+
+}  // namespace recofold::internal

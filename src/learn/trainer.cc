@@ -1,0 +1,266 @@
+// SPDX-License-Identifier: Apache-2.0
+// Trainer of learned unrolled models: on-the-fly data, Adam, validation, checkpoints, exact resume.
+#include "recofold/learn/trainer.h"
+
+#include <omp.h>
+
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <memory>
+#include <vector>
+
+#include "model_state.h"
+#include "recofold/core/atomic_file.h"
+#include "recofold/core/error.h"
+#include "recofold/learn/model.h"
+#include "recofold/learn/training_data.h"
+#include "recofold/ops/fft.h"
+
+namespace recofold {
+
+namespace {
+
+using internal::PreparedBatch;
+
+constexpr uint64_t kValidationStream = 0x9E3779B97F4A7C15ull;  // validation seed = seed + this
+
+double learning_rate(const TrainOptions& o, int64_t step) {
+  double lr = o.learning_rate;
+  if (o.schedule == "cosine") {
+    const double t = double(step) / double(std::max<int64_t>(1, o.steps));
+    const double f = o.lr_final_fraction;
+    lr *= f + (1 - f) * 0.5 * (1 + std::cos(3.14159265358979323846 * t));
+  } else if (o.schedule == "step") {
+    lr *= std::pow(0.5, double(step / o.step_every));
+  }
+  if (o.warmup_steps > 0 && step < o.warmup_steps) lr *= double(step + 1) / double(o.warmup_steps);
+  return lr;
+}
+
+// SSIM of magnitude images [B, ny, nx] with a Gaussian window (11, sigma 1.5)
+// and peak `range` [B] (Wang et al., IEEE TIP 13, 2004); mean over valid windows.
+torch::Tensor ssim(const torch::Tensor& x, const torch::Tensor& y, const torch::Tensor& range) {
+  const int w = 11;
+  torch::Tensor g = torch::arange(w, torch::kFloat32) - (w - 1) / 2.0;
+  g = torch::exp(-g.pow(2) / (2 * 1.5 * 1.5));
+  g = g / g.sum();
+  torch::Tensor k = (g.unsqueeze(1) * g.unsqueeze(0)).reshape({1, 1, w, w});
+  auto f = [&](const torch::Tensor& t) { return torch::conv2d(t.unsqueeze(1), k); };
+  torch::Tensor mx = f(x), my = f(y);
+  torch::Tensor sxx = f(x * x) - mx * mx, syy = f(y * y) - my * my, sxy = f(x * y) - mx * my;
+  torch::Tensor l = range.reshape({-1, 1, 1, 1});
+  torch::Tensor c1 = (0.01 * l).pow(2), c2 = (0.03 * l).pow(2);
+  torch::Tensor map = ((2 * mx * my + c1) * (2 * sxy + c2)) / ((mx * mx + my * my + c1) * (sxx + syy + c2));
+  return map.mean({1, 2, 3});
+}
+
+// Per-image PSNR (peak = max |truth|) of magnitudes [B, ny, nx].
+torch::Tensor psnr(const torch::Tensor& x, const torch::Tensor& truth) {
+  torch::Tensor mse = (x - truth).pow(2).mean({1, 2});
+  torch::Tensor peak = std::get<0>(truth.reshape({truth.size(0), -1}).max(1));
+  return 10 * torch::log10(peak.pow(2) / mse.clamp_min(1e-20));
+}
+
+std::vector<Measurement> draw_examples(const TrainingConditions& c, uint64_t seed, uint64_t first, int count) {
+  std::vector<Measurement> out(static_cast<size_t>(count));
+#pragma omp parallel for schedule(dynamic) if (count > 1)
+  for (int j = 0; j < count; ++j) out[static_cast<size_t>(j)] = draw_training_example(c, seed, first + static_cast<uint64_t>(j));
+  return out;
+}
+
+PreparedBatch prepare(const std::vector<Measurement>& ms, const UnrolledArchitecture& a) {
+  std::vector<const Measurement*> p;
+  for (const auto& m : ms) p.push_back(&m);
+  return internal::prepare_batch(p, a);
+}
+
+struct Validation {
+  std::vector<PreparedBatch> batches;
+  double baseline_psnr = 0;
+};
+
+struct Scores {
+  double psnr = 0, ssim = 0;
+};
+
+Scores validate(internal::UnrolledNetImpl& net, const Validation& v) {
+  torch::NoGradGuard no_grad;
+  double p = 0, s = 0;
+  int64_t n = 0;
+  for (const auto& b : v.batches) {
+    torch::Tensor mag = internal::magnitude(net.forward(b.data, b.ops));
+    torch::Tensor peak = std::get<0>(b.truth.reshape({b.truth.size(0), -1}).max(1));
+    p += psnr(mag, b.truth).sum().item<double>();
+    s += ssim(mag, b.truth, peak).sum().item<double>();
+    n += b.truth.size(0);
+  }
+  return {p / double(n), s / double(n)};
+}
+
+std::vector<std::pair<std::string, torch::Tensor>> adam_tensors(const std::vector<std::pair<std::string, torch::Tensor>>& params,
+                                                                const std::vector<torch::Tensor>& state) {
+  std::vector<std::pair<std::string, torch::Tensor>> out;
+  for (size_t i = 0; i < params.size(); ++i) out.emplace_back(params[i].first, state[i]);
+  return out;
+}
+
+void write_checkpoint(const std::string& path, const internal::ModelState& s, const internal::AdamState& adam, int64_t step,
+                      const std::string& config_text, double elapsed) {
+  H5Writer w(path);
+  internal::write_model_groups(w, s);
+  const auto params = internal::named_parameters(s);
+  internal::write_tensors(w, "/train/adam_m", adam_tensors(params, adam.m));
+  internal::write_tensors(w, "/train/adam_v", adam_tensors(params, adam.v));
+  w.write_attr("/train", "step", step);
+  w.write_attr("/train", "config", config_text);
+  w.write_attr("/train", "elapsed_seconds", elapsed);
+  w.commit();
+}
+
+std::string fmt(const char* f, double v) {
+  char b[64];
+  std::snprintf(b, sizeof b, f, v);
+  return b;
+}
+
+}  // namespace
+
+uint64_t validation_seed(uint64_t seed) { return seed + kValidationStream; }
+
+std::string checkpoint_path(const std::string& out) {
+  std::string base = out;
+  if (base.size() > 3 && base.compare(base.size() - 3, 3, ".h5") == 0) base.resize(base.size() - 3);
+  return base + ".checkpoint.h5";
+}
+
+TrainResult train_unrolled_model(const TrainingConfig& cfg, const TrainRun& run) {
+  const auto t_start = std::chrono::steady_clock::now();
+  auto seconds_since = [](std::chrono::steady_clock::time_point t) {
+    return std::chrono::duration<double>(std::chrono::steady_clock::now() - t).count();
+  };
+  const TrainOptions& o = cfg.train;
+  const UnrolledArchitecture& arch = cfg.architecture;
+  if (o.threads > 0) omp_set_num_threads(o.threads);
+  internal::align_torch_threads();
+  set_fft_threads(1);  // examples of a batch run side by side instead
+
+  TrainResult result;
+  result.checkpoint = checkpoint_path(run.out);
+  UnrolledModel model(arch, o.seed);
+  internal::ModelState& state = model.state();
+  auto params = internal::named_parameters(state);
+  internal::AdamState adam = internal::make_adam_state(params);
+  int64_t step = 0;
+  double elapsed_before = 0;
+  if (run.resume) {
+    if (!file_exists(result.checkpoint))
+      throw InputError(result.checkpoint, "--resume", "no checkpoint to resume from");
+    H5Reader r(result.checkpoint);
+    if (!r.has_attr("/train", "config") || r.attr_string("/train", "config") != cfg.text)
+      throw InputError(result.checkpoint, "/train@config",
+                       "the checkpoint was made with a different config than " + cfg.file);
+    internal::read_tensors(r, "/model/parameters", params);
+    internal::read_tensors(r, "/train/adam_m", adam_tensors(params, adam.m));
+    internal::read_tensors(r, "/train/adam_v", adam_tensors(params, adam.v));
+    step = r.attr_int("/train", "step");
+    elapsed_before = r.attr_double("/train", "elapsed_seconds");
+  }
+
+  // Fixed validation set and its baseline (A^H y of the scaled operator).
+  Validation val;
+  {
+    const uint64_t vseed = validation_seed(o.seed);
+    double base = 0;
+    for (int first = 0; first < o.validation_count; first += o.batch) {
+      const int count = std::min(o.batch, o.validation_count - first);
+      PreparedBatch b = prepare(draw_examples(cfg.data, vseed, static_cast<uint64_t>(first), count), arch);
+      torch::NoGradGuard no_grad;
+      torch::Tensor zf = internal::magnitude(internal::op_adjoint(b.data, b.ops));
+      base += psnr(zf, b.truth).sum().item<double>();
+      val.batches.push_back(std::move(b));
+    }
+    val.baseline_psnr = base / double(o.validation_count);
+  }
+  result.val_psnr_baseline_db = val.baseline_psnr;
+
+  internal::UnrolledNetImpl& net = *state.net;
+  Scores last_scores{};
+  bool have_scores = false;
+  double loss_value = 0;
+  const auto t_loop = std::chrono::steady_clock::now();
+  const int64_t first_step = step;
+  auto status = [&]() {
+    std::string s = "loss " + fmt("%.3g", loss_value);
+    if (have_scores) s += ", val " + fmt("%.2f", last_scores.psnr) + " dB (A^H y " + fmt("%.2f", val.baseline_psnr) + ")";
+    const double dt = seconds_since(t_loop);
+    if (step > first_step && dt > 0) s += ", " + fmt("%.1f", double((step - first_step) * o.batch) / dt) + " ex/s";
+    return s;
+  };
+
+  while (step < o.steps) {
+    const bool stop_requested = (run.stop && run.stop->load()) ||
+                                (run.stop_after_steps > 0 && step >= run.stop_after_steps);
+    if (stop_requested) {
+      write_checkpoint(result.checkpoint, state, adam, step, cfg.text, elapsed_before + seconds_since(t_start));
+      result.interrupted = true;
+      result.steps_done = step;
+      result.final_loss = loss_value;
+      result.seconds = seconds_since(t_start);
+      if (run.progress) run.progress->finish("interrupted at step " + std::to_string(step) + "; checkpoint " + result.checkpoint);
+      return result;
+    }
+    if (o.max_minutes > 0 && seconds_since(t_start) > o.max_minutes * 60) {
+      result.time_limit_reached = true;
+      break;
+    }
+    PreparedBatch b = prepare(draw_examples(cfg.data, o.seed, static_cast<uint64_t>(step) * o.batch, o.batch), arch);
+    torch::Tensor mag = internal::magnitude(net.forward(b.data, b.ops));
+    torch::Tensor loss = o.loss == "l1" ? (mag - b.truth).abs().mean() : (mag - b.truth).pow(2).mean();
+    if (o.ssim_weight > 0) {
+      torch::Tensor peak = std::get<0>(b.truth.reshape({b.truth.size(0), -1}).max(1));
+      loss = loss + o.ssim_weight * (1 - ssim(mag, b.truth, peak).mean());
+    }
+    for (auto& p : params)
+      if (p.second.grad().defined()) p.second.grad().zero_();
+    loss.backward();
+    loss_value = loss.item<double>();
+    if (!std::isfinite(loss_value))
+      throw WorkError("training loss is not finite at step " + std::to_string(step) + "; lower train.learning_rate");
+    internal::adam_step(params, adam, learning_rate(o, step), step + 1, o.clip_norm);
+    ++step;
+    if (step % o.validation_every == 0 || step == o.steps) {
+      last_scores = validate(net, val);
+      have_scores = true;
+    }
+    if (step % o.checkpoint_every == 0 && step < o.steps)
+      write_checkpoint(result.checkpoint, state, adam, step, cfg.text, elapsed_before + seconds_since(t_start));
+    if (run.progress) run.progress->update(step, o.steps, status());
+  }
+
+  if (!have_scores || result.time_limit_reached) last_scores = validate(net, val);
+  result.steps_done = step;
+  result.val_psnr_db = last_scores.psnr;
+  result.val_ssim = last_scores.ssim;
+  result.final_loss = loss_value;
+  result.seconds = seconds_since(t_start);
+
+  ModelInfo& info = state.info;
+  info.trained_on = cfg.data;
+  info.config_text = cfg.text;
+  info.metrics["val_psnr_db"] = result.val_psnr_db;
+  info.metrics["val_ssim"] = result.val_ssim;
+  info.metrics["val_psnr_baseline_db"] = result.val_psnr_baseline_db;
+  info.metrics["steps"] = double(step);
+  info.metrics["train_loss"] = loss_value;
+  info.metrics["train_seconds"] = elapsed_before + result.seconds;
+  info.provenance.command = run.command;
+  info.provenance.extra["seed"] = std::to_string(o.seed);
+  info.provenance.extra["config_file"] = cfg.file;
+  model.save(run.out);
+  if (file_exists(result.checkpoint)) std::remove(result.checkpoint.c_str());
+  if (run.progress) run.progress->finish(status());
+  return result;
+}
+
+}  // namespace recofold

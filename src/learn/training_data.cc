@@ -1,0 +1,99 @@
+// SPDX-License-Identifier: Apache-2.0
+// Training examples drawn on the fly from phantom families and acquisition ranges.
+#include "recofold/learn/training_data.h"
+
+#include <algorithm>
+#include <cmath>
+#include <vector>
+
+#include "recofold/acquire/ct_simulation.h"
+#include "recofold/acquire/mri.h"
+#include "recofold/core/error.h"
+#include "recofold/core/rng.h"
+#include "recofold/ops/ct_geometry.h"
+#include "recofold/phantom/family.h"
+#include "recofold/phantom/raster.h"
+#include "recofold/sampling/mask.h"
+
+namespace recofold {
+
+namespace {
+
+constexpr double kPi = 3.14159265358979323846;
+
+template <typename T>
+const T& pick(const std::vector<T>& v, Rng& rng) {
+  return v[static_cast<size_t>(rng.below(v.size()))];
+}
+
+int pick_int(int lo, int hi, Rng& rng) { return lo + static_cast<int>(rng.below(static_cast<uint64_t>(hi - lo + 1))); }
+
+}  // namespace
+
+Measurement draw_training_example(const TrainingConditions& c, uint64_t seed, uint64_t index) {
+  RECOFOLD_CHECK(c.validate().empty()) << "draw_training_example with invalid conditions";
+  Rng rng = Rng::for_stream(seed, index);
+  const Family family = *parse_family(pick(c.families, rng));
+  FamilyOptions fo = family_options(family);
+  fo.fov_mm = c.fov_mm;
+  const uint64_t phantom_seed = rng.next_u64();
+  const Phantom object = make_family_object(fo, phantom_seed, index);
+  const ImageC image = rasterize(object, static_cast<int>(c.ny), static_cast<int>(c.nx));
+  const double pixel_mm = c.fov_mm / double(c.nx);
+  const bool analytic = c.truth == "analytic";
+
+  Measurement m;
+  if (c.modality == "mri") {
+    MaskOptions mo;
+    mo.pattern = *parse_mask_pattern(pick(c.patterns, rng));
+    mo.ny = c.ny;
+    mo.nx = c.nx;
+    mo.acceleration = rng.uniform(c.accel_min, c.accel_max);
+    mo.center_fraction = c.center_fraction;
+    mo.seed = rng.next_u64();
+    const SamplingMask mask = make_mask(mo);
+    MriSimulationOptions so;
+    so.coil_array.coils = pick_int(c.coils_min, c.coils_max, rng);
+    so.truth = analytic ? MriTruth::kAnalytic : MriTruth::kDiscrete;
+    so.noise_sigma = rng.uniform(c.noise_min, c.noise_max);
+    so.seed = rng.next_u64();
+    m = simulate_mri(analytic ? &object : nullptr, image, pixel_mm, mask, so);
+  } else {
+    const int views = pick_int(c.views_min, c.views_max, rng);
+    const double photons =
+        c.photons_max > 0 ? std::exp(rng.uniform(std::log(c.photons_min), std::log(c.photons_max))) : 0.0;
+    CtSimulationOptions so;
+    CtGeometry& g = so.geometry;
+    g.beam = CtBeam::kParallel;
+    const double arc = c.arc_deg * kPi / 180.0;
+    for (int v = 0; v < views; ++v) g.angles_rad.push_back(arc * double(v) / double(views));
+    g.ny = c.ny;
+    g.nx = c.nx;
+    g.pixel_size_mm = pixel_mm;
+    g.detector_count = static_cast<Index>(std::ceil(std::sqrt(2.0) * double(std::max(c.ny, c.nx))));
+    g.detector_spacing_mm = pixel_mm;
+    so.mu_per_mm = c.mu_per_mm;
+    so.analytic = analytic;
+    so.noisy = photons > 0;
+    so.noise.photons_per_ray = photons > 0 ? photons : 1.0;
+    so.seed = rng.next_u64();
+    ImageF real(c.ny, c.nx);
+    for (Index i = 0; i < image.size(); ++i) real.data()[i] = image.data()[i].real();
+    m.modality = "ct";
+    m.ny = c.ny;
+    m.nx = c.nx;
+    m.pixel_spacing_mm[0] = m.pixel_spacing_mm[1] = pixel_mm;
+    m.ct = simulate_ct(so, analytic ? &object : nullptr, real);
+    NdArray<cfloat> truth(Shape{c.ny, c.nx});
+    std::copy(image.data(), image.data() + image.size(), truth.ptr());
+    m.truth = std::move(truth);
+    m.truth_kind = c.truth;
+  }
+  m.provenance.command = "draw_training_example";
+  m.provenance.extra["seed"] = std::to_string(seed);
+  m.provenance.extra["index"] = std::to_string(index);
+  m.provenance.extra["family"] = std::string(to_string(family));
+  return m;
+}
+
+}  // namespace recofold
