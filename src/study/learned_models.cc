@@ -45,7 +45,8 @@ void check_fits(const UnrolledModel& model, const StudyMethod& m, const StudyCon
 }
 }  // namespace
 
-void LearnedModelSet::prepare(const StudyConfig& config, const std::string& out_dir, ProgressSink* progress) {
+void LearnedModelSet::prepare(const StudyConfig& config, const std::string& out_dir, ProgressSink* progress,
+                              const std::atomic<bool>* stop) {
   // Model files first: a bad one is refused before anything is trained or written.
   for (const StudyMethod& m : config.methods) {
     if (!m.learned() || m.model_path.empty()) continue;
@@ -73,6 +74,7 @@ void LearnedModelSet::prepare(const StudyConfig& config, const std::string& out_
       run.out = path;
       run.resume = file_exists(checkpoint_path(path));
       run.progress = progress;
+      run.stop = stop;
       run.command = "recofold study " + config.file + " (method " + m.name + ")";
       const TrainResult r = train_unrolled_model(tc, run);
       if (r.interrupted) throw WorkError("training of '" + m.name + "' was interrupted; rerun the study to resume it");
@@ -106,7 +108,8 @@ struct LearnedModelSet::Impl {
   std::map<std::string, std::string> paths;
 };
 
-void LearnedModelSet::prepare(const StudyConfig& config, const std::string&, ProgressSink*) {
+void LearnedModelSet::prepare(const StudyConfig& config, const std::string&, ProgressSink*,
+                              const std::atomic<bool>*) {
   for (const StudyMethod& m : config.methods)
     if (m.learned())
       throw InputError(config.file, "method", "learned method '" + m.name + "' needs the learn module", m.line);

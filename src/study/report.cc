@@ -17,6 +17,7 @@
 #include "recofold/io/image_file.h"
 #include "recofold/study/learned_models.h"
 #include "study_util.h"
+#include "png_plot.h"
 #include "svg_plot.h"
 
 namespace recofold {
@@ -234,9 +235,15 @@ std::string write_study_report(const ReportInputs& in) {
         const std::string svg = svg_line_plot(plot);
         const std::string name = modality + "-" + metric + "-vs-" + axis + ".svg";
         write_text_atomic(fig_dir + "/" + name, "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n" + svg);
+        const std::string png = name.substr(0, name.size() - 4) + ".png";
+        write_png_plot(fig_dir + "/" + png, plot);
+        std::string legend;
+        for (size_t k = 0; k < methods.size(); ++k)
+          legend += (k ? ", " : "") + std::to_string(k + 1) + " " + methods[k]->name;
         ++figure;
         h += "<figure>" + svg + "<figcaption>Figure " + std::to_string(figure) + ": " + html_escape(plot.title) +
              "; mean over phantoms and repetitions; other axes: " + html_escape(fixed) + " (figures/" + name +
+             "; PNG copy figures/" + png + " with numbered legend: " + html_escape(legend) +
              ").</figcaption></figure>\n";
       }
     }

@@ -176,7 +176,7 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
   }
 
   LearnedModelSet learned;
-  learned.prepare(config, dir, options.progress);
+  learned.prepare(config, dir, options.progress, options.stop);
 
   make_dir(dir);
   make_dir(dir + "/images");

@@ -229,6 +229,10 @@ def main():
         for name in ["summary.csv", "figures/mri-psnr-vs-accel.svg", "figures/montage-mri-0.png",
                      "figures/montage-ct-0.png"]:
             check(os.path.exists(os.path.join(tmp, "whole", name)), f"writes {name}")
+        for name in ["mri-psnr-vs-accel.png", "mri-ssim-vs-noise.png", "ct-psnr-vs-views.png"]:
+            path = os.path.join(tmp, "whole", "figures", name)
+            data = open(path, "rb").read() if os.path.exists(path) else b""
+            check(png_ok(data), f"plot {name} is a decodable PNG")
     if failures:
         print(f"{len(failures)} failure(s)")
         sys.exit(1)

@@ -6,6 +6,7 @@
 // refused at load time (or the methods skipped when marked optional).
 #pragma once
 
+#include <atomic>
 #include <memory>
 #include <string>
 
@@ -25,9 +26,11 @@ class LearnedModelSet {
 
   // Loads every `model` file and trains every `train` method of the config
   // that is still missing into `<out_dir>/models/<name>.h5` (a rerun reuses
-  // it). `train_seed` seeds the training data (the study seed). Training
-  // progress goes to `progress` (may be null).
-  void prepare(const StudyConfig& config, const std::string& out_dir, ProgressSink* progress);
+  // it; an interrupted training resumes from its checkpoint). Training
+  // progress goes to `progress` (may be null); when `stop` is set the
+  // training writes its checkpoint and prepare() throws WorkError.
+  void prepare(const StudyConfig& config, const std::string& out_dir, ProgressSink* progress,
+               const std::atomic<bool>* stop = nullptr);
 
   // Reconstruction of `m` by the model of method `name` (complex [ny, nx]);
   // `outside` receives the training conditions the measurement lies outside

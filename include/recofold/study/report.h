@@ -10,7 +10,8 @@
 // its error map, all reconstructions at the truth's window and all error maps
 // at one common window), and the config text. Images are embedded (inline
 // SVG, base64 PNG), so the page needs no other file. The plots are also
-// written to figures/*.svg and the montages to figures/*.png.
+// written to figures/*.svg (with PNG copies, figures/*-vs-*.png, numbered legends) and
+// the montages to figures/montage-*.png.
 #pragma once
 
 #include <string>
