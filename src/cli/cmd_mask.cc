@@ -61,6 +61,8 @@ void run_mask(const MaskFlags& f, const CLI::App& sub, const Context& ctx) {
       if (sub.count(flag) > 0) throw InputError("", flag, "only applies with --pattern (a spec file sets it)");
 
   apply_threads(ctx);
+  // A few one-off transforms: instant, deterministic FFTW_ESTIMATE plans (same bytes every run).
+  set_fft_measure(false);
   SamplingMask mask;
   Provenance prov = make_provenance(ctx);
   if (!f.from.empty()) {

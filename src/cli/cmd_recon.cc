@@ -11,6 +11,7 @@
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
 #include "recofold/io/image_export.h"
+#include "recofold/ops/fft.h"
 #include "recofold/io/measurement_file.h"
 #include "recofold/ops/coil_maps.h"
 #include "recofold/recon/zero_filled.h"
@@ -50,6 +51,9 @@ ImageRecord zero_filled_record(const Measurement& m, const ReconFlags& f, const 
     throw InputError("", "--maps", "'" + f.maps + "'; expected measured or estimated");
   if (sub.count("--maps") > 0 && *combine != CoilCombine::kSensitivity)
     throw InputError("", "--maps", "only applies with --combine sense");
+  // A few one-off transforms: instant, deterministic FFTW_ESTIMATE plans
+  // (same bytes every run). Iterative methods keep FFTW_MEASURE.
+  set_fft_measure(false);
   MriData mri = *m.mri;
   if (f.maps == "estimated") {
     mri.coil_maps = estimate_coil_maps(mri.kspace, mri.mask, 0.05, f.meas);

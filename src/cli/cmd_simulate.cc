@@ -12,6 +12,7 @@
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
 #include "recofold/io/image_export.h"
+#include "recofold/ops/fft.h"
 #include "recofold/io/measurement_file.h"
 #include "recofold/phantom/phantom_table.h"
 
@@ -82,6 +83,8 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
   prov.extra["truth"] = analytic_truth ? "analytic" : "discrete (from the pixels)";
 
   apply_threads(ctx);
+  // A few one-off transforms: instant, deterministic FFTW_ESTIMATE plans (same bytes every run).
+  set_fft_measure(false);
   Measurement m;
   std::string summary;
   if (f.modality == "ct") {

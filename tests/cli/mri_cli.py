@@ -85,6 +85,12 @@ def newcomer_flow(tmp):
         maps = f["mri/coil_maps"][()]
         check(np.allclose(np.sum(np.abs(maps) ** 2, axis=0), 1.0, atol=1e-4), "coil maps: sum |S|^2 = 1")
 
+    must_succeed(["simulate", "--phantom", "ph.h5", "--modality", "mri", "--mask", "m4.h5", "--coils", "8",
+                  "--noise", "0.003", "--seed", "2", "--out", "again.h5"], tmp)
+    with h5py.File(os.path.join(tmp, "meas.h5"), "r") as f, h5py.File(os.path.join(tmp, "again.h5"), "r") as g:
+        check(np.array_equal(f["mri/kspace"][()], g["mri/kspace"][()]), "same seed, same k-space bytes")
+    os.remove(os.path.join(tmp, "again.h5"))
+
     must_succeed(["recon", "--meas", "meas.h5", "--method", "zero-filled", "--out", "zf.h5", "--png", "zf.png"], tmp)
     out = must_succeed(["score", "--reference", "ph.h5", "--image", "zf.h5", "--json"], tmp)
     s = json.loads(out.stdout)

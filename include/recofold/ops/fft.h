@@ -23,6 +23,10 @@ int fft_threads();
 // gives ~10x faster transforms than FFTW_ESTIMATE, which pays back after a few
 // dozen transforms); false = FFTW_ESTIMATE (instant planning, for one-off
 // transforms of many different sizes). Existing plans are kept.
+// Reproducibility: FFTW_MEASURE picks algorithms by timing, so two processes
+// may round differently in the last bits; FFTW_ESTIMATE plans (or imported
+// wisdom) give the same bytes every run for a given thread count. The CLI's
+// one-off transforms (mask analysis, simulation, zero-filled) use ESTIMATE.
 void set_fft_measure(bool measure);
 
 // FFTW wisdom (optional): import a wisdom file made by a previous run so that
