@@ -117,6 +117,23 @@ def spec_files(tmp):
         check(f["spoke_angles_rad"].shape == (32,), "golden-angle mask file stores 32 spoke angles")
 
 
+def mask_from_png(tmp):
+    # A pattern made elsewhere, as an 8-bit PNG (255 = sampled); written with
+    # scikit-image's imsave.
+    from skimage import io as skio
+    m = np.zeros((64, 64), np.uint8)
+    m[::2, :] = 255
+    m[28:36, :] = 255
+    skio.imsave(os.path.join(tmp, "ext.png"), m, check_contrast=False)
+    out = must_succeed(["mask", "--from", "ext.png", "--out", "ext.h5", "--report", "ext.json"], tmp)
+    rep = json.load(open(os.path.join(tmp, "ext.json")))
+    check(rep["pattern"] == "file" and rep["analysis"]["samples"] == int(np.count_nonzero(m)),
+          "mask --from PNG keeps every sampled point")
+    must_succeed(["simulate", "--phantom", "ph.h5", "--modality", "mri", "--mask", "ext.png", "--out", "pm.h5"], tmp)
+    with h5py.File(os.path.join(tmp, "pm.h5"), "r") as f:
+        check(np.array_equal(f["mri/mask"][()], (m > 0).astype(np.uint8)), "simulate --mask PNG uses the PNG's pattern")
+
+
 def bad_inputs(tmp):
     work = os.path.join(tmp, "bad")
     os.mkdir(work)
@@ -156,6 +173,7 @@ def main():
     with tempfile.TemporaryDirectory() as tmp:
         newcomer_flow(tmp)
         spec_files(tmp)
+        mask_from_png(tmp)
         bad_inputs(tmp)
     if failures:
         print(f"{len(failures)} failure(s)")
