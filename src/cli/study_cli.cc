@@ -57,15 +57,18 @@ std::string run_study_command(const Context& ctx, const std::string& config_path
                (shard.count > 1 ? " in shard " + shard.to_string() + " of " + std::to_string(s.cases_total) : "") +
                ", " + std::to_string(s.cases_run) + " run, " + std::to_string(s.cases_skipped) +
                " already done, " + std::to_string(s.cases_failed) + " failed");
-  const double busy = s.case_seconds / (s.wall_seconds * double(std::min(o.jobs, std::max(1, s.cases_run))));
-  say(ctx, "wall " + seconds(s.wall_seconds) + ", reconstruction " + seconds(s.case_seconds) + " over " +
-               std::to_string(o.jobs) + " job(s); overhead " +
-               std::to_string(int(std::round(100.0 * (1.0 - std::min(1.0, busy))))) + "%");
+  // Overhead: the share of the cases' wall time (without model loading and
+  // training) that the job slots did not spend reconstructing.
+  const double cases_wall = std::max(1e-9, s.wall_seconds - s.training_seconds);
+  const double busy = s.case_seconds / (cases_wall * double(std::min(o.jobs, std::max(1, s.cases_run))));
+  say(ctx, "wall " + seconds(s.wall_seconds) +
+               (s.training_seconds > 0.05 ? " (learned models " + seconds(s.training_seconds) + ")" : "") +
+               ", reconstruction " + seconds(s.case_seconds) + " over " + std::to_string(o.jobs) +
+               " job(s); overhead " + std::to_string(int(std::round(100.0 * (1.0 - std::min(1.0, busy))))) + "%");
   say(ctx, "results: " + s.results_path);
-  if (!s.complete) {
-    say(ctx, "study incomplete (stopped); run the same command again to resume");
-    return "";
-  }
+  if (!s.complete)
+    throw WorkError("study stopped before every case ran (" + std::to_string(s.cases_skipped + s.cases_run) + " of " +
+                    std::to_string(s.cases_in_shard) + " done); run the same command again to resume");
   say(ctx, "summary: " + s.summary_path);
   say(ctx, "report: " + s.report_path);
   say(ctx, kResearchUseLine);

@@ -11,7 +11,7 @@ namespace recofold::cli {
 // Runs `config_path` into `out_dir` with `jobs` parallel cases (0: all
 // cores) and shard "I/N" ("" = whole study); prints the counts, timings and
 // where the report is. SIGINT/SIGTERM finish the cases in flight and stop
-// (a rerun resumes). Returns the report path ("" when the run is incomplete).
+// (the command then fails with exit 1; a rerun resumes). Returns the report path.
 std::string run_study_command(const Context& ctx, const std::string& config_path, const std::string& out_dir,
                               int jobs, const std::string& shard);
 

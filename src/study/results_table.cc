@@ -35,7 +35,7 @@ std::string format_result_row(const StudyConfig& config, const CaseGrid& grid, c
   std::vector<std::string> cells = {c.key, config.phantoms[size_t(c.phantom)].label, a.modality, m.name, m.prior};
   for (const auto& axis : acquisition_axes()) cells.push_back(axis_value(a, axis));
   cells.push_back(std::to_string(c.repetition));
-  cells.push_back(std::isnan(o.lambda) ? "" : format_number(o.lambda));
+  cells.push_back(std::isnan(o.lambda) ? "" : format_sig(o.lambda, 6));
   if (o.ok) {
     cells.push_back(format_sig(o.scores.psnr, 8));
     cells.push_back(format_sig(o.scores.ssim, 8));

@@ -47,6 +47,7 @@ struct StudyRunSummary {
   bool complete = false;   // every case of the shard has a row
   double wall_seconds = 0.0;
   double case_seconds = 0.0;  // sum of the reconstruction times of the cases run here
+  double training_seconds = 0.0;  // loading and training learned models (part of wall_seconds)
   std::string results_path, summary_path, report_path;
 };
 
