@@ -8,6 +8,7 @@
 
 #include "cli_common.h"
 #include "ct_cli.h"
+#include "recon_solve_cli.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
 #include "recofold/io/image_export.h"
@@ -27,7 +28,10 @@ struct MethodInfo {
   const char* name;
   const char* modality;
 };
-const std::vector<MethodInfo> kMethods = {{"zero-filled", "mri"}, {"fbp", "ct"}};
+// "any": the method runs on both modalities (the operator comes from the file).
+const std::vector<MethodInfo> kMethods = {{"zero-filled", "mri"}, {"fbp", "ct"}, {"cg", "any"},
+                                          {"ista", "any"},        {"fista", "any"}, {"admm", "any"},
+                                          {"pdhg", "any"},        {"unrolled", "any"}};
 
 std::string method_list() {
   std::string s;
@@ -40,6 +44,7 @@ struct ReconFlags {
   std::string combine = "sos";
   std::string maps = "measured";
   CtReconFlags ct;
+  SolveFlags solve;
 };
 
 const std::vector<std::string> kImageExtensions = {".h5", ".nii.gz", ".nii", ".mha", ".nrrd", ".png"};
@@ -94,18 +99,25 @@ void run_recon(const ReconFlags& f, const CLI::App& sub, const Context& ctx) {
     if (opt->count() == 0) continue;
     const std::string& g = opt->get_group();
     if ((g == kMriGroup && std::string(method->name) != "zero-filled") ||
-        (g.rfind("CT", 0) == 0 && std::string(method->name) != "fbp"))
+        (g.rfind("CT", 0) == 0 && std::string(method->name) != "fbp") ||
+        (g == kSolveGroup && !is_solver_method(f.method)) ||
+        (g.rfind("Learned", 0) == 0 && f.method != "unrolled"))
       throw InputError("", opt->get_name(), "does not apply to --method " + f.method);
   }
   if (!file_exists(f.meas)) throw InputError(f.meas, "--meas", "file not found");
   const Measurement m = read_measurement_file(f.meas);
-  if (m.modality != method->modality)
+  if (std::string(method->modality) != "any" && m.modality != method->modality)
     throw InputError(f.meas, "--method",
                      f.method + " needs a " + method->modality + " measurement; this file is " + m.modality);
   apply_threads(ctx);
   ImageRecord rec;
   try {
-    rec = std::string(method->name) == "fbp" ? reconstruct_fbp_record(m, f.ct) : zero_filled_record(m, f, sub);
+    if (is_solver_method(f.method))
+      rec = reconstruct_solver_record(m, f.method, f.solve, sub, ctx);
+    else if (f.method == "unrolled")
+      rec = reconstruct_unrolled_cli(m, f.solve, sub);
+    else
+      rec = std::string(method->name) == "fbp" ? reconstruct_fbp_record(m, f.ct) : zero_filled_record(m, f, sub);
   } catch (const InputError& e) {
     if (!e.file().empty()) throw;
     throw InputError(f.meas, e.field(), e.reason(), e.line());
@@ -143,6 +155,7 @@ void register_cmd_recon(CLI::App& app, Context& ctx) {
       ->capture_default_str()
       ->group(kMriGroup);
   add_ct_recon_flags(*sub, f->ct);
+  add_solve_flags(*sub, f->solve);
   sub->footer(std::string(kResearchUseLine));
   sub->callback([f, sub, &ctx] { run_recon(*f, *sub, ctx); });
 }
