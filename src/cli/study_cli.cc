@@ -47,6 +47,8 @@ std::string run_study_command(const Context& ctx, const std::string& config_path
   o.stop = &g_stop;
   const auto progress = make_progress(ctx, "study " + config.name);
   o.progress = progress.get();
+  const auto training = make_progress(ctx, "train models of " + config.name);
+  o.training_progress = training.get();
   g_stop.store(false);
   std::signal(SIGINT, on_stop_signal);
   std::signal(SIGTERM, on_stop_signal);

@@ -96,7 +96,9 @@ CaseGrid expand_grid(const StudyConfig& c) {
           sc.group = group;
           sc.measurement_key = mkey;
           sc.key = c.phantoms[p].label + "|" + acq.key() + "|" + c.methods[m].name + "|" + rep;
-          sc.mask_seed = seed_of(c.seed, "mask|" + acq.key() + "|" + rep);
+          // The mask depends on the sampling only (pattern, R, repetition), so
+          // the coil and noise axes compare the same sampling pattern.
+          sc.mask_seed = seed_of(c.seed, "mask|" + acq.pattern + "|" + format_number(acq.accel) + "|" + rep);
           sc.noise_seed = seed_of(c.seed, "noise|" + mkey);
           g.cases.push_back(sc);
           any = true;

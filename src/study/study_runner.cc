@@ -177,7 +177,8 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
 
   LearnedModelSet learned;
   const auto train_start = std::chrono::steady_clock::now();
-  learned.prepare(config, dir, options.progress, options.stop);
+  ProgressSink* training = options.training_progress ? options.training_progress : options.progress;
+  learned.prepare(config, dir, training, options.stop);
   s.training_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - train_start).count();
 
   make_dir(dir);

@@ -85,13 +85,18 @@ TEST(StudyGrid, KeysAreUniqueAndNameEveryAxis) {
 TEST(StudyGrid, SeedsDependOnKeysNotPositions) {
   const CaseGrid g = expand_grid(every_axis());
   std::map<std::string, uint64_t> mask_of_acq_rep;
+  std::set<uint64_t> mask_seeds;
   std::set<uint64_t> noise_seeds;
   for (const StudyCase& c : g.cases) {
-    const std::string k = g.acquisitions[size_t(c.acquisition)].key() + std::to_string(c.repetition);
-    auto [it, fresh] = mask_of_acq_rep.emplace(k, c.mask_seed);
-    EXPECT_EQ(it->second, c.mask_seed) << "one mask per acquisition and repetition";
     noise_seeds.insert(c.noise_seed);
+    const Acquisition& a = g.acquisitions[size_t(c.acquisition)];
+    if (a.modality != "mri") continue;
+    const std::string k = a.pattern + "|" + std::to_string(a.accel) + "|" + std::to_string(c.repetition);
+    auto [it, fresh] = mask_of_acq_rep.emplace(k, c.mask_seed);
+    EXPECT_EQ(it->second, c.mask_seed) << "one mask per pattern, R and repetition, whatever the coils and noise";
+    mask_seeds.insert(c.mask_seed);
   }
+  EXPECT_EQ(mask_seeds.size(), 2u * 2u * 2u) << "patterns x accelerations x repetitions";
   EXPECT_EQ(noise_seeds.size(), size_t(g.groups)) << "one noise seed per measurement";
   // Dropping a method leaves the other cases' seeds unchanged.
   StudyConfig fewer = every_axis();

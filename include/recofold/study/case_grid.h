@@ -44,7 +44,8 @@ struct StudyCase {
   int group = 0;             // index of its measurement (phantom, acquisition, repetition)
   std::string key;           // "<phantom>|<acquisition key>|<method>|r<rep>", unique
   std::string measurement_key;  // "<phantom>|<acquisition key>|r<rep>"
-  uint64_t mask_seed = 0;    // sampling (same for every phantom of an acquisition and repetition)
+  uint64_t mask_seed = 0;    // sampling: from (pattern, accel, repetition) only, so phantoms,
+                             // coil counts and noise levels share the mask
   uint64_t noise_seed = 0;   // acquisition noise (per measurement)
 };
 

@@ -32,6 +32,7 @@ struct StudyRunOptions {
   int threads_per_job = 0;
   Shard shard;                  // default 1/1: the whole study
   ProgressSink* progress = nullptr;         // cases done / total; may be null
+  ProgressSink* training_progress = nullptr;  // training of [train] methods; null: use `progress`
   const std::atomic<bool>* stop = nullptr;  // set: finish cases in flight, start no new ones
   std::string command;          // for provenance (manifest)
   bool write_report = true;     // summary.csv and report.html when complete
