@@ -2,6 +2,7 @@
 // reconstruct_measurement: operator from the measurement, prior from the spec, solver, and the lambda-auto rules.
 #include "recofold/recon/pipeline.h"
 
+#include <algorithm>
 #include <chrono>
 #include <cmath>
 #include <cstdio>
@@ -81,6 +82,162 @@ Index count_sampled(const MriData& mri) {
   return n;
 }
 
+// The CT "lambda auto" rule (pipeline.h): held-out views.
+constexpr int kHoldOutEvery = 6;
+
+struct HeldOutChoice {
+  double lambda = 0.0;  // for all views
+  std::string rule;
+  LambdaCurve curve;  // lambda (training views), residual_squared (training), score (held-out misfit)
+  VecC warm_start;    // the training image at the best grid lambda
+};
+
+// The measurement restricted to the given views (sinogram rows and angles).
+Measurement view_subset(const Measurement& m, const std::vector<Index>& views) {
+  Measurement s;
+  s.modality = m.modality;
+  s.ny = m.ny;
+  s.nx = m.nx;
+  s.pixel_spacing_mm[0] = m.pixel_spacing_mm[0];
+  s.pixel_spacing_mm[1] = m.pixel_spacing_mm[1];
+  CtData ct = *m.ct;
+  const Index det = m.ct->sinogram.shape[1];
+  ct.sinogram = NdArray<float>(Shape{static_cast<Index>(views.size()), det});
+  ct.angles_rad.clear();
+  for (size_t k = 0; k < views.size(); ++k) {
+    ct.angles_rad.push_back(m.ct->angles_rad[static_cast<size_t>(views[k])]);
+    for (Index j = 0; j < det; ++j)
+      ct.sinogram.data[k * static_cast<size_t>(det) + static_cast<size_t>(j)] =
+          m.ct->sinogram.data[static_cast<size_t>(views[k] * det + j)];
+  }
+  s.ct = std::move(ct);
+  return s;
+}
+
+// ||A||_F^2 = trace(A^H A) from two deterministic Rademacher probes (E||A z||^2 = ||A||_F^2).
+double frobenius_squared(const LinearOperator& a) {
+  const Index n = a.domain_size();
+  VecC z(n), az;
+  double sum = 0.0;
+  uint64_t state = 0x9e3779b97f4a7c15ULL;
+  for (int probe = 0; probe < 2; ++probe) {
+    for (Index i = 0; i < n; ++i) {
+      state = state * 6364136223846793005ULL + 1442695040888963407ULL;
+      z[i] = cfloat((state >> 63) ? 1.0f : -1.0f, 0.0f);
+    }
+    a.apply(z, az);
+    sum += static_cast<double>(az.squaredNorm());
+  }
+  return sum / 2.0;
+}
+
+HeldOutChoice choose_lambda_held_out_views(const Measurement& m, SolverMethod method, const Prior& prior, int iters,
+                                           int max_steps, const std::string& file, ProgressSink* progress) {
+  const Index views = m.ct->sinogram.shape[0];
+  if (views < 2 * kHoldOutEvery)
+    throw InputError(file, "--lambda",
+                     "auto on CT holds out every " + std::to_string(kHoldOutEvery) + "th view and needs >= " +
+                         std::to_string(2 * kHoldOutEvery) + " views; this file has " + std::to_string(views) +
+                         "; give a number");
+  std::vector<Index> train, held;
+  for (Index v = 0; v < views; ++v) (v % kHoldOutEvery == kHoldOutEvery / 2 ? held : train).push_back(v);
+  const Measurement mt = view_subset(m, train), mh = view_subset(m, held);
+  const auto at = make_ct_operator(mt, file);
+  const auto ah = make_ct_operator(mh, file);
+  const VecC yt = ct_sinogram_vector(mt), yh = ct_sinogram_vector(mh);
+  const RegularisedSolve solve = make_solve(method, *at, yt, iters, nullptr);
+
+  // Start: 10 sigma_e sqrt(trace(A^H A)/n), sigma_e the Poisson noise per ray
+  // (1e-3 of the rms line integral for noiseless data); the walk below goes
+  // up or down from there.
+  const double rays = static_cast<double>(yt.size());
+  const double photons = m.ct->photons_per_ray;
+  const double sigma_e = photons > 0.0 ? std::sqrt(transmission_noise_energy(yt, photons) / rays)
+                                       : 1e-3 * std::sqrt(static_cast<double>(yt.squaredNorm()) / rays);
+  double start = 10.0 * sigma_e * std::sqrt(frobenius_squared(*at) / static_cast<double>(at->domain_size()));
+  if (!(start > 0.0) || !std::isfinite(start)) start = 1e-3;
+
+  HeldOutChoice c;
+  std::vector<VecC> images;
+  std::unique_ptr<Prior> p = prior.clone();
+  VecC r;
+  auto run_at = [&](double lambda, VecC image) {
+    const auto t = std::chrono::steady_clock::now();
+    p->set_weight(lambda);
+    const SolverSummary s = solve(*p, image);
+    LambdaPoint pt;
+    pt.lambda = lambda;
+    pt.objective = s.iterations.empty() ? std::nan("") : s.iterations.back().objective;
+    at->apply(image, r);
+    r -= yt;
+    pt.residual_squared = static_cast<double>(r.squaredNorm());
+    ah->apply(image, r);
+    r -= yh;
+    pt.score = static_cast<double>(r.squaredNorm());
+    pt.iterations = static_cast<int>(s.iterations.size());
+    pt.termination = s.termination;
+    pt.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t).count();
+    c.curve.points.push_back(pt);
+    images.push_back(std::move(image));
+    if (progress) {
+      char buf[96];
+      std::snprintf(buf, sizeof buf, "lambda %.3g held-out misfit %.4g", lambda, pt.score);
+      progress->update(static_cast<int64_t>(c.curve.points.size()), max_steps, buf);
+    }
+    return pt.score;
+  };
+  // Walk a x2 grid with warm starts: down from the start while the held-out
+  // misfit falls; when the first step down is already worse, up instead.
+  const double e0 = run_at(start, VecC());
+  double prev = run_at(start * 0.5, images.back());
+  double factor = 0.5, lam = start * 0.5;
+  size_t from = 1;
+  if (prev > e0) {
+    factor = 2.0;
+    lam = start;
+    prev = e0;
+    from = 0;
+  }
+  while (static_cast<int>(c.curve.points.size()) < max_steps) {
+    lam *= factor;
+    const double e = run_at(lam, images[from]);
+    from = images.size() - 1;
+    if (e > prev) break;
+    prev = e;
+  }
+  // The best grid point and, when it has neighbours on both sides, a
+  // parabola in log lambda through the three misfits.
+  int best = 0;
+  for (size_t k = 1; k < c.curve.points.size(); ++k)
+    if (c.curve.points[k].score < c.curve.points[static_cast<size_t>(best)].score) best = static_cast<int>(k);
+  c.curve.best = best;
+  const double lb = c.curve.points[static_cast<size_t>(best)].lambda;
+  double below = std::nan(""), above = std::nan("");
+  for (const LambdaPoint& pt : c.curve.points) {
+    if (std::abs(pt.lambda - 0.5 * lb) <= 1e-9 * lb) below = pt.score;
+    if (std::abs(pt.lambda - 2.0 * lb) <= 1e-9 * lb) above = pt.score;
+  }
+  const double eb = c.curve.points[static_cast<size_t>(best)].score;
+  const double h = std::log(2.0);
+  double offset = 0.0;
+  const bool refined = std::isfinite(below) && std::isfinite(above) && (below - 2.0 * eb + above) > 0.0;
+  if (refined) offset = std::clamp(h * (below - above) / (2.0 * (below - 2.0 * eb + above)), -h, h);
+  const double lambda_train = lb * std::exp(offset);
+  const double scale = static_cast<double>(views) / static_cast<double>(train.size());
+  c.lambda = lambda_train * scale;
+  c.warm_start = images[static_cast<size_t>(best)];
+  char buf[420];
+  std::snprintf(buf, sizeof buf,
+                "held-out views: every %dth view (%zu of %lld) held out; %zu solves on the other %zu views on a x2 "
+                "lambda grid from %.4g with warm starts; held-out misfit ||A_h x - y_h||^2 smallest at lambda %.5g "
+                "(%.5g)%s; scaled by %lld/%zu for all views: lambda = %.5g",
+                kHoldOutEvery, held.size(), static_cast<long long>(views), c.curve.points.size(), train.size(), start,
+                lambda_train, eb, refined ? ", log-parabola refined" : ", grid point (not refined)",
+                static_cast<long long>(views), train.size(), c.lambda);
+  c.rule = buf;
+  return c;
+}
+
 }  // namespace
 
 int default_iterations(SolverMethod method) {
@@ -108,7 +265,7 @@ std::vector<std::string> ReconRequest::validate(const std::string& modality, con
     e.push_back("--lambda = auto; needs a prior (there is no weight to choose with --prior none)");
   if (!lambda_auto && !(prior.lambda >= 0.0 && std::isfinite(prior.lambda)))
     e.push_back("--lambda = " + num(prior.lambda) + "; must be >= 0 and finite, or auto");
-  if (lambda_steps < 0) e.push_back("lambda steps = " + std::to_string(lambda_steps) + "; must be >= 2 (0: default)");
+  if (lambda_steps != 0 && lambda_steps < 2) e.push_back("lambda steps = " + std::to_string(lambda_steps) + "; must be >= 2 (0: default)");
   PriorSpec check = prior;
   if (lambda_auto || !(check.lambda >= 0.0)) check.lambda = 1.0;
   if (check.kind != PriorKind::kWavelet) check.wavelet = WaveletL1Options{};
@@ -177,62 +334,39 @@ ReconResult reconstruct_measurement(const Measurement& m, const ReconRequest& re
     result.lambda = spec.lambda;
     result.lambda_rule = "given";
     result.lambda_rule_name = "given";
-  } else {
+  } else if (mri) {
     DiscrepancyOptions d;
-    std::string prefix;
-    if (mri) {
-      d.noise_sigma = m.mri->noise_sigma;
-      d.measurement_count = count_sampled(*m.mri) * m.mri->kspace.shape[0];
-      d.complex_noise = true;
-      d.max_steps = request.lambda_steps > 0 ? request.lambda_steps : 16;
-      if (!(d.noise_sigma > 0.0))
-        throw InputError(file, "--lambda",
-                         "auto needs the measurement's noise sigma (/mri noise_sigma is " + num(d.noise_sigma) +
-                             "); give a number");
-      result.noise_energy = discrepancy_target(d.measurement_count, d.noise_sigma, true);
-      result.lambda_rule_name = "discrepancy";
-    } else {
-      const double photons = m.ct->photons_per_ray;
-      const double e = photons > 0.0 ? transmission_noise_energy(y, photons) : 0.0;
-      // The misfit floor: the same solver without regularisation (lambda 0, same box).
-      std::unique_ptr<Prior> free = prior->clone();
-      free->set_weight(0.0);
-      VecC x0;
-      inner(*free, x0);
-      VecC r;
-      a->apply(x0, r);
-      r -= y;
-      const double floor = r.squaredNorm();
-      result.misfit_floor = floor;
-      result.noise_energy = e;
-      d.target = e > 0.0 ? floor + e : 1.1 * floor;
-      d.max_steps = request.lambda_steps > 0 ? request.lambda_steps : 14;
-      if (!(d.target > 0.0))
-        throw InputError(file, "--lambda", "auto: the unregularised solve fits the sinogram exactly; give a number");
-      char buf[300];
-      if (e > 0.0)
-        std::snprintf(buf, sizeof buf,
-                      "floor-corrected discrepancy: target = misfit floor F (lambda 0, same solver, %d iterations) "
-                      "%.5g + transmission noise energy E (sum exp(p)/I0, I0 = %.4g) %.5g = %.5g; ",
-                      iters, floor, photons, e, d.target);
-      else
-        std::snprintf(buf, sizeof buf,
-                      "floor-corrected discrepancy (noiseless file): target = 1.1 x misfit floor F (lambda 0, same "
-                      "solver, %d iterations) %.5g = %.5g; ",
-                      iters, floor, d.target);
-      prefix = buf;
-      result.lambda_rule_name = "floor-corrected discrepancy";
-    }
+    d.noise_sigma = m.mri->noise_sigma;
+    d.measurement_count = count_sampled(*m.mri) * m.mri->kspace.shape[0];
+    d.complex_noise = true;
+    d.max_steps = request.lambda_steps > 0 ? request.lambda_steps : 16;
+    if (!(d.noise_sigma > 0.0))
+      throw InputError(file, "--lambda",
+                       "auto needs the measurement's noise sigma (/mri noise_sigma is " + num(d.noise_sigma) +
+                           "); give a number");
     DiscrepancyChoice choice = choose_lambda_discrepancy(d, *a, y, *prior, solve, x, lambda_progress);
     result.lambda = choice.lambda;
-    result.lambda_rule = prefix + choice.rule;
+    result.lambda_rule = choice.rule;
+    result.lambda_rule_name = "discrepancy";
+    result.lambda_target = choice.target;
+    result.lambda_curve = choice.curve;
     // The summary of the (last) solve at the chosen lambda.
     for (auto it = runs.rbegin(); it != runs.rend(); ++it)
       if (it->first == choice.lambda) {
         result.summary = it->second;
         break;
       }
-    result.choice = std::move(choice);
+  } else {
+    HeldOutChoice h = choose_lambda_held_out_views(m, request.method, *prior, iters,
+                                                   request.lambda_steps > 0 ? request.lambda_steps : 12, file,
+                                                   lambda_progress);
+    result.lambda = h.lambda;
+    result.lambda_rule = h.rule;
+    result.lambda_rule_name = "held-out views";
+    result.lambda_curve = std::move(h.curve);
+    prior->set_weight(h.lambda);
+    x = std::move(h.warm_start);
+    result.summary = solve(*prior, x);
   }
   result.summary.values["lambda"] = result.lambda;
   result.image = std::move(x);

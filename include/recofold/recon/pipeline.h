@@ -39,7 +39,7 @@ struct ReconRequest {
   // Iterations of the solver (of every solve in the lambda-auto sweep);
   // 0 = the method's default above; otherwise >= 1.
   int iterations = 0;
-  // Solves in the lambda-auto sweep (DiscrepancyOptions::max_steps): 16 for MRI, 14 for CT when 0.
+  // Solves in the lambda-auto sweep: 0 = 16 for MRI (DiscrepancyOptions::max_steps), 12 for CT.
   int lambda_steps = 0;
 
   // Every violation as "--flag ...: reason" messages (flags: --method,
@@ -57,19 +57,20 @@ int default_iterations(SolverMethod method);
 // file's noise sigma (complex noise, v = 2 sigma^2) and m = sampled points x
 // coils: ||A x - y||^2 = 2 m sigma^2.
 //
-// CT, "floor-corrected discrepancy": with exact (analytic) line integrals the
-// discretised projector cannot reproduce the sinogram even without noise,
-// and this model misfit exceeds the Poisson noise energy, so the plain target
-// is never reached (the sweep would end at its smallest lambda). The target
-// is therefore
-//   T = F + E,
-// E = the expected transmission noise energy sum_i exp(p_i) / I0
-// (transmission_noise_energy; 0 for a noiseless file), and F = the misfit
-// floor: ||A x_0 - y||^2 of the same solver with the same iterations and box
-// constraint but lambda = 0 (what the solver reaches without regularisation).
-// For a noiseless file (E = 0) T = 1.1 F. lambda then adds about one noise
-// energy of misfit above what the data can be fitted to, which is the
-// discrepancy principle's intent with the model error moved into the floor.
+// CT, "held-out views" (cross-validation): with exact (analytic) line
+// integrals the discretised projector cannot reproduce the sinogram even
+// without noise, and this model misfit exceeds the Poisson noise energy, so a
+// plain discrepancy target is never reached (the sweep ends at its smallest
+// lambda). Instead every 6th view (views v with v mod 6 = 3) is held out; the
+// same solver (same iterations, prior and box) runs on the other views on a
+// lambda grid with factor 2 and warm starts, walking down from
+// 10 sigma_e sqrt(trace(A^H A)/n) (sigma_e the Poisson noise per ray) while
+// the held-out misfit ||A_h x - y_h||^2 falls (up instead when the first step
+// down is worse), at most lambda_steps solves (12 by default). The best grid
+// lambda is refined by a parabola in log lambda through it and its two
+// neighbours, then multiplied by (all views / training views), because the
+// data term of the full problem is that much larger; the final solve uses all
+// views, warm-started from the best training image. Needs >= 12 views.
 // The rule text states which rule was used and its numbers.
 
 // The outcome.
@@ -78,13 +79,16 @@ struct ReconResult {
   Index ny = 0, nx = 0;
   SolverSummary summary;  // the solve that produced `image` (for auto: the solve at the chosen lambda)
   double lambda = 0.0;    // the weight used (0 with prior none)
-  // "given" / "none (no prior)" / the discrepancy rule with its numbers
-  // (DiscrepancyChoice::rule, prefixed by the CT floor when used).
+  // "given" / "none (no prior)" / the rule with its numbers (MRI:
+  // DiscrepancyChoice::rule; CT: the held-out-views rule).
   std::string lambda_rule;
-  std::string lambda_rule_name;  // "given", "none", "discrepancy", "floor-corrected discrepancy"
-  std::optional<DiscrepancyChoice> choice;  // set for lambda auto
-  double misfit_floor = 0.0;                // CT auto: F above (0 otherwise)
-  double noise_energy = 0.0;                // E (CT) or 2 m sigma^2 (MRI) for auto; 0 otherwise
+  std::string lambda_rule_name;
+  // "discrepancy" (MRI auto), "held-out views" (CT auto), "given", "none".
+  // lambda auto: every solve of the rule; MRI: residual_squared = misfit (the
+  // curve of choose_lambda_discrepancy); CT: residual_squared = training-view
+  // misfit, score = held-out misfit, best = the best grid point.
+  std::optional<LambdaCurve> lambda_curve;
+  double lambda_target = 0.0;  // MRI auto: the discrepancy target 2 m sigma^2 (0 otherwise)
   std::string operator_name;                // the operator's name()
   std::string description;                  // one line: method, prior, lambda, iterations
   double seconds = 0.0;                     // wall time of everything above
