@@ -15,6 +15,8 @@ PACKAGES=(
   # independent reference checks (tests/reference), run with /usr/bin/python3
   python3 python3-numpy python3-scipy python3-skimage python3-pywt
   python3-h5py python3-nibabel python3-torch
+  # headless browser for the report rendering check (tests/cli/study_report_browser.py)
+  chromium
 )
 
 missing=()
