@@ -169,12 +169,14 @@ ImageRecord reconstruct_solver_record(const Measurement& m, const std::string& m
     rec.text_attrs["cycle_spin"] = f.cycle_spin ? "on" : "off";
   }
   rec.text_attrs["nonneg"] = nonneg ? "on" : "off";
-  rec.text_attrs["lambda"] = r.lambda_curve ? "auto" : (req.prior.kind == PriorKind::kNone ? "none" : f.lambda);
+  // "lambda" is the weight used (as text, so that "learned" fits the same
+  // attribute for unrolled models); "lambda_mode" says where it came from.
+  rec.text_attrs["lambda"] = num(r.lambda);
+  rec.text_attrs["lambda_mode"] = r.lambda_curve ? "auto" : (req.prior.kind == PriorKind::kNone ? "none" : "given");
   rec.text_attrs["lambda_rule"] = r.lambda_rule;
   rec.text_attrs["lambda_rule_name"] = r.lambda_rule_name;
   rec.text_attrs["operator"] = r.operator_name;
   rec.text_attrs["termination"] = std::string(to_string(r.summary.termination));
-  rec.number_attrs["lambda"] = r.lambda;
   rec.number_attrs["iterations"] = static_cast<double>(r.summary.iterations.size());
   rec.number_attrs["seconds"] = r.seconds;
   if (r.lambda_curve) {
@@ -196,6 +198,7 @@ ImageRecord reconstruct_unrolled_cli(const Measurement& m, const SolveFlags& f, 
   ImageRecord rec = reconstruct_unrolled_record(m, f.model, &warning);
   if (!warning.empty()) std::cerr << "warning: " << warning << "\n";
   rec.text_attrs["method"] = "unrolled";
+  if (rec.text_attrs.count("lambda") == 0) rec.text_attrs["lambda"] = "learned";
   if (rec.text_attrs.count("lambda_rule") == 0) rec.text_attrs["lambda_rule"] = "learned (model file " + f.model + ")";
   return rec;
 }
