@@ -84,6 +84,11 @@ Index count_sampled(const MriData& mri) {
 
 // The CT "lambda auto" rule (pipeline.h): held-out views.
 constexpr int kHoldOutEvery = 6;
+// A step counts as an improvement only when it lowers the held-out misfit by
+// more than this fraction; among grid points within this fraction of the
+// smallest misfit the largest lambda is kept (on a plateau, iteration-limited
+// solves barely change and the stronger prior is the safer choice).
+constexpr double kHeldOutTolerance = 1e-3;
 
 struct HeldOutChoice {
   double lambda = 0.0;  // for all views
@@ -192,24 +197,32 @@ HeldOutChoice choose_lambda_held_out_views(const Measurement& m, SolverMethod me
   double prev = run_at(start * 0.5, images.back());
   double factor = 0.5, lam = start * 0.5;
   size_t from = 1;
-  if (prev > e0) {
+  if (prev > e0 * (1.0 - kHeldOutTolerance)) {
     factor = 2.0;
     lam = start;
     prev = e0;
     from = 0;
   }
+  bool stopped = false;
   while (static_cast<int>(c.curve.points.size()) < max_steps) {
     lam *= factor;
     const double e = run_at(lam, images[from]);
     from = images.size() - 1;
-    if (e > prev) break;
+    if (e > prev * (1.0 - kHeldOutTolerance)) {
+      stopped = true;
+      break;
+    }
     prev = e;
   }
   // The best grid point and, when it has neighbours on both sides, a
   // parabola in log lambda through the three misfits.
-  int best = 0;
-  for (size_t k = 1; k < c.curve.points.size(); ++k)
-    if (c.curve.points[k].score < c.curve.points[static_cast<size_t>(best)].score) best = static_cast<int>(k);
+  double smallest = c.curve.points[0].score;
+  for (const LambdaPoint& pt : c.curve.points) smallest = std::min(smallest, pt.score);
+  int best = -1;
+  for (size_t k = 0; k < c.curve.points.size(); ++k)
+    if (c.curve.points[k].score <= smallest * (1.0 + kHeldOutTolerance) &&
+        (best < 0 || c.curve.points[k].lambda > c.curve.points[static_cast<size_t>(best)].lambda))
+      best = static_cast<int>(k);
   c.curve.best = best;
   const double lb = c.curve.points[static_cast<size_t>(best)].lambda;
   double below = std::nan(""), above = std::nan("");
@@ -226,13 +239,15 @@ HeldOutChoice choose_lambda_held_out_views(const Measurement& m, SolverMethod me
   const double scale = static_cast<double>(views) / static_cast<double>(train.size());
   c.lambda = lambda_train * scale;
   c.warm_start = images[static_cast<size_t>(best)];
-  char buf[420];
+  char buf[560];
   std::snprintf(buf, sizeof buf,
                 "held-out views: every %dth view (%zu of %lld) held out; %zu solves on the other %zu views on a x2 "
                 "lambda grid from %.4g with warm starts; held-out misfit ||A_h x - y_h||^2 smallest at lambda %.5g "
-                "(%.5g)%s; scaled by %lld/%zu for all views: lambda = %.5g",
+                "(%.5g; largest grid lambda within %.1g of the smallest misfit)%s%s; scaled by %lld/%zu for all views: "
+                "lambda = %.5g",
                 kHoldOutEvery, held.size(), static_cast<long long>(views), c.curve.points.size(), train.size(), start,
-                lambda_train, eb, refined ? ", log-parabola refined" : ", grid point (not refined)",
+                lambda_train, eb, kHeldOutTolerance, refined ? ", log-parabola refined" : ", grid point (not refined)",
+                stopped ? "" : ", minimum not bracketed within the solve limit",
                 static_cast<long long>(views), train.size(), c.lambda);
   c.rule = buf;
   return c;

@@ -65,9 +65,10 @@ int default_iterations(SolverMethod method);
 // same solver (same iterations, prior and box) runs on the other views on a
 // lambda grid with factor 2 and warm starts, walking down from
 // 10 sigma_e sqrt(trace(A^H A)/n) (sigma_e the Poisson noise per ray) while
-// the held-out misfit ||A_h x - y_h||^2 falls (up instead when the first step
-// down is worse), at most lambda_steps solves (12 by default). The best grid
-// lambda is refined by a parabola in log lambda through it and its two
+// the held-out misfit ||A_h x - y_h||^2 falls by more than 0.1 % per step (up
+// instead when the first step down does not), at most lambda_steps solves (12
+// by default). The best grid lambda (the largest within 0.1 % of the smallest
+// held-out misfit: on a plateau the stronger prior) is refined by a parabola in log lambda through it and its two
 // neighbours, then multiplied by (all views / training views), because the
 // data term of the full problem is that much larger; the final solve uses all
 // views, warm-started from the best training image. Needs >= 12 views.
