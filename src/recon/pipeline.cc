@@ -280,7 +280,10 @@ std::vector<std::string> ReconRequest::validate(const std::string& modality, con
     e.push_back("--lambda = auto; needs a prior (there is no weight to choose with --prior none)");
   if (!lambda_auto && !(prior.lambda >= 0.0 && std::isfinite(prior.lambda)))
     e.push_back("--lambda = " + num(prior.lambda) + "; must be >= 0 and finite, or auto");
-  if (lambda_steps != 0 && lambda_steps < 2) e.push_back("lambda steps = " + std::to_string(lambda_steps) + "; must be >= 2 (0: default)");
+  if (lambda_steps != 0 && lambda_steps < 2)
+    e.push_back("request.lambda_steps = " + std::to_string(lambda_steps) + "; must be >= 2 (0: default)");
+  if (prior.kind == PriorKind::kNone && prior.box)
+    e.push_back("--nonneg needs a prior (--prior none is unconstrained least squares)");
   PriorSpec check = prior;
   if (lambda_auto || !(check.lambda >= 0.0)) check.lambda = 1.0;
   if (check.kind != PriorKind::kWavelet) check.wavelet = WaveletL1Options{};
