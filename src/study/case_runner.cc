@@ -24,6 +24,7 @@
 #include "recofold/recon/ista.h"
 #include "recofold/recon/lambda_discrepancy.h"
 #include "recofold/recon/pdhg.h"
+#include "recofold/recon/pipeline.h"
 #include "recofold/recon/zero_filled.h"
 #include "recofold/sampling/mask.h"
 #include "recofold/sampling/view_set.h"
@@ -129,6 +130,21 @@ ImageF run_solver(const StudyMethod& method, const Measurement& m, double lambda
       }
       throw InputError("", "method.method", "'" + name + "' is not a solver");
     };
+    if (std::isnan(lambda) && !mri) {
+      // CT "auto": the held-out-views rule shared with `recofold recon`
+      // (recon/pipeline.h). The plain discrepancy target cannot be reached
+      // with exact line integrals: the projector's model misfit exceeds the
+      // Poisson noise energy.
+      ReconRequest request;
+      request.method = *parse_solver_method(name);
+      request.prior = spec;
+      request.lambda_auto = true;
+      request.iterations = iters;
+      const ReconResult r = reconstruct_measurement(m, request);
+      *lambda_used = r.lambda;
+      *iterations = static_cast<int>(r.summary.iterations.size());
+      return image_of(r.image, m.ny, m.nx, mri);
+    }
     if (std::isnan(lambda)) {
       DiscrepancyOptions d;
       if (mri) {

@@ -47,9 +47,11 @@
 //                                   value with the best PSNR against the truth is
 //                                   kept (an oracle choice: the best a tuned
 //                                   classical method can do; the row records it);
-//                                   or "auto": Morozov's discrepancy principle with the
-//                                   measurement's known noise (recon/lambda_discrepancy.h;
-//                                   needs noisy data: MRI noise > 0, CT photons > 0)
+//                                   or "auto": MRI by Morozov's discrepancy principle with the
+//                                   measurement's known noise (recon/lambda_discrepancy.h),
+//                                   CT by the held-out-views rule of recon/pipeline.h
+//                                   (needs noisy data: MRI noise > 0, CT photons > 0;
+//                                   CT needs >= 12 views)
 //   iters     = 50                  iterations (solvers)
 //   wavelet   = "db4"   levels = 3  wavelet prior options
 //   nonneg    = true                box x >= 0 (default true for CT, false for MRI)
@@ -112,7 +114,7 @@ struct StudyMethod {
   std::string method;               // zero-filled, fbp, cg, ista, fista, admm, pdhg, unrolled
   std::string prior = "none";       // none, l2, wavelet, tv, tv-aniso
   std::vector<double> lambdas;      // empty: 0; one: fixed; several: oracle choice per case
-  bool lambda_auto = false;         // "auto": discrepancy principle per case
+  bool lambda_auto = false;         // "auto": per case (MRI discrepancy, CT held-out views)
   int iterations = 50;
   std::string wavelet = "db4";
   int levels = 3;
