@@ -5,12 +5,14 @@
 #include <itkImage.h>
 #include <itkImageFileReader.h>
 #include <itkImageFileWriter.h>
+#include <itkMetaDataObject.h>
 #include <itkMetaImageIO.h>
 #include <itkNiftiImageIO.h>
 #include <itkNrrdImageIO.h>
 #include <itkPNGImageIO.h>
 
 #include "recofold/core/error.h"
+#include "recofold/core/provenance.h"
 
 namespace recofold::internal {
 
@@ -50,6 +52,12 @@ void write_float_dim(const std::string& file_name, const std::string& target, it
   img->SetSpacing(spacing);
   img->Allocate();
   std::copy(p.values.begin(), p.values.end(), img->GetBufferPointer());
+  // SAFETY.md: the research-use line goes into the header where the format
+  // keeps free-text fields (MetaImage and NRRD store the dictionary's string
+  // entries; Debian's ITK 5.2 NIfTI writer does not fill `descrip` from it).
+  itk::MetaDataDictionary& dict = img->GetMetaDataDictionary();
+  itk::EncapsulateMetaData<std::string>(dict, "ITK_FileNotes", kResearchUseLine);
+  itk::EncapsulateMetaData<std::string>(dict, "research_use_only", "1");
   auto writer = itk::ImageFileWriter<Img>::New();
   writer->SetImageIO(io);
   writer->SetFileName(file_name);

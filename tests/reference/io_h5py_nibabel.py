@@ -133,6 +133,16 @@ def main():
             check(np.array_equal(data.T, real), f"nifti{ext}: values identical (transposed)")
             check(np.allclose(img.header.get_zooms()[:2], (1.3, 0.7)), f"nifti{ext}: zooms (dx, dy) = (1.3, 0.7)")
 
+        # MetaImage and NRRD headers carry the research-use line (SAFETY.md).
+        for ext in (".mha", ".nrrd"):
+            raw = os.path.join(tmp, "real.f32")
+            path = os.path.join(tmp, "marked" + ext)
+            tool("image", raw, ny, nx, 0, 0.7, 1.3, path)
+            with open(path, "rb") as fh:
+                head = fh.read(4096)
+            check(b"For research use only" in head and b"research_use_only" in head,
+                  f"{ext}: header carries the research-use line")
+
         # And through the command line: convert an h5py-written file to NIfTI.
         check(os.path.exists(EXE), "the recofold executable exists at " + EXE)
         if os.path.exists(EXE):
