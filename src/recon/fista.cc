@@ -13,14 +13,8 @@
 namespace recofold {
 
 std::vector<std::string> FistaOptions::validate() const {
-  std::vector<std::string> e;
-  if (max_iterations < 1) e.push_back("fista.max_iterations = " + std::to_string(max_iterations) + "; must be >= 1");
-  if (!std::isfinite(step_size)) e.push_back("fista.step_size = " + std::to_string(step_size) + "; must be finite");
-  if (power_iterations < 1)
-    e.push_back("fista.power_iterations = " + std::to_string(power_iterations) + "; must be >= 1");
-  if (!(relative_tolerance >= 0.0) || !std::isfinite(relative_tolerance))
-    e.push_back("fista.relative_tolerance = " + std::to_string(relative_tolerance) + "; must be finite and >= 0");
-  return e;
+  return internal::validate_proximal_gradient("fista", max_iterations, step_size, power_iterations,
+                                              relative_tolerance);
 }
 
 SolverSummary solve_fista(const FistaOptions& options, const LinearOperator& a, const Prior& prior, const VecC& y,
@@ -30,13 +24,8 @@ SolverSummary solve_fista(const FistaOptions& options, const LinearOperator& a, 
   SolverSummary summary;
   summary.solver = "fista";
   internal::Stopwatch total, lap;
-  double step = options.step_size;
-  if (step <= 0.0) {
-    const double lip = estimate_norm_squared(a, options.power_iterations, options.power_seed);
-    summary.values["lipschitz"] = lip;
-    step = 1.0 / (1.05 * std::max(lip, 1e-30));
-  }
-  summary.values["step_size"] = step;
+  const double step =
+      internal::proximal_gradient_step(a, options.step_size, options.power_iterations, options.power_seed, summary);
   const double nan = std::numeric_limits<double>::quiet_NaN();
   VecC v = x, z, x_new, r;
   double t = 1.0;

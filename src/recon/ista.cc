@@ -12,14 +12,8 @@
 namespace recofold {
 
 std::vector<std::string> IstaOptions::validate() const {
-  std::vector<std::string> e;
-  if (max_iterations < 1) e.push_back("ista.max_iterations = " + std::to_string(max_iterations) + "; must be >= 1");
-  if (!std::isfinite(step_size)) e.push_back("ista.step_size = " + std::to_string(step_size) + "; must be finite");
-  if (power_iterations < 1)
-    e.push_back("ista.power_iterations = " + std::to_string(power_iterations) + "; must be >= 1");
-  if (!(relative_tolerance >= 0.0) || !std::isfinite(relative_tolerance))
-    e.push_back("ista.relative_tolerance = " + std::to_string(relative_tolerance) + "; must be finite and >= 0");
-  return e;
+  return internal::validate_proximal_gradient("ista", max_iterations, step_size, power_iterations,
+                                              relative_tolerance);
 }
 
 SolverSummary solve_ista(const IstaOptions& options, const LinearOperator& a, const Prior& prior, const VecC& y,
@@ -29,13 +23,8 @@ SolverSummary solve_ista(const IstaOptions& options, const LinearOperator& a, co
   SolverSummary summary;
   summary.solver = "ista";
   internal::Stopwatch total, lap;
-  double step = options.step_size;
-  if (step <= 0.0) {
-    const double lip = estimate_norm_squared(a, options.power_iterations, options.power_seed);
-    summary.values["lipschitz"] = lip;
-    step = 1.0 / (1.05 * std::max(lip, 1e-30));
-  }
-  summary.values["step_size"] = step;
+  const double step =
+      internal::proximal_gradient_step(a, options.step_size, options.power_iterations, options.power_seed, summary);
   // The same arithmetic as gradient_dc_step + ProxPriorStep in the unrolled
   // scheme: r = A x - y, z = x - s A^H r, x+ = prox(z, s). The residual of x+
   // is reused by the next gradient, so the objective costs no extra A apply.

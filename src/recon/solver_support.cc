@@ -75,5 +75,30 @@ PriorParts split_prior(const Prior& prior) {
   return parts;
 }
 
+std::vector<std::string> validate_proximal_gradient(const std::string& solver, int max_iterations, double step_size,
+                                                    int power_iterations, double relative_tolerance) {
+  std::vector<std::string> e;
+  if (max_iterations < 1)
+    e.push_back(solver + ".max_iterations = " + std::to_string(max_iterations) + "; must be >= 1");
+  if (!std::isfinite(step_size)) e.push_back(solver + ".step_size = " + std::to_string(step_size) + "; must be finite");
+  if (power_iterations < 1)
+    e.push_back(solver + ".power_iterations = " + std::to_string(power_iterations) + "; must be >= 1");
+  if (!(relative_tolerance >= 0.0) || !std::isfinite(relative_tolerance))
+    e.push_back(solver + ".relative_tolerance = " + std::to_string(relative_tolerance) + "; must be finite and >= 0");
+  return e;
+}
+
+double proximal_gradient_step(const LinearOperator& a, double step_size, int power_iterations, uint64_t power_seed,
+                              SolverSummary& summary) {
+  double step = step_size;
+  if (step <= 0.0) {
+    const double lip = estimate_norm_squared(a, power_iterations, power_seed);
+    summary.values["lipschitz"] = lip;
+    step = 1.0 / (1.05 * std::max(lip, 1e-30));
+  }
+  summary.values["step_size"] = step;
+  return step;
+}
+
 }  // namespace internal
 }  // namespace recofold

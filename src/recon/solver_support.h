@@ -4,7 +4,9 @@
 
 #include <chrono>
 #include <cmath>
+#include <cstdint>
 #include <string>
+#include <vector>
 
 #include "recofold/core/progress.h"
 #include "recofold/ops/linear_operator.h"
@@ -50,6 +52,16 @@ void finish_summary(SolverSummary& summary, Termination t, const std::string& me
                     ProgressSink* progress);
 
 inline bool finite(double v) { return std::isfinite(v); }
+
+// Option checks shared by ISTA and FISTA ("ista.max_iterations = 0; must be >= 1", ...).
+std::vector<std::string> validate_proximal_gradient(const std::string& solver, int max_iterations, double step_size,
+                                                    int power_iterations, double relative_tolerance);
+
+// The proximal-gradient step: `step_size` when > 0, else 1/(1.05 L) with
+// L = ||A||^2 from a power iteration. Records "lipschitz" (when estimated) and
+// "step_size" in summary.values.
+double proximal_gradient_step(const LinearOperator& a, double step_size, int power_iterations, uint64_t power_seed,
+                              SolverSummary& summary);
 
 // A prior split for the splitting solvers: the analysis-form part (null when
 // there is none, e.g. ZeroPrior) and the box of a ConstrainedPrior (null when none).
