@@ -9,28 +9,15 @@ import subprocess
 import sys
 import tempfile
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import _harness  # noqa: E402  (shared bad-input rule)
+
 EXE = os.environ.get("RECOFOLD_EXE", "./recofold")
 failures = []
 
 
 def bad_case(name, args, must_mention, workdir):
-    before = set(os.listdir(workdir))
-    out = subprocess.run([EXE, "--quiet"] + args, capture_output=True, text=True, cwd=workdir)
-    leftovers = sorted(set(os.listdir(workdir)) - before)
-    problems = []
-    if out.returncode != 2:
-        problems.append(f"exit {out.returncode}, expected 2")
-    for word in must_mention:
-        if word not in out.stderr:
-            problems.append(f"message does not name '{word}'")
-    if len([ln for ln in out.stderr.splitlines() if ln.strip()]) != 1:
-        problems.append("expected a one-line message")
-    if leftovers:
-        problems.append(f"left files behind: {leftovers}")
-    print(("ok    " if not problems else "FAIL  ") + f"{name}: {out.stderr.strip()}")
-    for p in problems:
-        print(f"        {p}")
-        failures.append(f"{name}: {p}")
+    return _harness.bad_input_case(name, lambda: subprocess.run([EXE, "--quiet"] + args, capture_output=True, text=True, cwd=workdir), must_mention, workdir, failures, one_line=True)
 
 
 def main():

@@ -15,6 +15,9 @@ import tempfile
 import h5py
 import numpy as np
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import _harness  # noqa: E402  (shared bad-input rule)
+
 EXE = os.path.abspath(os.environ.get("RECOFOLD_EXE", "./recofold"))
 SRC = os.environ.get("RECOFOLD_SOURCE_DIR", os.path.join(os.path.dirname(__file__), "..", ".."))
 failures = []
@@ -60,20 +63,7 @@ def text(v):
 
 
 def bad_case(name, args, must_mention, workdir):
-    before = set(os.listdir(workdir))
-    out = run(args, workdir)
-    left = sorted(set(os.listdir(workdir)) - before)
-    problems = []
-    if out.returncode != 2:
-        problems.append(f"exit {out.returncode}, expected 2")
-    for word in must_mention:
-        if word not in out.stderr:
-            problems.append(f"message does not name '{word}'")
-    if left:
-        problems.append(f"left files behind: {left}")
-    print(("ok   " if not problems else "FAIL ") + f"{name}: {out.stderr.strip()}")
-    for p in problems:
-        failures.append(f"{name}: {p}")
+    return _harness.bad_input_case(name, lambda: run(args, workdir), must_mention, workdir, failures)
 
 
 def main():
