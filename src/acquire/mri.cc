@@ -6,9 +6,9 @@
 #include <Eigen/Dense>
 
 #include <cmath>
-#include <sstream>
 
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/ops/fft.h"
 #include "recofold/ops/fourier.h"
 #include "recofold/phantom/fourier.h"
@@ -20,11 +20,6 @@ namespace {
 
 constexpr double kPi = 3.14159265358979323846;
 
-std::string fmt(double v) {
-  std::ostringstream s;
-  s << v;
-  return s.str();
-}
 
 double sinc_pi(double x) {  // sin(πx)/(πx)
   if (std::abs(x) < 1e-12) return 1.0;
@@ -38,17 +33,17 @@ double centre_offset(Index n) { return (n % 2 == 0) ? 0.5 : 0.0; }
 
 std::string_view to_string(MriTruth t) { return t == MriTruth::kAnalytic ? "analytic" : "discrete"; }
 
-std::vector<std::string> MriSimulationOptions::validate() const {
-  std::vector<std::string> e;
-  for (const auto& c : coil_array.validate()) e.push_back("--" + c);
+std::vector<FieldError> MriSimulationOptions::validate() const {
+  std::vector<FieldError> e = parse_field_messages(coil_array.validate(), "mri.");
   if (oversampling < 2 || oversampling > 8)
-    e.push_back("--oversampling = " + std::to_string(oversampling) + "; must be 2..8");
+    e.push_back({"mri.oversampling", std::to_string(oversampling), "must be 2..8"});
   if (!(noise_sigma >= 0.0) || !std::isfinite(noise_sigma))
-    e.push_back("--noise = " + fmt(noise_sigma) + "; must be a finite value >= 0");
-  if (!std::isnan(snr_db) && !std::isfinite(snr_db)) e.push_back("--snr-db = " + fmt(snr_db) + "; must be finite");
-  if (std::isfinite(snr_db) && noise_sigma > 0.0) e.push_back("--snr-db: give either --noise or --snr-db, not both");
+    e.push_back({"mri.noise_sigma", format_number(noise_sigma), "must be a finite value >= 0"});
+  if (!std::isnan(snr_db) && !std::isfinite(snr_db)) e.push_back({"mri.snr_db", format_number(snr_db), "must be finite"});
+  if (std::isfinite(snr_db) && noise_sigma > 0.0)
+    e.push_back({"mri.snr_db", format_number(snr_db), "give either mri.noise_sigma or mri.snr_db, not both"});
   if (!(coil_correlation >= 0.0 && coil_correlation < 1.0))
-    e.push_back("--coil-correlation = " + fmt(coil_correlation) + "; must be in [0, 1)");
+    e.push_back({"mri.coil_correlation", format_number(coil_correlation), "must be in [0, 1)"});
   return e;
 }
 
@@ -118,9 +113,9 @@ void add_kspace_noise(NdArray<cfloat>& kspace, const NdArray<uint8_t>& mask, dou
     }
   Eigen::LLT<Eigen::MatrixXd> llt(psi);
   if (llt.info() != Eigen::Success)
-    throw InputError("", "--coil-correlation",
-                     "= " + fmt(rho) + " gives a correlation matrix that is not positive definite for " +
-                         std::to_string(c_count) + " coils");
+    throw InvalidFields({{"mri.coil_correlation", format_number(rho),
+                          "gives a correlation matrix that is not positive definite for " +
+                              std::to_string(c_count) + " coils"}});
   const Eigen::MatrixXd l = llt.matrixL();
   Eigen::VectorXd zr(c_count), zi(c_count);
   for (Index i = 0; i < n; ++i) {
@@ -138,23 +133,17 @@ void add_kspace_noise(NdArray<cfloat>& kspace, const NdArray<uint8_t>& mask, dou
 
 Measurement simulate_mri(const Phantom* analytic, const ImageC& raster, double pixel_spacing_mm,
                          const SamplingMask& mask, const MriSimulationOptions& o) {
-  const auto errors = o.validate();
-  if (!errors.empty()) {
-    std::string all;
-    for (const auto& e : errors) all += (all.empty() ? "" : "; ") + e;
-    const std::string& first = errors.front();
-    throw InputError("", first.substr(0, first.find_first_of(" :")), all);
-  }
+  throw_if_invalid(o.validate());
   const Index ny = raster.rows(), nx = raster.cols(), n = ny * nx;
-  if (ny < 1 || nx < 1) throw InputError("", "--phantom", "the object image is empty");
+  if (ny < 1 || nx < 1) throw InputError("", "raster", "the object image is empty");
   if (mask.mask.shape != Shape{ny, nx})
-    throw InputError("", "--mask",
+    throw InputError("", "mask",
                      "mask shape " + mask.mask.shape.to_string() + " differs from the image shape " +
                          Shape{ny, nx}.to_string());
   if (o.truth == MriTruth::kAnalytic && analytic == nullptr)
-    throw InputError("", "--truth",
+    throw InputError("", "truth",
                      "analytic k-space needs a phantom file with a component table (/phantom/components); "
-                     "use --truth discrete for a raster-only object");
+                     "use discrete truth for a raster-only object");
 
   const int c_count = o.coil_array.coils;
   NdArray<cfloat> maps = synthetic_coil_maps(o.coil_array, ny, nx);
@@ -184,7 +173,7 @@ Measurement simulate_mri(const Phantom* analytic, const ImageC& raster, double p
   add_kspace_noise(k, mask.mask, sigma, o.coil_correlation, rng);
 
   Measurement m;
-  m.modality = "mri";
+  m.modality = Modality::kMri;
   m.ny = ny;
   m.nx = nx;
   m.pixel_spacing_mm[0] = m.pixel_spacing_mm[1] = pixel_spacing_mm;

@@ -10,6 +10,7 @@
 
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/field_error.h"
 #include "recofold/ops/fft.h"
 
 namespace recofold::cli {
@@ -47,6 +48,30 @@ void require_output_path(const std::string& path, const std::string& flag,
   std::string list;
   for (const auto& e : extensions) list += (list.empty() ? "" : ", ") + e;
   throw InputError(path, flag, "unsupported file extension '" + ext + "' (expected one of: " + list + ")");
+}
+
+std::string flag_of_field(const std::string& field, const std::vector<FieldFlag>& map) {
+  const FieldFlag* best = nullptr;
+  for (const FieldFlag& m : map) {
+    const bool prefix = !m.field.empty() && (m.field.back() == '.' || m.field.back() == '[');
+    const bool hit = prefix ? field.rfind(m.field, 0) == 0 : field == m.field;
+    if (hit && (best == nullptr || m.field.size() > best->field.size())) best = &m;
+  }
+  return best ? best->flag : "";
+}
+
+void throw_with_flags(const InputError& e, const std::vector<FieldFlag>& map, const std::string& file) {
+  const std::string where = e.file().empty() ? file : e.file();
+  if (const auto* fields = dynamic_cast<const InvalidFields*>(&e)) {
+    std::vector<FieldError> mapped = fields->errors();
+    for (FieldError& f : mapped) {
+      const std::string flag = flag_of_field(f.field, map);
+      if (!flag.empty()) f.field = flag;
+    }
+    throw InvalidFields(std::move(mapped), where, e.line());
+  }
+  const std::string flag = flag_of_field(e.field(), map);
+  throw InputError(where, flag.empty() ? e.field() : flag, e.reason(), e.line());
 }
 
 void say(const Context&, const std::string& text) { std::cout << text << "\n"; }

@@ -6,7 +6,9 @@
 
 #include <memory>
 #include <string>
+#include <vector>
 
+#include "recofold/core/error.h"
 #include "recofold/core/progress.h"
 #include "recofold/core/provenance.h"
 
@@ -33,6 +35,23 @@ void apply_threads(const Context& ctx);
 // has one of the given extensions (e.g. {".h5"}); empty list = any extension.
 void require_output_path(const std::string& path, const std::string& flag,
                          const std::vector<std::string>& extensions);
+
+// How a library field path appears on the command line: `field` is an exact
+// path ("prior.wavelet.levels") or a prefix ending in '.' or '[' ("ct.angles_rad[").
+struct FieldFlag {
+  std::string field;
+  std::string flag;
+};
+
+// The flag of a field path by the longest matching entry of `map`; "" when none matches.
+std::string flag_of_field(const std::string& field, const std::vector<FieldFlag>& map);
+
+// Re-throws a library InputError whose fields are paths with those paths
+// replaced by flags (InvalidFields: every violation, "--levels = 9; must be
+// 1..6 for 64x64"); unmapped fields keep their path. `file` replaces an empty
+// file of the error.
+[[noreturn]] void throw_with_flags(const InputError& error, const std::vector<FieldFlag>& map,
+                                   const std::string& file = "");
 
 // Prints `text` to stdout with a newline (CLI code may print; library code may not).
 void say(const Context& ctx, const std::string& text);

@@ -17,6 +17,24 @@ namespace recofold::cli {
 
 namespace {
 
+// Library field paths of MaskOptions ("mask.accel") as flags and as keys of a spec file.
+const std::vector<FieldFlag>& mask_flags() {
+  static const std::vector<FieldFlag> map = {
+      {"mask.accel", "--accel"},   {"mask.center", "--center"}, {"mask.size", "--size"},
+      {"mask.power", "--power"},   {"mask.sigma", "--sigma"},   {"mask.radius_growth", "--radius-growth"},
+      {"mask.spokes", "--spokes"},
+  };
+  return map;
+}
+const std::vector<FieldFlag>& mask_spec_keys() {
+  static const std::vector<FieldFlag> map = {
+      {"mask.accel", "accel"}, {"mask.center", "center"}, {"mask.size", "size"},
+      {"mask.power", "power"}, {"mask.sigma", "sigma"},   {"mask.radius_growth", "radius_growth"},
+      {"mask.spokes", "spokes"},
+  };
+  return map;
+}
+
 struct MaskFlags {
   std::string pattern, size = "256", spec, from, out, report, png;
   std::string density = "polynomial";
@@ -95,7 +113,12 @@ void run_mask(const MaskFlags& f, const CLI::App& sub, const Context& ctx) {
       if (sub.count("--spokes") > 0 && o.pattern != MaskPattern::kRadial && o.pattern != MaskPattern::kRadialGolden)
         throw InputError("", "--spokes", "only applies to radial and radial-golden");
     }
-    mask = make_mask(o);
+    try {
+      mask = make_mask(o);
+    } catch (const InputError& e) {
+      if (!f.spec.empty()) throw_with_flags(e, mask_spec_keys(), f.spec);
+      throw_with_flags(e, mask_flags());
+    }
     prov.extra["seed"] = std::to_string(o.seed);
   }
   const MaskAnalysis a = analyse_mask(mask.mask);

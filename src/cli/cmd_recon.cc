@@ -106,9 +106,10 @@ void run_recon(const ReconFlags& f, const CLI::App& sub, const Context& ctx) {
   }
   if (!file_exists(f.meas)) throw InputError(f.meas, "--meas", "file not found");
   const Measurement m = read_measurement_file(f.meas);
-  if (std::string(method->modality) != "any" && m.modality != method->modality)
+  if (std::string(method->modality) != "any" && to_string(m.modality) != method->modality)
     throw InputError(f.meas, "--method",
-                     f.method + " needs a " + method->modality + " measurement; this file is " + m.modality);
+                     f.method + " needs a " + method->modality + " measurement; this file is " +
+                         std::string(to_string(m.modality)));
   apply_threads(ctx);
   ImageRecord rec;
   try {

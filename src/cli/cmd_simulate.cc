@@ -3,6 +3,7 @@
 #include <cmath>
 #include <limits>
 #include <memory>
+#include <optional>
 #include <string>
 
 #include "cli_common.h"
@@ -35,22 +36,39 @@ struct SimulateFlags {
 };
 
 // Flags that belong to one modality: their presence with the other one is an error.
-void refuse_other_modality_flags(const CLI::App& sub, const std::string& modality) {
+void refuse_other_modality_flags(const CLI::App& sub, Modality modality) {
   for (const CLI::Option* opt : sub.get_options()) {
     if (opt->count() == 0) continue;
     const std::string& g = opt->get_group();
     const bool is_mri = g == kMriGroup, is_ct = g.rfind("CT", 0) == 0;
-    if ((modality == "mri" && is_ct) || (modality == "ct" && is_mri))
-      throw InputError("", opt->get_name(), "does not apply to --modality " + modality);
+    if ((modality != Modality::kMri && is_mri) || (modality != Modality::kCt && is_ct))
+      throw InputError("", opt->get_name(), "does not apply to --modality " + std::string(to_string(modality)));
   }
+}
+
+// Library field paths of MRI simulation and their flags.
+const std::vector<FieldFlag>& mri_simulate_flags() {
+  static const std::vector<FieldFlag> map = {
+      {"mri.coils", "--coils"},
+      {"mri.noise_sigma", "--noise"},
+      {"mri.snr_db", "--snr-db"},
+      {"mri.coil_correlation", "--coil-correlation"},
+      {"mri.oversampling", "--oversampling"},
+      {"mri.", "--coils"},
+      {"mask", "--mask"},
+      {"truth", "--truth"},
+      {"raster", "--phantom"},
+  };
+  return map;
 }
 
 void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
   // Every check before any work: bad input leaves no output.
   require_output_path(f.out, "--out", {".h5"});
-  if (f.modality != "mri" && f.modality != "ct")
+  const std::optional<Modality> modality = parse_modality(f.modality);
+  if (!modality || (*modality != Modality::kMri && *modality != Modality::kCt))
     throw InputError("", "--modality", "'" + f.modality + "'; expected mri or ct");
-  refuse_other_modality_flags(sub, f.modality);
+  refuse_other_modality_flags(sub, *modality);
   if (!f.truth.empty() && f.truth != "analytic" && f.truth != "discrete")
     throw InputError("", "--truth", "'" + f.truth + "'; expected analytic or discrete");
   if (f.index < 0) throw InputError("", "--index", "must be >= 0");
@@ -87,7 +105,7 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
   set_fft_measure(false);
   Measurement m;
   std::string summary;
-  if (f.modality == "ct") {
+  if (*modality == Modality::kCt) {
     NdArray<cfloat> pix(Shape{ny, nx});
     std::copy(raster.data(), raster.data() + n, pix.data.begin());
     m = simulate_ct_measurement(f.ct, analytic.get(), pix, spacing, analytic_truth, f.seed);
@@ -119,7 +137,11 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
     o.snr_db = f.snr_db;
     o.coil_correlation = f.coil_correlation;
     o.seed = f.seed;
-    m = simulate_mri(analytic.get(), raster, spacing, mask, o);
+    try {
+      m = simulate_mri(analytic.get(), raster, spacing, mask, o);
+    } catch (const InputError& e) {
+      throw_with_flags(e, mri_simulate_flags());
+    }
     m.pixel_spacing_mm[0] = rec.pixel_spacing_mm[0];
     m.pixel_spacing_mm[1] = rec.pixel_spacing_mm[1];
     char buf[256];

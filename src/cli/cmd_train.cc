@@ -45,7 +45,7 @@ void run_train(const TrainFlags& f, const Context& ctx) {
   run.progress = progress.get();
   run.stop = &g_stop_training;
   run.command = ctx.command_line;
-  say(ctx, "training " + cfg.architecture.describe() + " on " + cfg.data.modality + " data from " + cfg.file);
+  say(ctx, "training " + cfg.architecture.describe() + " on " + std::string(to_string(cfg.data.modality)) + " data from " + cfg.file);
   std::cout.flush();  // the line tells a supervising process that SIGINT now checkpoints
   TrainResult r;
   try {

@@ -39,18 +39,6 @@ class FlagErrors {
   std::string field_, text_;
 };
 
-// Geometry field names as the flags that set them.
-std::string flag_of(const std::string& message) {
-  if (message.find("angles") != std::string::npos) return "--views";
-  if (message.find("detector_count") != std::string::npos) return "--detectors";
-  if (message.find("detector_spacing") != std::string::npos) return "--detector-spacing";
-  if (message.find("detector_offset") != std::string::npos) return "--detector-offset";
-  if (message.find("source_to_isocenter") != std::string::npos) return "--sid";
-  if (message.find("source_to_detector") != std::string::npos) return "--sdd";
-  if (message.find("equiangular") != std::string::npos) return "--detector-spacing";
-  return "--phantom";
-}
-
 }  // namespace
 
 void add_ct_simulate_flags(CLI::App& sub, CtSimulateFlags& f) {
@@ -99,23 +87,21 @@ Measurement simulate_ct_measurement(const CtSimulateFlags& f,
                                     double pixel_spacing_mm,
                                     bool analytic_truth,
                                     uint64_t seed) {
+  // Flag-level rules: names, explicit zeros (0 stands for "automatic" only
+  // when the flag is left out), conflicting view sources. Value ranges are
+  // the library's (CtSimulationOptions::validate), mapped back to flags below.
   FlagErrors errors;
   const auto beam_from_flag = parse_ct_beam(f.geometry);
   if (!beam_from_flag) errors.add("--geometry", "= '" + f.geometry + "'; expected parallel or fan");
   const auto shape = parse_fan_detector(f.detector_shape);
   if (!shape) errors.add("--detector-shape", "= '" + f.detector_shape + "'; expected flat or equiangular");
-  if (f.views < 1) errors.add("--views", "= " + std::to_string(f.views) + "; must be >= 1");
-  if ((given(f.given.arc) || f.arc_deg != 0.0) && !(f.arc_deg > 0.0 && f.arc_deg <= 360.0))
-    errors.add("--arc", "= " + num(f.arc_deg) + "; must be in (0, 360] degrees");
-  if ((given(f.given.detectors) || f.detectors != 0) && f.detectors < 1)
-    errors.add("--detectors", "= " + std::to_string(f.detectors) + "; must be >= 1");
-  if ((given(f.given.spacing) || f.detector_spacing_mm != 0.0) && !(f.detector_spacing_mm > 0.0))
-    errors.add("--detector-spacing", "= " + num(f.detector_spacing_mm) + "; must be > 0");
-  if (!std::isfinite(f.detector_offset_mm)) errors.add("--detector-offset", "must be finite");
-  if ((given(f.given.sid) || f.source_to_isocenter_mm != 0.0) && !(f.source_to_isocenter_mm > 0.0))
-    errors.add("--sid", "= " + num(f.source_to_isocenter_mm) + "; must be > 0");
-  if ((given(f.given.sdd) || f.source_to_detector_mm != 0.0) && !(f.source_to_detector_mm > 0.0))
-    errors.add("--sdd", "= " + num(f.source_to_detector_mm) + "; must be > 0");
+  if (given(f.given.arc) && f.arc_deg == 0.0) errors.add("--arc", "= 0; must be in (0, 360] degrees");
+  if (given(f.given.detectors) && f.detectors == 0) errors.add("--detectors", "= 0; must be >= 1");
+  if (given(f.given.spacing) && f.detector_spacing_mm == 0.0) errors.add("--detector-spacing", "= 0; must be > 0");
+  if (given(f.given.sid) && f.source_to_isocenter_mm == 0.0) errors.add("--sid", "= 0; must be > 0");
+  if (given(f.given.sdd) && f.source_to_detector_mm == 0.0) errors.add("--sdd", "= 0; must be > 0");
+  if (given(f.given.mu) && f.mu_per_mm == 0.0)
+    errors.add("--mu", "= 0; must be > 0 (leave it out for the automatic scale)");
   if (!(f.photons >= 0.0) || !std::isfinite(f.photons))
     errors.add("--photons", "= " + num(f.photons) + "; must be >= 0 (0: noiseless)");
   if (!(f.electronic_sigma >= 0.0) || !std::isfinite(f.electronic_sigma))
@@ -123,77 +109,41 @@ Measurement simulate_ct_measurement(const CtSimulateFlags& f,
   if (f.electronic_sigma > 0.0 && f.photons == 0.0)
     errors.add("--electronic-noise", "needs --photons (the noise is in counts)");
   if (f.bowtie && f.photons == 0.0) errors.add("--bowtie", "needs --photons");
-  if (f.bowtie && !(f.bowtie_edge > 0.0 && f.bowtie_edge <= 1.0))
-    errors.add("--bowtie-edge", "= " + num(f.bowtie_edge) + "; must be in (0, 1]");
-  if ((given(f.given.mu) || f.mu_per_mm != 0.0) && !(f.mu_per_mm > 0.0 && std::isfinite(f.mu_per_mm)))
-    errors.add("--mu", "= " + num(f.mu_per_mm) + "; must be > 0 (leave it out for the automatic scale)");
   const int sources = int(!f.views_file.empty()) + int(!f.view_spec.empty());
   if (sources > 1) errors.add("--views-file", "conflicts with --view-spec; give one view source");
   if (sources > 0 && (given(f.given.views) || given(f.given.arc) || given(f.given.golden)))
     errors.add(f.view_spec.empty() ? "--views-file" : "--view-spec", "conflicts with --views/--arc/--golden");
-  if (!(pixel_spacing_mm > 0.0)) errors.add("--phantom", "pixel spacing " + num(pixel_spacing_mm) + " mm; must be > 0");
   if (raster.shape.rank() < 2)
     errors.add("--phantom", "image of shape " + raster.shape.to_string() + "; need [ny, nx]");
   if (analytic_truth && analytic == nullptr)
     errors.add("--truth", "analytic needs a phantom file with a component table; use --truth discrete");
   errors.throw_if_any();
 
-  // View angles and beam.
-  CtBeam beam = *beam_from_flag;
-  std::vector<double> angles;
+  CtSimulationOptions o;
+  CtScan& scan = o.scan;
+  scan.beam = *beam_from_flag;
+  scan.fan_detector = *shape;
   if (!f.view_spec.empty()) {
     const CtProtocol protocol = load_ct_protocol(f.view_spec);
-    if (!protocol.geometry.empty()) {
-      const CtBeam from_protocol = *parse_ct_beam(protocol.geometry);
-      if (given(f.given.geometry) && from_protocol != beam)
-        throw InputError(f.view_spec, "geometry", "'" + protocol.geometry + "' but --geometry is " + f.geometry);
-      beam = from_protocol;
+    if (protocol.beam) {
+      if (given(f.given.geometry) && *protocol.beam != scan.beam)
+        throw InputError(f.view_spec, "geometry",
+                         "'" + std::string(to_string(*protocol.beam)) + "' but --geometry is " + f.geometry);
+      scan.beam = *protocol.beam;
     }
-    angles = make_view_set(protocol.views);
+    scan.angles_rad = make_view_set(protocol.views);
   } else if (!f.views_file.empty()) {
-    angles = read_view_file(f.views_file);
+    scan.angles_rad = read_view_file(f.views_file);
   } else {
-    ViewSetSpec spec;
-    spec.views = f.views;
-    spec.arc_deg = f.arc_deg > 0.0 ? f.arc_deg : (beam == CtBeam::kFan ? 360.0 : 180.0);
-    spec.order = f.golden ? ViewOrder::kGolden : ViewOrder::kSequential;
-    angles = make_view_set(spec);
+    scan.views = f.views;
+    scan.arc_deg = f.arc_deg;
+    scan.order = f.golden ? ViewOrder::kGolden : ViewOrder::kSequential;
   }
-
-  // Grid and geometry.
-  const int r = raster.shape.rank();
-  const Index ny = raster.shape[r - 2], nx = raster.shape[r - 1];
-  const double fov = double(std::max(ny, nx)) * pixel_spacing_mm;
-  CtGeometry g;
-  g.beam = beam;
-  g.fan_detector = *shape;
-  g.angles_rad = std::move(angles);
-  g.ny = ny;
-  g.nx = nx;
-  g.pixel_size_mm = pixel_spacing_mm;
-  g.detector_count =
-      f.detectors > 0 ? f.detectors : static_cast<Index>(std::ceil(std::sqrt(2.0) * double(std::max(ny, nx))));
-  g.detector_offset_mm = f.detector_offset_mm;
-  if (beam == CtBeam::kFan) {
-    g.source_to_isocenter_mm = f.source_to_isocenter_mm > 0.0 ? f.source_to_isocenter_mm : 2.0 * fov;
-    g.source_to_detector_mm = f.source_to_detector_mm > 0.0 ? f.source_to_detector_mm : 2.0 * g.source_to_isocenter_mm;
-    g.detector_spacing_mm = f.detector_spacing_mm > 0.0
-                                ? f.detector_spacing_mm
-                                : pixel_spacing_mm * g.source_to_detector_mm / g.source_to_isocenter_mm;
-  } else {
-    g.detector_spacing_mm = f.detector_spacing_mm > 0.0 ? f.detector_spacing_mm : pixel_spacing_mm;
-  }
-  FlagErrors geometry_errors;
-  for (const std::string& e : g.validate()) geometry_errors.add(flag_of(e), "(" + e + ")");
-  geometry_errors.throw_if_any();
-
-  // The raster's real part on the grid (the truth image, and the object for --truth discrete).
-  const Index offset = raster.size() - ny * nx;
-  ImageF image(ny, nx);
-  for (Index k = 0; k < ny * nx; ++k) image.data()[k] = raster.data[static_cast<size_t>(offset + k)].real();
-
-  CtSimulationOptions o;
-  o.geometry = g;
+  scan.detector_count = f.detectors;
+  scan.detector_spacing_mm = f.detector_spacing_mm;
+  scan.detector_offset_mm = f.detector_offset_mm;
+  scan.source_to_isocenter_mm = f.source_to_isocenter_mm;
+  scan.source_to_detector_mm = f.source_to_detector_mm;
   o.mu_per_mm = f.mu_per_mm;
   o.analytic = analytic_truth;
   o.noisy = f.photons > 0.0;
@@ -202,24 +152,43 @@ Measurement simulate_ct_measurement(const CtSimulateFlags& f,
   o.noise.bowtie_edge_fraction = f.bowtie_edge;
   o.noise.electronic_sigma = f.electronic_sigma;
   o.seed = seed;
-  CtData ct = simulate_ct(o, analytic_truth ? analytic : nullptr, image);
-  ct.texts["view_source"] = !f.view_spec.empty()    ? "protocol " + f.view_spec
-                            : !f.views_file.empty() ? "file " + f.views_file
-                            : f.golden              ? "golden"
-                                                    : "sequential";
+  o.view_source = !f.view_spec.empty()    ? "protocol " + f.view_spec
+                  : !f.views_file.empty() ? "file " + f.views_file
+                  : f.golden              ? "golden"
+                                          : "sequential";
 
-  Measurement m;
-  m.modality = "ct";
-  m.ny = ny;
-  m.nx = nx;
-  m.pixel_spacing_mm[0] = m.pixel_spacing_mm[1] = pixel_spacing_mm;
-  m.ct = std::move(ct);
-  NdArray<cfloat> truth(Shape{ny, nx});
-  for (Index k = 0; k < ny * nx; ++k) truth.data[static_cast<size_t>(k)] = cfloat(image.data()[k], 0.0f);
-  m.truth = std::move(truth);
-  m.truth_is_complex = false;
-  m.truth_kind = analytic_truth ? "analytic" : "discrete";
-  return m;
+  const int r = raster.shape.rank();
+  const Index ny = raster.shape[r - 2], nx = raster.shape[r - 1];
+  ImageC image(ny, nx);
+  std::copy(raster.data.end() - ny * nx, raster.data.end(), image.data());
+  try {
+    return simulate_ct(analytic_truth ? analytic : nullptr, image, pixel_spacing_mm, o);
+  } catch (const InputError& e) {
+    throw_with_flags(e, ct_simulate_flags());
+  }
+}
+
+const std::vector<FieldFlag>& ct_simulate_flags() {
+  static const std::vector<FieldFlag> map = {
+      {"ct.views", "--views"},
+      {"ct.arc_deg", "--arc"},
+      {"ct.start_deg", "--view-spec"},
+      {"ct.angles_rad[", "--views-file"},
+      {"ct.detector_count", "--detectors"},
+      {"ct.detector_spacing_mm", "--detector-spacing"},
+      {"ct.detector_offset_mm", "--detector-offset"},
+      {"ct.source_to_isocenter_mm", "--sid"},
+      {"ct.source_to_detector_mm", "--sdd"},
+      {"ct.photons_per_ray", "--photons"},
+      {"ct.bowtie_edge_fraction", "--bowtie-edge"},
+      {"ct.electronic_sigma", "--electronic-noise"},
+      {"ct.mu_per_mm", "--mu"},
+      {"ct.", "--phantom"},
+      {"phantom", "--phantom"},
+      {"raster", "--phantom"},
+      {"truth", "--truth"},
+  };
+  return map;
 }
 
 void add_ct_recon_flags(CLI::App& sub, CtReconFlags& flags) {
@@ -231,8 +200,9 @@ void add_ct_recon_flags(CLI::App& sub, CtReconFlags& flags) {
 ImageRecord reconstruct_fbp_record(const Measurement& m, const CtReconFlags& flags) {
   const auto filter = parse_fbp_filter(flags.filter);
   if (!filter) throw InputError("", "--filter", "'" + flags.filter + "'; expected one of " + fbp_filter_names());
-  if (m.modality != "ct" || !m.ct)
-    throw InputError("", "--method", "fbp needs a CT measurement; this one is '" + m.modality + "'");
+  if (m.modality != Modality::kCt || !m.ct)
+    throw InputError("", "--method",
+                     "fbp needs a CT measurement; this one is '" + std::string(to_string(m.modality)) + "'");
   FbpOptions options;
   options.filter = *filter;
   const ImageF img = fbp(m, options, "--meas");

@@ -7,6 +7,7 @@
 #include <cstdint>
 #include <string>
 
+#include "cli_common.h"
 #include "recofold/core/image_record.h"
 #include "recofold/core/measurement.h"
 #include "recofold/phantom/phantom.h"
@@ -46,17 +47,21 @@ struct CtSimulateFlags {
 // Adds the CT flags to the `simulate` sub-command.
 void add_ct_simulate_flags(CLI::App& sub, CtSimulateFlags& flags);
 
-// Builds a CT measurement of a phantom. `analytic` is the phantom's component
-// table when known (null for a raster-only object); `raster` [ny, nx] is its
-// image on the reconstruction grid. With `analytic_truth` the sinogram comes
-// from exact line integrals, otherwise from the projector applied to the raster.
-// Bad flags throw InputError naming the flag.
+// The CT protocol of the flags, simulated by acquire's simulate_ct (which
+// holds the automatic geometry). `analytic` is the phantom's component table
+// when known (null for a raster-only object); `raster` [ny, nx] (the last
+// slice of a stack) is its image on the reconstruction grid. With
+// `analytic_truth` the sinogram comes from exact line integrals, otherwise from
+// the projector applied to the raster. Bad flags throw InputError naming the flag.
 Measurement simulate_ct_measurement(const CtSimulateFlags& flags,
                                     const Phantom* analytic,
                                     const NdArray<cfloat>& raster,
                                     double pixel_spacing_mm,
                                     bool analytic_truth,
                                     uint64_t seed);
+
+// Library field paths of CT simulation ("ct.detector_count", ...) and their flags.
+const std::vector<FieldFlag>& ct_simulate_flags();
 
 // Flags of `recon` that only CT uses.
 struct CtReconFlags {

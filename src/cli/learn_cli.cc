@@ -19,7 +19,7 @@ ImageRecord reconstruct_unrolled_record(const Measurement& m, const std::string&
   ImageRecord rec;
   rec.pixels = NdArray<cfloat>(Shape{image.rows(), image.cols()});
   std::copy(image.data(), image.data() + image.size(), rec.pixels.ptr());
-  rec.is_complex = m.modality == "mri";
+  rec.is_complex = m.modality == Modality::kMri;
   rec.pixel_spacing_mm[0] = m.pixel_spacing_mm[0];
   rec.pixel_spacing_mm[1] = m.pixel_spacing_mm[1];
   rec.description = "unrolled reconstruction (" + model.architecture().describe() + ")";

@@ -89,7 +89,7 @@ bool is_solver_method(const std::string& method) { return parse_solver_method(me
 ImageRecord reconstruct_solver_record(const Measurement& m, const std::string& method_name, const SolveFlags& f,
                                       const CLI::App& sub, const Context& ctx) {
   const SolverMethod method = *parse_solver_method(method_name);
-  const bool mri = m.modality == "mri";
+  const bool mri = m.modality == Modality::kMri;
   std::vector<std::string> errors;
   ReconRequest req;
   req.method = method;

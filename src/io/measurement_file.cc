@@ -94,12 +94,13 @@ class Checked {
 }  // namespace
 
 void write_measurement_file(const std::string& path, const Measurement& m) {
-  if (m.modality != "mri" && m.modality != "ct")
-    throw WorkError("cannot write " + path + ": modality '" + m.modality + "' is not mri or ct");
-  if ((m.modality == "mri") != m.mri.has_value() || (m.modality == "ct") != m.ct.has_value())
-    throw WorkError("cannot write " + path + ": modality '" + m.modality + "' does not match the data present");
+  const std::string modality(to_string(m.modality));
+  if (m.modality != Modality::kMri && m.modality != Modality::kCt)
+    throw WorkError("cannot write " + path + ": modality '" + modality + "' is not mri or ct");
+  if ((m.modality == Modality::kMri) != m.mri.has_value() || (m.modality == Modality::kCt) != m.ct.has_value())
+    throw WorkError("cannot write " + path + ": modality '" + modality + "' does not match the data present");
   H5Writer w(path);
-  w.write_attr("/", "modality", m.modality);
+  w.write_attr("/", "modality", modality);
   w.write_attr("/", "image_shape", std::vector<int64_t>{static_cast<int64_t>(m.ny), static_cast<int64_t>(m.nx)});
   w.write_attr("/", "pixel_spacing_mm", std::vector<double>{m.pixel_spacing_mm[0], m.pixel_spacing_mm[1]});
   if (m.mri) {
@@ -118,8 +119,8 @@ void write_measurement_file(const std::string& path, const Measurement& m) {
     const CtData& d = *m.ct;
     w.write("/ct/sinogram", d.sinogram);
     w.write("/ct/angles_rad", to_nd(d.angles_rad));
-    w.write_attr("/ct", "geometry", d.geometry);
-    w.write_attr("/ct", "detector_shape", d.detector_shape);
+    w.write_attr("/ct", "geometry", std::string(to_string(d.beam)));
+    w.write_attr("/ct", "detector_shape", std::string(to_string(d.detector_shape)));
     w.write_attr("/ct", "detector_count", d.detector_count);
     w.write_attr("/ct", "detector_spacing_mm", d.detector_spacing_mm);
     w.write_attr("/ct", "detector_offset_mm", d.detector_offset_mm);
@@ -148,7 +149,7 @@ Measurement read_measurement_file(const std::string& path) {
   H5Reader r(path);
   Checked c(r);
   Measurement m;
-  m.modality = c.text("/", "modality", true, "", {"mri", "ct"});
+  m.modality = *parse_modality(c.text("/", "modality", true, "", {"mri", "ct"}));
   if (!r.has_attr("/", "image_shape")) c.bad("/", "attribute 'image_shape' is missing (expected [ny, nx])");
   const auto shape = r.attr_doubles("/", "image_shape");
   if (shape.size() != 2 || !(shape[0] >= 1) || !(shape[1] >= 1) || std::floor(shape[0]) != shape[0] ||
@@ -165,7 +166,7 @@ Measurement read_measurement_file(const std::string& path) {
     m.pixel_spacing_mm[1] = sp[1];
   }
 
-  if (m.modality == "mri") {
+  if (m.modality == Modality::kMri) {
     if (!r.has("/mri")) c.bad("/mri", "group is missing (modality is mri)");
     MriData d;
     const Shape ks = r.shape("/mri/kspace");
@@ -210,8 +211,8 @@ Measurement read_measurement_file(const std::string& path) {
     require_shape(angles.shape, Shape{ss[0]}, path, "/ct/angles_rad");
     require_finite(angles.ptr(), angles.size(), path, "/ct/angles_rad");
     d.angles_rad = angles.data;
-    d.geometry = c.text("/ct", "geometry", true, "", {"parallel", "fan"});
-    d.detector_shape = c.text("/ct", "detector_shape", false, "flat", {"flat", "equiangular"});
+    d.beam = *parse_ct_beam(c.text("/ct", "geometry", true, "", {"parallel", "fan"}));
+    d.detector_shape = *parse_fan_detector(c.text("/ct", "detector_shape", false, "flat", {"flat", "equiangular"}));
     d.detector_count = static_cast<int64_t>(c.number("/ct", "detector_count", false, static_cast<double>(ss[1]), 1.0));
     if (d.detector_count != ss[1])
       c.bad("/ct", "attribute 'detector_count' = " + std::to_string(d.detector_count) + " but /ct/sinogram has " +
@@ -221,7 +222,7 @@ Measurement read_measurement_file(const std::string& path) {
     d.detector_offset_mm = c.number("/ct", "detector_offset_mm", false, 0.0, -HUGE_VAL);
     d.source_to_isocenter_mm = c.number("/ct", "source_to_isocenter_mm", false, 0.0, 0.0);
     d.source_to_detector_mm = c.number("/ct", "source_to_detector_mm", false, 0.0, 0.0);
-    if (d.geometry == "fan" && !(d.source_to_isocenter_mm > 0 && d.source_to_detector_mm > d.source_to_isocenter_mm))
+    if (d.beam == CtBeam::kFan && !(d.source_to_isocenter_mm > 0 && d.source_to_detector_mm > d.source_to_isocenter_mm))
       c.bad("/ct", "fan geometry needs source_to_detector_mm > source_to_isocenter_mm > 0");
     d.photons_per_ray = c.number("/ct", "photons_per_ray", false, 0.0, 0.0);
     d.electronic_sigma = c.number("/ct", "electronic_sigma", false, 0.0, 0.0);

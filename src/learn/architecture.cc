@@ -57,7 +57,8 @@ std::vector<std::string> UnrolledArchitecture::validate() const {
   auto bad = [&](const std::string& field, const std::string& value, const std::string& rule) {
     e.push_back("model." + field + " = " + value + "; " + rule);
   };
-  if (modality != "mri" && modality != "ct") bad("modality", modality, "must be mri or ct");
+  if (modality != Modality::kMri && modality != Modality::kCt)
+    bad("modality", std::string(to_string(modality)), "must be mri or ct");
   if (ny < 8 || nx < 8 || ny > 4096 || nx > 4096)
     bad("size", std::to_string(ny) + "x" + std::to_string(nx), "each side must be in 8..4096");
   if (iterations < 1 || iterations > 50) bad("iterations", std::to_string(iterations), "must be in 1..50");
@@ -76,13 +77,13 @@ std::vector<std::string> UnrolledArchitecture::validate() const {
   }
   if (!(init_threshold > 0 && std::isfinite(init_threshold)))
     bad("init_threshold", num(init_threshold), "must be > 0");
-  if (dc == LearnedDc::kReplace && modality != "mri") bad("dc", "replace", "only for single-coil MRI");
+  if (dc == LearnedDc::kReplace && modality != Modality::kMri) bad("dc", "replace", "only for single-coil MRI");
   return e;
 }
 
 std::string UnrolledArchitecture::to_json() const {
   internal::JsonObjectWriter w;
-  w.add("modality", modality);
+  w.add("modality", std::string(to_string(modality)));
   w.add("ny", static_cast<long long>(ny));
   w.add("nx", static_cast<long long>(nx));
   w.add("iterations", iterations);
@@ -120,7 +121,9 @@ UnrolledArchitecture UnrolledArchitecture::from_json(const std::string& json, co
   for (const auto& [key, v] : doc.members) {
     if (key == "modality") {
       need(key, v, JsonValue::Kind::kString, "a string");
-      a.modality = v.text;
+      const auto parsed = parse_modality(v.text);
+      if (!parsed) throw InputError(file, field, "key 'modality' = '" + v.text + "'; expected mri or ct");
+      a.modality = *parsed;
     } else if (key == "ny") {
       a.ny = integer(key, v);
     } else if (key == "nx") {
@@ -213,7 +216,7 @@ std::string UnrolledArchitecture::describe() const {
                       : "wavelet " + wavelet + " " + std::to_string(levels) + " levels";
   std::string d = std::string(to_string(dc));
   if (dc == LearnedDc::kCg) d += "(" + std::to_string(cg_iterations) + ")";
-  return modality + " " + std::to_string(ny) + "x" + std::to_string(nx) + ", " + p + ", " +
+  return std::string(to_string(modality)) + " " + std::to_string(ny) + "x" + std::to_string(nx) + ", " + p + ", " +
          std::to_string(iterations) + " it, dc " + d;
 }
 

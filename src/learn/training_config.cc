@@ -83,13 +83,14 @@ std::vector<std::string> TrainingConditions::validate() const {
   auto bad = [&](const std::string& k, const std::string& v, const std::string& rule) {
     e.push_back("data." + k + " = " + v + "; " + rule);
   };
-  if (modality != "mri" && modality != "ct") bad("modality", modality, "must be mri or ct");
+  if (modality != Modality::kMri && modality != Modality::kCt)
+    bad("modality", std::string(to_string(modality)), "must be mri or ct");
   if (ny < 8 || nx < 8 || ny > 4096 || nx > 4096)
     bad("size", std::to_string(ny) + "x" + std::to_string(nx), "each side must be in 8..4096");
   if (families.empty()) bad("families", "[]", "must name at least one family");
   for (const auto& f : families)
     if (!parse_family(f)) bad("families", f, "must be one of " + family_names());
-  if (modality == "mri") {
+  if (modality == Modality::kMri) {
     if (patterns.empty()) bad("patterns", "[]", "must name at least one pattern");
     for (const auto& p : patterns)
       if (!parse_mask_pattern(p)) bad("patterns", p, "must be one of " + accepted_mask_patterns());
@@ -113,11 +114,11 @@ std::vector<std::string> TrainingConditions::validate() const {
 
 std::string TrainingConditions::to_json() const {
   internal::JsonObjectWriter w;
-  w.add("modality", modality);
+  w.add("modality", std::string(to_string(modality)));
   w.add("ny", static_cast<long long>(ny));
   w.add("nx", static_cast<long long>(nx));
   w.add("families", families);
-  if (modality == "mri") {
+  if (modality == Modality::kMri) {
     w.add("patterns", patterns);
     w.add("accel", std::vector<double>{accel_min, accel_max});
     w.add("center", center_fraction);
@@ -163,7 +164,9 @@ TrainingConditions TrainingConditions::from_json(const std::string& json, const 
     double a = 0, b = 0;
     if (k == "modality") {
       if (v.kind != JsonValue::Kind::kString) throw InputError(file, field, "key 'modality' must be a string");
-      c.modality = v.text;
+      const auto parsed = parse_modality(v.text);
+      if (!parsed) throw InputError(file, field, "key 'modality' = '" + v.text + "'; expected mri or ct");
+      c.modality = *parsed;
     } else if (k == "ny") {
       c.ny = static_cast<Index>(number(k, v));
     } else if (k == "nx") {
@@ -209,9 +212,12 @@ TrainingConditions TrainingConditions::from_config(const Config& t) {
   t.expect_only({"modality", "size", "families", "patterns", "accel", "center", "noise", "coils", "views",
                  "arc", "photons", "mu", "fov_mm", "truth"});
   TrainingConditions c;
-  c.modality = t.get_string("modality");
-  if (c.modality != "mri" && c.modality != "ct") throw t.error("modality", "'" + c.modality + "' must be mri or ct");
-  if (c.modality == "ct") c.families = {"ellipses"};
+  const std::string modality = t.get_string("modality");
+  const auto parsed = parse_modality(modality);
+  if (!parsed || (*parsed != Modality::kMri && *parsed != Modality::kCt))
+    throw t.error("modality", "'" + modality + "' must be mri or ct");
+  c.modality = *parsed;
+  if (c.modality == Modality::kCt) c.families = {"ellipses"};
   double lo = double(c.ny), hi = double(c.nx);
   read_range(t, "size", lo, hi);
   if (lo != std::floor(lo) || hi != std::floor(hi)) throw t.error("size", "must be whole numbers");
@@ -254,7 +260,8 @@ std::string TrainingConditions::outside(const Measurement& m) const {
     const bool noiseless = d.photons_per_ray <= 0;
     if (noiseless != (photons_max <= 0) || (!noiseless && !within(d.photons_per_ray, photons_min, photons_max)))
       out.push_back("photons " + num(d.photons_per_ray) + " outside " + range_text(photons_min, photons_max));
-    if (d.geometry != "parallel") out.push_back("geometry '" + d.geometry + "' (trained on parallel)");
+    if (d.beam != CtBeam::kParallel)
+      out.push_back("geometry '" + std::string(to_string(d.beam)) + "' (trained on parallel)");
   }
   std::string s;
   for (const auto& o : out) s += (s.empty() ? "" : "; ") + o;

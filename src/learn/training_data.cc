@@ -10,7 +10,6 @@
 #include "recofold/acquire/mri.h"
 #include "recofold/core/error.h"
 #include "recofold/core/rng.h"
-#include "recofold/ops/ct_geometry.h"
 #include "recofold/phantom/family.h"
 #include "recofold/phantom/raster.h"
 #include "recofold/sampling/mask.h"
@@ -18,8 +17,6 @@
 namespace recofold {
 
 namespace {
-
-constexpr double kPi = 3.14159265358979323846;
 
 template <typename T>
 const T& pick(const std::vector<T>& v, Rng& rng) {
@@ -43,7 +40,7 @@ Measurement draw_training_example(const TrainingConditions& c, uint64_t seed, ui
   const bool analytic = c.truth == "analytic";
 
   Measurement m;
-  if (c.modality == "mri") {
+  if (c.modality == Modality::kMri) {
     MaskOptions mo;
     mo.pattern = *parse_mask_pattern(pick(c.patterns, rng));
     mo.ny = c.ny;
@@ -62,32 +59,18 @@ Measurement draw_training_example(const TrainingConditions& c, uint64_t seed, ui
     const int views = pick_int(c.views_min, c.views_max, rng);
     const double photons =
         c.photons_max > 0 ? std::exp(rng.uniform(std::log(c.photons_min), std::log(c.photons_max))) : 0.0;
+    // Parallel beam, views equally spaced over the arc, the automatic detector
+    // of acquire (ct_simulation.h), as `recofold simulate` and studies do.
     CtSimulationOptions so;
-    CtGeometry& g = so.geometry;
-    g.beam = CtBeam::kParallel;
-    const double arc = c.arc_deg * kPi / 180.0;
-    for (int v = 0; v < views; ++v) g.angles_rad.push_back(arc * double(v) / double(views));
-    g.ny = c.ny;
-    g.nx = c.nx;
-    g.pixel_size_mm = pixel_mm;
-    g.detector_count = static_cast<Index>(std::ceil(std::sqrt(2.0) * double(std::max(c.ny, c.nx))));
-    g.detector_spacing_mm = pixel_mm;
+    so.scan.beam = CtBeam::kParallel;
+    so.scan.views = views;
+    so.scan.arc_deg = c.arc_deg;
     so.mu_per_mm = c.mu_per_mm;
     so.analytic = analytic;
     so.noisy = photons > 0;
     so.noise.photons_per_ray = photons > 0 ? photons : 1.0;
     so.seed = rng.next_u64();
-    ImageF real(c.ny, c.nx);
-    for (Index i = 0; i < image.size(); ++i) real.data()[i] = image.data()[i].real();
-    m.modality = "ct";
-    m.ny = c.ny;
-    m.nx = c.nx;
-    m.pixel_spacing_mm[0] = m.pixel_spacing_mm[1] = pixel_mm;
-    m.ct = simulate_ct(so, analytic ? &object : nullptr, real);
-    NdArray<cfloat> truth(Shape{c.ny, c.nx});
-    std::copy(image.data(), image.data() + image.size(), truth.ptr());
-    m.truth = std::move(truth);
-    m.truth_kind = c.truth;
+    m = simulate_ct(analytic ? &object : nullptr, image, pixel_mm, so);
   }
   m.provenance.command = "draw_training_example";
   m.provenance.extra["seed"] = std::to_string(seed);

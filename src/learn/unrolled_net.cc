@@ -19,12 +19,13 @@ PreparedBatch prepare_batch(const std::vector<const Measurement*>& ms, const Unr
   for (const Measurement* m : ms) {
     if (m->modality != arch.modality)
       throw InputError(file, "modality",
-                       "the model reconstructs " + arch.modality + " data, the measurement is " + m->modality);
+                       "the model reconstructs " + std::string(to_string(arch.modality)) +
+                           " data, the measurement is " + std::string(to_string(m->modality)));
     if (m->ny != arch.ny || m->nx != arch.nx)
       throw InputError(file, "image size",
                        "the model was built for " + std::to_string(arch.ny) + "x" + std::to_string(arch.nx) +
                            ", the measurement's grid is " + std::to_string(m->ny) + "x" + std::to_string(m->nx));
-    if (arch.modality == "mri") {
+    if (arch.modality == Modality::kMri) {
       if (!m->mri) throw InputError(file, "/mri", "missing MRI data");
       auto op = make_sense_operator(*m->mri, file);
       if (arch.dc == LearnedDc::kReplace && op->coils() != 1)

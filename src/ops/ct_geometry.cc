@@ -20,22 +20,6 @@ std::string num(double v) {
 }
 }  // namespace
 
-std::string_view to_string(CtBeam beam) { return beam == CtBeam::kFan ? "fan" : "parallel"; }
-
-std::optional<CtBeam> parse_ct_beam(std::string_view text) {
-  if (text == "parallel") return CtBeam::kParallel;
-  if (text == "fan") return CtBeam::kFan;
-  return std::nullopt;
-}
-
-std::string_view to_string(FanDetector shape) { return shape == FanDetector::kFlat ? "flat" : "equiangular"; }
-
-std::optional<FanDetector> parse_fan_detector(std::string_view text) {
-  if (text == "flat") return FanDetector::kFlat;
-  if (text == "equiangular") return FanDetector::kEquiangular;
-  return std::nullopt;
-}
-
 double CtGeometry::image_half_diagonal_mm() const {
   return 0.5 * pixel_size_mm * std::sqrt(double(nx) * double(nx) + double(ny) * double(ny));
 }
@@ -141,15 +125,8 @@ CtGeometry ct_geometry_from(const Measurement& m, const std::string& file) {
   if (!m.ct) throw InputError(file, "/ct", "the measurement has no CT data");
   const CtData& ct = *m.ct;
   CtGeometry g;
-  const auto beam = parse_ct_beam(ct.geometry);
-  if (!beam) throw InputError(file, "/ct/geometry", "'" + ct.geometry + "'; expected parallel or fan");
-  g.beam = *beam;
-  if (g.beam == CtBeam::kFan) {
-    const auto shape = parse_fan_detector(ct.detector_shape);
-    if (!shape)
-      throw InputError(file, "/ct/detector_shape", "'" + ct.detector_shape + "'; expected flat or equiangular");
-    g.fan_detector = *shape;
-  }
+  g.beam = ct.beam;
+  if (g.beam == CtBeam::kFan) g.fan_detector = ct.detector_shape;
   g.angles_rad = ct.angles_rad;
   g.detector_count = ct.detector_count;
   g.detector_spacing_mm = ct.detector_spacing_mm;
@@ -177,8 +154,8 @@ CtGeometry ct_geometry_from(const Measurement& m, const std::string& file) {
 }
 
 void store_geometry(const CtGeometry& g, CtData& ct) {
-  ct.geometry = std::string(to_string(g.beam));
-  ct.detector_shape = std::string(to_string(g.fan_detector));
+  ct.beam = g.beam;
+  ct.detector_shape = g.fan_detector;
   ct.angles_rad = g.angles_rad;
   ct.detector_count = g.detector_count;
   ct.detector_spacing_mm = g.detector_spacing_mm;

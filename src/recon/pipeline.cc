@@ -266,10 +266,10 @@ int default_iterations(SolverMethod method) {
   return 60;
 }
 
-std::vector<std::string> ReconRequest::validate(const std::string& modality, const Shape& image_shape) const {
+std::vector<std::string> ReconRequest::validate(Modality modality, const Shape& image_shape) const {
   std::vector<std::string> e;
-  if (modality != "mri" && modality != "ct")
-    e.push_back("--meas: modality '" + modality + "'; expected mri or ct");
+  if (modality != Modality::kMri && modality != Modality::kCt)
+    e.push_back("--meas: modality '" + std::string(to_string(modality)) + "'; expected mri or ct");
   if (iterations < 0)
     e.push_back("--iters = " + std::to_string(iterations) + "; must be >= 1 (0: the method's default)");
   for (const std::string& s : check_method_prior(method, prior.kind)) e.push_back(s);
@@ -304,7 +304,7 @@ ReconResult reconstruct_measurement(const Measurement& m, const ReconRequest& re
       throw InputError(file, field, reason);
     }
   }
-  const bool mri = m.modality == "mri";
+  const bool mri = m.modality == Modality::kMri;
   if (mri && !m.mri) throw InputError(file, "/mri", "MRI measurement without MRI data");
   if (!mri && !m.ct) throw InputError(file, "/ct", "CT measurement without CT data");
 

@@ -29,7 +29,7 @@ ImageC zero_filled(const MriData& mri, CoilCombine combine, const std::string& f
     throw InputError(file, "/mri/coil_maps", "shape " + mri.coil_maps.shape.to_string() + ", k-space is " +
                                                  mri.kspace.shape.to_string());
   if (combine == CoilCombine::kSensitivity && !have_maps && c_count > 1)
-    throw InputError(file, "/mri/coil_maps", "--combine sense needs coil maps; use --combine sos");
+    throw InputError(file, "/mri/coil_maps", "the sensitivity-weighted combination (sense) needs coil maps; use sos");
   NdArray<cfloat> images = mri.kspace;
   for (Index c = 0; c < c_count; ++c)  // zero-fill: only sampled points count
     for (Index i = 0; i < n; ++i)

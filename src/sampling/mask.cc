@@ -8,6 +8,7 @@
 #include <sstream>
 
 #include "recofold/core/error.h"
+#include "recofold/core/field_error.h"
 #include "recofold/core/rng.h"
 
 namespace recofold {
@@ -86,7 +87,7 @@ void fill_lines(const MaskOptions& o, SamplingMask& out) {
   const Index lines = target_samples(ny, o.acceleration);
   const Index nc = static_cast<Index>(std::llround(o.center_fraction * static_cast<double>(ny)));
   if (nc > lines)
-    throw InputError("", "--center",
+    throw InputError("", "mask.center",
                      "a centre of " + std::to_string(nc) + " lines exceeds the " + std::to_string(lines) +
                          " lines that R = " + fmt(o.acceleration) + " allows at ny = " + std::to_string(ny));
   const Index c0 = centre_start(ny, nc);
@@ -139,7 +140,7 @@ void fill_points(const MaskOptions& o, SamplingMask& out) {
   const Index n = target_samples(o.ny * o.nx, o.acceleration);
   const auto [by, bx] = fill_centre_block(o, out.mask);
   if (by * bx > n)
-    throw InputError("", "--center",
+    throw InputError("", "mask.center",
                      "a centre block of " + std::to_string(by) + "x" + std::to_string(bx) + " exceeds the " +
                          std::to_string(n) + " samples that R = " + fmt(o.acceleration) + " allows");
   std::vector<Index> cand;
@@ -227,7 +228,7 @@ void fill_poisson(const MaskOptions& o, SamplingMask& out) {
   NdArray<uint8_t> block(Shape{ny, nx}, 0);
   const auto [by, bx] = fill_centre_block(o, block);
   if (by * bx > n)
-    throw InputError("", "--center",
+    throw InputError("", "mask.center",
                      "a centre block of " + std::to_string(by) + "x" + std::to_string(bx) + " exceeds the " +
                          std::to_string(n) + " samples that R = " + fmt(o.acceleration) + " allows");
   std::vector<float> growth(static_cast<size_t>(ny * nx));
@@ -266,7 +267,7 @@ void fill_poisson(const MaskOptions& o, SamplingMask& out) {
     PoissonResult r = poisson_disc(o, 0.5, growth);
     const Index c = union_count(r.points);
     if (c < n)
-      throw InputError("", "--accel",
+      throw InputError("", "mask.accel",
                        "poisson-disc cannot reach R = " + fmt(o.acceleration) + " on this grid (densest pattern gives R = " +
                            fmt(static_cast<double>(ny * nx) / static_cast<double>(c)) + ")");
     best = std::move(r);
@@ -354,7 +355,7 @@ void fill_radial(const MaskOptions& o, SamplingMask& out) {
       if (covered() >= n) break;
     }
     if (s > max_spokes)
-      throw InputError("", "--accel",
+      throw InputError("", "mask.accel",
                        "radial spokes cover at most " + std::to_string(covered()) + " of " + std::to_string(ny * nx) +
                            " points (R >= " + fmt(static_cast<double>(ny * nx) / static_cast<double>(covered())) +
                            "); R = " + fmt(o.acceleration) + " is not reachable");
@@ -426,15 +427,7 @@ std::vector<std::string> MaskOptions::validate() const {
 }
 
 SamplingMask make_mask(const MaskOptions& o) {
-  const auto errors = o.validate();
-  if (!errors.empty()) {
-    std::string all;
-    for (const auto& e : errors) all += (all.empty() ? "" : "; ") + e;
-    // Name the flag of the first problem; the message lists all of them.
-    const std::string& first = errors.front();
-    std::string field = "--" + first.substr(0, first.find(' '));
-    throw InputError("", field, all);
-  }
+  throw_if_invalid(parse_field_messages(o.validate(), "mask."));
   SamplingMask out;
   out.mask = NdArray<uint8_t>(Shape{o.ny, o.nx}, 0);
   out.pattern = std::string(to_string(o.pattern));

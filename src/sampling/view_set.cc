@@ -118,9 +118,11 @@ CtProtocol load_ct_protocol(const std::string& path) {
   const auto o = parse_view_order(order);
   if (!o) throw cfg.error("order", "'" + order + "'; expected sequential or golden");
   p.views.order = *o;
-  p.geometry = cfg.get_string_or("geometry", "");
-  if (!p.geometry.empty() && p.geometry != "parallel" && p.geometry != "fan")
-    throw cfg.error("geometry", "'" + p.geometry + "'; expected parallel or fan");
+  if (cfg.has("geometry")) {
+    const std::string geometry = cfg.get_string("geometry");
+    p.beam = parse_ct_beam(geometry);
+    if (!p.beam) throw cfg.error("geometry", "'" + geometry + "'; expected parallel or fan");
+  }
   return p;
 }
 

@@ -12,7 +12,7 @@
 namespace recofold {
 
 std::string Acquisition::key() const {
-  if (modality == "mri")
+  if (modality == Modality::kMri)
     return "mri/" + pattern + "/R" + format_number(accel) + "/c" + std::to_string(coils) + "/s" +
            format_number(noise);
   return "ct/v" + std::to_string(views) + "/a" + format_number(arc) + "/p" + format_number(photons);
@@ -24,7 +24,7 @@ const std::vector<std::string>& acquisition_axes() {
 }
 
 std::string axis_value(const Acquisition& a, const std::string& axis) {
-  if (a.modality == "mri") {
+  if (a.modality == Modality::kMri) {
     if (axis == "pattern") return a.pattern;
     if (axis == "accel") return format_number(a.accel);
     if (axis == "coils") return std::to_string(a.coils);
@@ -45,7 +45,7 @@ std::vector<Acquisition> expand_acquisitions(const StudyConfig& c) {
         for (int coils : c.mri->coils)
           for (double s : c.mri->noise_sigmas) {
             Acquisition a;
-            a.modality = "mri";
+            a.modality = Modality::kMri;
             a.pattern = p;
             a.accel = r;
             a.coils = coils;
@@ -57,7 +57,7 @@ std::vector<Acquisition> expand_acquisitions(const StudyConfig& c) {
       for (double arc : c.ct->arcs_deg)
         for (double ph : c.ct->photons) {
           Acquisition a;
-          a.modality = "ct";
+          a.modality = Modality::kCt;
           a.views = v;
           a.arc = arc;
           a.photons = ph;

@@ -68,7 +68,7 @@ ImageF image_of(const ImageC& x, bool magnitude) {
 // the iteration count of the final solve.
 ImageF run_solver(const StudyMethod& method, const Measurement& m, double lambda, double* lambda_used,
                   int* iterations) {
-  const bool mri = m.modality == "mri";
+  const bool mri = m.modality == Modality::kMri;
   std::unique_ptr<LinearOperator> op;
   VecC y;
   if (mri) {
@@ -183,7 +183,7 @@ CaseMeasurement simulate_case_measurement(const StudyConfig& config, const Study
   const ImageC raster = rasterize(phantom, ny, nx);
   const double pixel = phantom.fov_mm / double(nx);
   CaseMeasurement out;
-  if (acq.modality == "mri") {
+  if (acq.modality == Modality::kMri) {
     MaskOptions mo;
     mo.pattern = *parse_mask_pattern(acq.pattern);
     mo.ny = ny;
@@ -199,34 +199,19 @@ CaseMeasurement simulate_case_measurement(const StudyConfig& config, const Study
     out.measurement = simulate_mri(&phantom, raster, pixel, mask, so);
     out.truth = image_of(raster, true);
   } else {
-    CtGeometry g;
-    g.beam = CtBeam::kParallel;
-    g.angles_rad = equally_spaced_views(acq.views, acq.arc);
-    g.ny = ny;
-    g.nx = nx;
-    g.pixel_size_mm = pixel;
-    g.detector_count = static_cast<Index>(std::ceil(std::sqrt(2.0) * double(std::max(ny, nx))));
-    g.detector_spacing_mm = pixel;
+    // Parallel beam, views equally spaced over the arc, acquire's automatic
+    // detector (ct_simulation.h), as `recofold simulate` does.
     CtSimulationOptions so;
-    so.geometry = g;
+    so.scan.beam = CtBeam::kParallel;
+    so.scan.views = acq.views;
+    so.scan.arc_deg = acq.arc;
     so.mu_per_mm = config.ct->mu_per_mm;
     so.analytic = true;
     so.noisy = acq.photons > 0.0;
     so.noise.photons_per_ray = acq.photons > 0.0 ? acq.photons : 1.0;
     so.seed = noise_seed;
-    const ImageF real = image_of(raster, false);
-    Measurement m;
-    m.modality = "ct";
-    m.ny = ny;
-    m.nx = nx;
-    m.pixel_spacing_mm[0] = m.pixel_spacing_mm[1] = pixel;
-    m.ct = simulate_ct(so, &phantom, real);
-    NdArray<cfloat> truth(Shape{Index(ny), Index(nx)});
-    for (Index k = 0; k < Index(ny) * nx; ++k) truth.data[size_t(k)] = cfloat(real.data()[k], 0.0f);
-    m.truth = std::move(truth);
-    m.truth_kind = "analytic";
-    out.measurement = std::move(m);
-    out.truth = real;
+    out.measurement = simulate_ct(&phantom, raster, pixel, so);
+    out.truth = image_of(raster, false);
   }
   if (config.region_radius > 0.0) out.region = disc_region(ny, nx, config.region_radius);
   return out;
@@ -248,7 +233,7 @@ CaseOutcome run_case_method(const StudyMethod& method, const CaseMeasurement& da
       out.image = fbp(m, o);
     } else if (method.method == "unrolled") {
       if (learned == nullptr) throw WorkError("learned method '" + method.name + "' has no model loaded");
-      out.image = image_of(learned->reconstruct(method.name, m, &out.outside), m.modality == "mri");
+      out.image = image_of(learned->reconstruct(method.name, m, &out.outside), m.modality == Modality::kMri);
       out.in_training = out.outside.empty() ? "yes" : "no";
     } else {
       const std::vector<double> lambdas =

@@ -33,8 +33,8 @@ void check_fits(const UnrolledModel& model, const StudyMethod& m, const StudyCon
   const UnrolledArchitecture& a = model.architecture();
   if (!m.applies_to(a.modality))
     throw InputError(c.file, "method.modality",
-                     "method '" + m.name + "' runs on " + m.modalities.front() + " but model '" + path + "' is for " +
-                         a.modality,
+                     "method '" + m.name + "' runs on " + std::string(to_string(m.modalities.front())) +
+                         " but model '" + path + "' is for " + std::string(to_string(a.modality)),
                      m.line);
   if (a.ny != c.ny || a.nx != c.nx)
     throw InputError(c.file, "size",
@@ -61,9 +61,9 @@ void LearnedModelSet::prepare(const StudyConfig& config, const std::string& out_
     if (m.train_steps > 0) tc.train.steps = m.train_steps;
     if (tc.data.modality != m.modalities.front() || tc.data.ny != config.ny || tc.data.nx != config.nx)
       throw InputError(m.train_config, "data",
-                       "trains a " + tc.data.modality + " model of " + std::to_string(tc.data.ny) + "x" +
+                       "trains a " + std::string(to_string(tc.data.modality)) + " model of " + std::to_string(tc.data.ny) + "x" +
                            std::to_string(tc.data.nx) + " but method '" + m.name + "' of the study needs " +
-                           m.modalities.front() + " at " + std::to_string(config.ny) + "x" +
+                           std::string(to_string(m.modalities.front())) + " at " + std::to_string(config.ny) + "x" +
                            std::to_string(config.nx));
     const std::string dir = out_dir + "/models";
     ::mkdir(out_dir.c_str(), 0777);

@@ -73,7 +73,7 @@ struct Lookup {
   const SummaryRow* find(const Acquisition& a, const std::string& method) const {
     std::vector<std::string> axes;
     for (const auto& n : acquisition_axes()) axes.push_back(axis_value(a, n));
-    const auto it = rows.find(id(a.modality, method, axes));
+    const auto it = rows.find(id(std::string(to_string(a.modality)), method, axes));
     return it == rows.end() ? nullptr : it->second;
   }
 };
@@ -145,10 +145,10 @@ std::string write_study_report(const ReportInputs& in) {
   for (const std::string modality : {"mri", "ct"}) {
     std::vector<const Acquisition*> acqs;
     for (const Acquisition& a : grid.acquisitions)
-      if (a.modality == modality) acqs.push_back(&a);
+      if (to_string(a.modality) == modality) acqs.push_back(&a);
     std::vector<const StudyMethod*> methods;
     for (const StudyMethod& m : c.methods)
-      if (m.applies_to(modality)) methods.push_back(&m);
+      if (m.applies_to(*parse_modality(modality))) methods.push_back(&m);
     if (acqs.empty() || methods.empty()) continue;
     h += std::string("<h2>") + (modality == "mri" ? "MRI" : "CT") + " protocols</h2>\n";
 

@@ -123,18 +123,20 @@ StudyMethod parse_method(const Config& t, const std::string& base_dir) {
   if (!parse_fbp_filter(m.filter)) throw t.error("filter", "'" + m.filter + "'; expected " + fbp_filter_names());
   if (t.has("modality")) {
     const std::string mod = t.get_string("modality");
-    if (mod != "mri" && mod != "ct") throw t.error("modality", "'" + mod + "'; expected mri or ct");
-    if ((m.method == "zero-filled" && mod != "mri") || (m.method == "fbp" && mod != "ct"))
+    const auto parsed = parse_modality(mod);
+    if (!parsed || (*parsed != Modality::kMri && *parsed != Modality::kCt))
+      throw t.error("modality", "'" + mod + "'; expected mri or ct");
+    if ((m.method == "zero-filled" && *parsed != Modality::kMri) || (m.method == "fbp" && *parsed != Modality::kCt))
       throw t.error("modality", "method " + m.method + " does not run on " + mod);
-    m.modalities = {mod};
+    m.modalities = {*parsed};
   } else if (m.method == "zero-filled") {
-    m.modalities = {"mri"};
+    m.modalities = {Modality::kMri};
   } else if (m.method == "fbp") {
-    m.modalities = {"ct"};
+    m.modalities = {Modality::kCt};
   } else if (m.method == "unrolled") {
     throw t.error("modality", "missing; an unrolled method needs modality = \"mri\" or \"ct\"");
   } else {
-    m.modalities = {"mri", "ct"};
+    m.modalities = {Modality::kMri, Modality::kCt};
   }
   m.name = t.get_string_or("name", m.prior == "none" ? m.method : m.method + "-" + m.prior);
   if (m.name.empty() || m.name.find_first_of(",|\"\n/") != std::string::npos)
@@ -163,7 +165,7 @@ StudyMethod parse_method(const Config& t, const std::string& base_dir) {
 
 }  // namespace
 
-bool StudyMethod::applies_to(const std::string& modality) const {
+bool StudyMethod::applies_to(Modality modality) const {
   return std::find(modalities.begin(), modalities.end(), modality) != modalities.end();
 }
 
@@ -308,12 +310,13 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
     for (const StudyMethod& o : c.methods)
       for (const auto& mod : m.modalities)
         if (o.name == m.name && o.applies_to(mod))
-          throw t.error("name", "'" + m.name + "' is used twice for " + mod + "; give the methods distinct names");
+          throw t.error("name", "'" + m.name + "' is used twice for " + std::string(to_string(mod)) +
+                                    "; give the methods distinct names");
     c.methods.push_back(std::move(m));
   }
   bool any = false;
   for (const StudyMethod& m : c.methods)
-    any = any || (c.mri && m.applies_to("mri")) || (c.ct && m.applies_to("ct"));
+    any = any || (c.mri && m.applies_to(Modality::kMri)) || (c.ct && m.applies_to(Modality::kCt));
   if (!any) throw root.error("method", "empty grid: no method runs on the given protocols");
 
   // Hash: config text plus the bytes of every file it names.

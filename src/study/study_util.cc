@@ -1,5 +1,5 @@
 // SPDX-License-Identifier: Apache-2.0
-// Hashing, number text, CSV fields and base64 for the study module.
+// CSV fields, base64 and HTML escaping for the study module.
 #include "study_util.h"
 
 #include <cmath>
@@ -7,40 +7,6 @@
 #include <cstdlib>
 
 namespace recofold {
-
-uint64_t fnv1a(const std::string& text) {
-  uint64_t h = 1469598103934665603ull;
-  for (unsigned char c : text) {
-    h ^= c;
-    h *= 1099511628211ull;
-  }
-  return h;
-}
-
-std::string fnv1a_hex(const std::string& text) {
-  char buf[17];
-  std::snprintf(buf, sizeof buf, "%016llx", static_cast<unsigned long long>(fnv1a(text)));
-  return buf;
-}
-
-std::string format_number(double v) {
-  if (std::isnan(v)) return "nan";
-  if (std::isinf(v)) return v > 0 ? "inf" : "-inf";
-  char buf[64];
-  for (int digits = 6; digits <= 17; ++digits) {
-    std::snprintf(buf, sizeof buf, "%.*g", digits, v);
-    if (std::strtod(buf, nullptr) == v) break;
-  }
-  return buf;
-}
-
-std::string format_sig(double v, int digits) {
-  if (std::isnan(v)) return "nan";
-  if (std::isinf(v)) return v > 0 ? "inf" : "-inf";
-  char buf[64];
-  std::snprintf(buf, sizeof buf, "%.*g", digits, v);
-  return buf;
-}
 
 std::string csv_field(const std::string& s) {
   if (s.find_first_of(",\"\n\r") == std::string::npos) return s;

@@ -1,21 +1,16 @@
 // SPDX-License-Identifier: Apache-2.0
-// Small helpers shared by the study sources: hashing, number text, CSV fields, base64 (private).
+// Small helpers shared by the study sources: CSV fields, base64, HTML escaping (private).
 #pragma once
 
 #include <cstdint>
 #include <string>
 #include <vector>
 
+// Hashing and number text come from core (core/hash.h, core/number_format.h).
+#include "recofold/core/hash.h"
+#include "recofold/core/number_format.h"
+
 namespace recofold {
-
-// FNV-1a 64-bit of `text`, and as 16 hex digits.
-uint64_t fnv1a(const std::string& text);
-std::string fnv1a_hex(const std::string& text);
-
-// Shortest round-trip-safe text of a number for keys and CSV cells ("4", "0.01", "1e+05").
-std::string format_number(double v);
-// Fixed significant digits (CSV metric cells, report tables).
-std::string format_sig(double v, int digits);
 
 // CSV: quote a field when it holds a comma, quote or newline; split one line.
 std::string csv_field(const std::string& s);

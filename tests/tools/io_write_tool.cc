@@ -66,7 +66,7 @@ int main(int argc, char** argv) {
     if (mode == "mri" && argc == 7) {
       const Index coils = arg_int(argv[3]), ny = arg_int(argv[4]), nx = arg_int(argv[5]);
       Measurement m;
-      m.modality = "mri";
+      m.modality = Modality::kMri;
       m.ny = ny;
       m.nx = nx;
       MriData d;
@@ -90,13 +90,13 @@ int main(int argc, char** argv) {
     if (mode == "ct" && argc == 6) {
       const Index views = arg_int(argv[3]), dets = arg_int(argv[4]);
       Measurement m;
-      m.modality = "ct";
+      m.modality = Modality::kCt;
       m.ny = m.nx = dets;
       CtData d;
       d.sinogram = NdArray<float>(Shape{views, dets});
       d.sinogram.data = read_raw<float>(argv[2], static_cast<size_t>(views * dets));
       for (Index v = 0; v < views; ++v) d.angles_rad.push_back(M_PI * static_cast<double>(v) / views);
-      d.geometry = "parallel";
+      d.beam = CtBeam::kParallel;
       d.detector_count = dets;
       d.photons_per_ray = 1e5;
       m.ct = d;

@@ -85,7 +85,7 @@ int main(int argc, char** argv) {
   for (int64_t i = 0; i < n * n; ++i) mask.data[static_cast<size_t>(i)] = centred.view(-1)[i].item<float>() > 0.5f;
 
   UnrolledArchitecture arch;
-  arch.modality = "mri";
+  arch.modality = Modality::kMri;
   arch.ny = arch.nx = n;
   arch.iterations = 5;
   arch.prior = LearnedPriorKind::kCnn;

@@ -8,6 +8,7 @@
 #include "recofold/acquire/ct_noise.h"
 #include "recofold/acquire/ct_simulation.h"
 #include "recofold/core/error.h"
+#include "recofold/core/field_error.h"
 #include "recofold/ops/joseph_projector.h"
 #include "recofold/phantom/raster.h"
 #include "unit/ct_ellipse_phantom.h"
@@ -88,14 +89,18 @@ TEST(TransmissionNoise, RejectsNegativePhotonsAndSigma) {
   EXPECT_THROW(add_transmission_noise(o, s.data(), 2, 2, 1), InputError);
 }
 
-CtGeometry small_parallel(Index n) {
-  CtGeometry g;
-  g.ny = g.nx = n;
-  g.pixel_size_mm = 2.0;
-  for (int i = 0; i < 90; ++i) g.angles_rad.push_back(M_PI * i / 90);
-  g.detector_count = static_cast<Index>(std::ceil(std::sqrt(2.0) * n));
-  g.detector_spacing_mm = 2.0;
-  return g;
+// 90 parallel views over 180 degrees and acquire's automatic detector
+// (ceil(sqrt(2) n) elements of one pixel).
+CtSimulationOptions small_parallel() {
+  CtSimulationOptions o;
+  o.scan.views = 90;
+  return o;
+}
+
+ImageC complex_of(const ImageF& real) {
+  ImageC out(real.rows(), real.cols());
+  for (Index k = 0; k < real.size(); ++k) out.data()[k] = cfloat(real.data()[k], 0.0f);
+  return out;
 }
 
 Phantom disk_phantom(double fov) {
@@ -109,23 +114,59 @@ Phantom disk_phantom(double fov) {
 }
 
 TEST(CtSimulation, AutomaticMuGivesLargestLineIntegralFour) {
-  CtSimulationOptions o;
-  o.geometry = small_parallel(64);
   const Phantom p = disk_phantom(128.0);
-  const CtData ct = simulate_ct(o, &p, ImageF());
+  const Measurement m = simulate_ct(&p, rasterize(p, 64, 64), 2.0, small_parallel());
+  ASSERT_TRUE(m.ct.has_value());
+  const CtData& ct = *m.ct;
   // Disk of radius 0.7 * 64 mm: largest chord 89.6 mm.
   EXPECT_NEAR(ct.mu_per_mm, 4.0 / 89.6, 1e-4);
   EXPECT_NEAR(*std::max_element(ct.sinogram.data.begin(), ct.sinogram.data.end()), 4.0, 1e-3);
   EXPECT_EQ(ct.numbers.at("mu_automatic"), 1.0);
   EXPECT_EQ(ct.sinogram.shape, (Shape{90, ct.detector_count}));
+  // The whole record: modality, grid, automatic detector, truth.
+  EXPECT_EQ(m.modality, Modality::kCt);
+  EXPECT_EQ(m.ny, 64);
+  EXPECT_EQ(ct.detector_count, 91);  // ceil(sqrt(2) 64)
+  EXPECT_DOUBLE_EQ(ct.detector_spacing_mm, 2.0);
+  ASSERT_TRUE(m.truth.has_value());
+  EXPECT_EQ(m.truth_kind, "analytic");
+}
+
+TEST(CtScan, AutomaticFanGeometryAndFieldPathErrors) {
+  CtScan scan;
+  scan.beam = CtBeam::kFan;
+  scan.views = 36;
+  const CtGeometry g = make_ct_geometry(scan, 64, 64, 2.0);
+  EXPECT_NEAR(g.angles_rad.back(), 2.0 * M_PI * 35.0 / 36.0, 1e-12);  // automatic arc: 360 degrees for fan
+  EXPECT_DOUBLE_EQ(g.source_to_isocenter_mm, 256.0);                   // 2 x field of view
+  EXPECT_DOUBLE_EQ(g.source_to_detector_mm, 512.0);                    // 2 x source distance
+  EXPECT_DOUBLE_EQ(g.detector_spacing_mm, 4.0);                        // one pixel at the isocentre
+  scan.detector_count = -3;
+  scan.arc_deg = 400.0;
+  try {
+    make_ct_geometry(scan, 64, 64, 2.0);
+    ADD_FAILURE() << "no error";
+  } catch (const InvalidFields& e) {
+    ASSERT_EQ(e.errors().size(), 2u) << e.what();
+    EXPECT_EQ(e.errors()[0].field, "ct.arc_deg");
+    EXPECT_EQ(e.errors()[1].field, "ct.detector_count");
+  }
+  scan = CtScan{};
+  scan.beam = CtBeam::kFan;
+  scan.source_to_isocenter_mm = 10.0;  // inside the image
+  try {
+    make_ct_geometry(scan, 64, 64, 2.0);
+    ADD_FAILURE() << "no error";
+  } catch (const InvalidFields& e) {
+    EXPECT_EQ(e.field(), "ct.source_to_isocenter_mm") << e.what();
+  }
 }
 
 TEST(CtSimulation, DiscreteTruthAgreesWithAnalyticWithinTwoPercent) {
-  CtSimulationOptions o;
-  o.geometry = small_parallel(64);
+  CtSimulationOptions o = small_parallel();
   o.mu_per_mm = 0.02;
   const Phantom p = disk_phantom(128.0);
-  const CtData exact = simulate_ct(o, &p, ImageF());
+  const Measurement exact = simulate_ct(&p, rasterize(p, 64, 64), 2.0, o);
   // Raster: area fraction of each 2 mm pixel inside the disk (16x16 samples).
   ImageF raster(64, 64);
   for (Index iy = 0; iy < 64; ++iy)
@@ -139,32 +180,31 @@ TEST(CtSimulation, DiscreteTruthAgreesWithAnalyticWithinTwoPercent) {
       raster(iy, ix) = in / 256.0f;
     }
   o.analytic = false;
-  const CtData discrete = simulate_ct(o, nullptr, raster);
+  const Measurement discrete = simulate_ct(nullptr, complex_of(raster), 2.0, o);
   double num = 0, den = 0;
-  for (size_t k = 0; k < exact.sinogram.data.size(); ++k) {
-    const double d = discrete.sinogram.data[k] - exact.sinogram.data[k];
+  for (size_t k = 0; k < exact.ct->sinogram.data.size(); ++k) {
+    const double d = discrete.ct->sinogram.data[k] - exact.ct->sinogram.data[k];
     num += d * d;
-    den += double(exact.sinogram.data[k]) * exact.sinogram.data[k];
+    den += double(exact.ct->sinogram.data[k]) * exact.ct->sinogram.data[k];
   }
   EXPECT_LT(std::sqrt(num / den), 0.02);
-  EXPECT_EQ(discrete.texts.at("sinogram_source"), "discrete");
+  EXPECT_EQ(discrete.ct->texts.at("sinogram_source"), "discrete");
+  EXPECT_EQ(discrete.truth_kind, "discrete");
 }
 
 TEST(CtSimulation, NoisySinogramRecordsPhotonsAndStaysNearNoiseless) {
-  CtSimulationOptions o;
-  o.geometry = small_parallel(32);
-  o.geometry.pixel_size_mm = 4.0;
-  o.geometry.detector_spacing_mm = 4.0;
+  CtSimulationOptions o = small_parallel();
   const Phantom p = disk_phantom(128.0);
-  const CtData clean = simulate_ct(o, &p, ImageF());
+  const ImageC raster = rasterize(p, 32, 32);
+  const Measurement clean = simulate_ct(&p, raster, 4.0, o);
   o.noisy = true;
   o.noise.photons_per_ray = 1e5;
   o.seed = 3;
-  const CtData noisy = simulate_ct(o, &p, ImageF());
-  EXPECT_EQ(noisy.photons_per_ray, 1e5);
+  const Measurement noisy = simulate_ct(&p, raster, 4.0, o);
+  EXPECT_EQ(noisy.ct->photons_per_ray, 1e5);
   double worst = 0;
-  for (size_t k = 0; k < clean.sinogram.data.size(); ++k)
-    worst = std::max(worst, double(std::abs(noisy.sinogram.data[k] - clean.sinogram.data[k])));
+  for (size_t k = 0; k < clean.ct->sinogram.data.size(); ++k)
+    worst = std::max(worst, double(std::abs(noisy.ct->sinogram.data[k] - clean.ct->sinogram.data[k])));
   // At p <= 4 a ray keeps >= 1800 counts: 6 sigma of the log is below 0.15.
   EXPECT_LT(worst, 0.15);
   EXPECT_GT(worst, 0.0);
@@ -186,30 +226,26 @@ TEST(CtSimulation, ProjectedHeadRasterMatchesPhantomLineIntegralsWithinTwoPercen
     head.components.push_back(c);
   }
   CtSimulationOptions o;
-  o.geometry.ny = o.geometry.nx = 256;
-  o.geometry.pixel_size_mm = 1.0;
-  for (int i = 0; i < 180; ++i) o.geometry.angles_rad.push_back(M_PI * i / 180);
-  o.geometry.detector_count = 256;
-  o.geometry.detector_spacing_mm = 1.0;
+  for (int i = 0; i < 180; ++i) o.scan.angles_rad.push_back(M_PI * i / 180);
+  o.scan.detector_count = 256;
   o.mu_per_mm = 1.0;
-  const CtData exact = simulate_ct(o, &head, ImageF());
+  const ImageC raster = rasterize(head, 256, 256);
+  const Measurement exact = simulate_ct(&head, raster, 1.0, o);
   o.analytic = false;
-  const CtData projected = simulate_ct(o, nullptr, real_part(rasterize(head, 256, 256)));
+  const Measurement projected = simulate_ct(nullptr, raster, 1.0, o);
   double num = 0, den = 0;
-  for (size_t k = 0; k < exact.sinogram.data.size(); ++k) {
-    const double d = projected.sinogram.data[k] - exact.sinogram.data[k];
+  for (size_t k = 0; k < exact.ct->sinogram.data.size(); ++k) {
+    const double d = projected.ct->sinogram.data[k] - exact.ct->sinogram.data[k];
     num += d * d;
-    den += double(exact.sinogram.data[k]) * exact.sinogram.data[k];
+    den += double(exact.ct->sinogram.data[k]) * exact.ct->sinogram.data[k];
   }
   EXPECT_LT(std::sqrt(num / den), 0.02);
   RecordProperty("relative_l2", std::to_string(std::sqrt(num / den)));
 }
 
 TEST(CtSimulation, RejectsPhantomWhoseFieldOfViewDiffersFromGrid) {
-  CtSimulationOptions o;
-  o.geometry = small_parallel(64);
   const Phantom p = disk_phantom(256.0);
-  EXPECT_THROW(simulate_ct(o, &p, ImageF()), InputError);
+  EXPECT_THROW(simulate_ct(&p, rasterize(p, 64, 64), 2.0, small_parallel()), InputError);
 }
 
 }  // namespace

@@ -240,7 +240,7 @@ TEST(MriSimulation, SameSeedSameNoise) {
   EXPECT_NE(simulate_mri(&p, raster, 1.0, full_mask(32, 32), o).mri->kspace.data, a.mri->kspace.data);
 }
 
-TEST(MriSimulation, RejectsBadInputNamingTheFlag) {
+TEST(MriSimulation, RejectsBadInputNamingTheFieldPath) {
   const Phantom p = shepp_logan_modified();
   const ImageC raster = rasterize(p, 32, 32);
   auto field_of = [&](const SamplingMask& mask, const MriSimulationOptions& o, const Phantom* ph) {
@@ -252,16 +252,16 @@ TEST(MriSimulation, RejectsBadInputNamingTheFlag) {
     return std::string("no error");
   };
   MriSimulationOptions o;
-  EXPECT_EQ(field_of(full_mask(32, 31), o, &p), "--mask");
+  EXPECT_EQ(field_of(full_mask(32, 31), o, &p), "mask");
   o.coil_array.coils = 0;
-  EXPECT_EQ(field_of(full_mask(32, 32), o, &p), "--coils");
+  EXPECT_EQ(field_of(full_mask(32, 32), o, &p), "mri.coils");
   o = MriSimulationOptions{};
   o.noise_sigma = -1;
-  EXPECT_EQ(field_of(full_mask(32, 32), o, &p), "--noise");
+  EXPECT_EQ(field_of(full_mask(32, 32), o, &p), "mri.noise_sigma");
   o = MriSimulationOptions{};
-  EXPECT_EQ(field_of(full_mask(32, 32), o, nullptr), "--truth");
+  EXPECT_EQ(field_of(full_mask(32, 32), o, nullptr), "truth");
   o.coil_correlation = 1.0;
-  EXPECT_EQ(field_of(full_mask(32, 32), o, &p), "--coil-correlation");
+  EXPECT_EQ(field_of(full_mask(32, 32), o, &p), "mri.coil_correlation");
 }
 
 }  // namespace

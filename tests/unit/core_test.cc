@@ -11,6 +11,10 @@
 #include "recofold/core/checks.h"
 #include "recofold/core/config.h"
 #include "recofold/core/error.h"
+#include "recofold/core/field_error.h"
+#include "recofold/core/hash.h"
+#include "recofold/core/measurement.h"
+#include "recofold/core/number_format.h"
 #include "recofold/core/progress.h"
 #include "recofold/core/rng.h"
 
@@ -185,4 +189,59 @@ TEST(StreamProgress, LinesModeReportsTimeLeft) {
   EXPECT_NE(s.find("left"), std::string::npos);
   EXPECT_NE(s.find("10/10"), std::string::npos);
   EXPECT_NE(s.find("done in"), std::string::npos);
+}
+
+TEST(FieldError, ParsesOptionMessagesAndPrefixesThePath) {
+  const FieldError a = parse_field_message("levels = 9; must be 1..6 for 64x64", "prior.wavelet.");
+  EXPECT_EQ(a.field, "prior.wavelet.levels");
+  EXPECT_EQ(a.value, "9");
+  EXPECT_EQ(a.rule, "must be 1..6 for 64x64");
+  EXPECT_EQ(a.text(), "prior.wavelet.levels = 9; must be 1..6 for 64x64");
+  const FieldError b = parse_field_message("first_angle_rad must be finite", "mri.");
+  EXPECT_EQ(b.field, "mri.first_angle_rad");
+  EXPECT_EQ(b.value, "");
+  EXPECT_EQ(b.rule, "must be finite");
+  EXPECT_EQ(b.text(), "mri.first_angle_rad: must be finite");
+}
+
+TEST(FieldError, InvalidFieldsListsEveryViolationWithFileAndLine) {
+  const InvalidFields e({{"method[2].lambda", "-1", "must be >= 0 or \"auto\""}, {"method[2].iters", "0", "must be >= 1"}},
+                        "configs/x.toml", 31);
+  EXPECT_STREQ(e.what(), "configs/x.toml:31: method[2].lambda = -1; must be >= 0 or \"auto\"; method[2].iters = 0; "
+                         "must be >= 1");
+  EXPECT_EQ(e.field(), "method[2].lambda");
+  EXPECT_EQ(e.file(), "configs/x.toml");
+  EXPECT_EQ(e.line(), 31);
+  EXPECT_EQ(e.errors().size(), 2u);
+  const InputError& base = e;  // caught as InputError, the message stays the same
+  EXPECT_STREQ(base.what(), e.what());
+  EXPECT_NO_THROW(throw_if_invalid({}));
+  EXPECT_THROW(throw_if_invalid({{"a", "1", "no"}}), InvalidFields);
+}
+
+TEST(MeasurementNames, EveryEnumRoundTripsThroughItsName) {
+  for (Modality m : all_modalities()) EXPECT_EQ(parse_modality(to_string(m)), m);
+  EXPECT_EQ(accepted_modalities(), "mri, ct, denoise, inpaint");
+  EXPECT_FALSE(parse_modality("pet").has_value());
+  for (CtBeam b : {CtBeam::kParallel, CtBeam::kFan}) EXPECT_EQ(parse_ct_beam(to_string(b)), b);
+  for (FanDetector d : {FanDetector::kFlat, FanDetector::kEquiangular}) EXPECT_EQ(parse_fan_detector(to_string(d)), d);
+  EXPECT_FALSE(parse_ct_beam("cone").has_value());
+}
+
+TEST(NumberFormat, ShortestTextReadsBackExactly) {
+  EXPECT_EQ(format_number(4.0), "4");
+  EXPECT_EQ(format_number(0.01), "0.01");
+  EXPECT_EQ(format_number(1e5), "100000");
+  EXPECT_EQ(format_number(0.1 + 0.2), "0.30000000000000004");
+  EXPECT_EQ(format_number(std::nan("")), "nan");
+  EXPECT_EQ(format_sig(3.14159, 3), "3.14");
+}
+
+TEST(Hash, Fnv1aMatchesPublishedTestVectors) {
+  // FNV-1a 64-bit test vectors (Fowler/Noll/Vo reference list, from memory): "" and "a".
+  EXPECT_EQ(fnv1a(std::string()), 0xcbf29ce484222325ull);
+  EXPECT_EQ(fnv1a(std::string("a")), 0xaf63dc4c8601ec8cull);
+  EXPECT_EQ(fnv1a_hex("a"), "af63dc4c8601ec8c");
+  const std::string text = "hello world";
+  EXPECT_EQ(fnv1a(text.data() + 5, text.size() - 5, fnv1a(text.data(), 5)), fnv1a(text));
 }

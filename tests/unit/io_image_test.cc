@@ -152,7 +152,7 @@ TEST(ImageFileReader, RejectsMissingFileNotHdf5MissingImageWrongRankNanAndWrongT
 
 Measurement small_mri() {
   Measurement m;
-  m.modality = "mri";
+  m.modality = Modality::kMri;
   m.ny = 4;
   m.nx = 6;
   MriData d;
@@ -177,7 +177,7 @@ TEST(MeasurementFile, RoundTripsMriAndCt) {
   const Measurement m = small_mri();
   write_measurement_file(dir + "/mri.h5", m);
   const Measurement b = read_measurement_file(dir + "/mri.h5");
-  EXPECT_EQ(b.modality, "mri");
+  EXPECT_EQ(b.modality, Modality::kMri);
   EXPECT_EQ(b.ny, 4);
   EXPECT_EQ(b.nx, 6);
   ASSERT_TRUE(b.mri.has_value());
@@ -195,13 +195,13 @@ TEST(MeasurementFile, RoundTripsMriAndCt) {
   EXPECT_EQ(b.provenance.command, "simulate");
 
   Measurement ct;
-  ct.modality = "ct";
+  ct.modality = Modality::kCt;
   ct.ny = ct.nx = 8;
   CtData c;
   c.sinogram = NdArray<float>(Shape{3, 11}, 0.5f);
   c.angles_rad = {0.0, 1.0, 2.0};
-  c.geometry = "fan";
-  c.detector_shape = "equiangular";
+  c.beam = CtBeam::kFan;
+  c.detector_shape = FanDetector::kEquiangular;
   c.detector_count = 11;
   c.source_to_isocenter_mm = 100;
   c.source_to_detector_mm = 200;
@@ -212,8 +212,8 @@ TEST(MeasurementFile, RoundTripsMriAndCt) {
   ASSERT_TRUE(cb.ct.has_value());
   EXPECT_EQ(cb.ct->sinogram.data, c.sinogram.data);
   EXPECT_EQ(cb.ct->angles_rad, c.angles_rad);
-  EXPECT_EQ(cb.ct->geometry, "fan");
-  EXPECT_EQ(cb.ct->detector_shape, "equiangular");
+  EXPECT_EQ(cb.ct->beam, CtBeam::kFan);
+  EXPECT_EQ(cb.ct->detector_shape, FanDetector::kEquiangular);
   EXPECT_DOUBLE_EQ(cb.ct->photons_per_ray, 1e4);
   EXPECT_FALSE(cb.truth.has_value());
 }

@@ -152,7 +152,7 @@ TEST(UnrolledModel, RefusesMeasurementOfOtherImageSizeOrModality) {
     EXPECT_EQ(e.field(), "image size");
   }
   TrainingConditions ct = small_conditions();
-  ct.modality = "ct";
+  ct.modality = Modality::kCt;
   ct.families = {"ellipses"};
   Measurement c = draw_training_example(ct, 1, 0);
   EXPECT_THROW(model.reconstruct(c, "ct.h5"), InputError);

@@ -161,7 +161,7 @@ TEST(CtGeometry, CoveredRadiusOfFanIsSourceDistanceTimesSineOfHalfFan) {
 
 TEST(CtOperator, BuildsFromMeasurementWithMuScale) {
   Measurement m;
-  m.modality = "ct";
+  m.modality = Modality::kCt;
   m.ny = m.nx = 32;
   CtData ct;
   ct.angles_rad = spaced_angles(10, M_PI);

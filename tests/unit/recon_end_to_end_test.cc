@@ -153,11 +153,8 @@ TEST(EndToEndCt, TvPdhgWithDiscrepancyLambdaBeatsFbpBy8Db) {
   const Phantom p = head();
   const ImageF raster = real_part(rasterize(p, int(kN), int(kN)));
   CtSimulationOptions so;
-  so.geometry.ny = so.geometry.nx = kN;
-  so.geometry.pixel_size_mm = 2.0;  // the phantom's 256 mm field of view
-  for (int i = 0; i < 60; ++i) so.geometry.angles_rad.push_back(M_PI * i / 60.0);
-  so.geometry.detector_count = 184;  // covers the image diagonal (362 mm)
-  so.geometry.detector_spacing_mm = 2.0;
+  for (int i = 0; i < 60; ++i) so.scan.angles_rad.push_back(M_PI * i / 60.0);
+  so.scan.detector_count = 184;  // covers the image diagonal (362 mm); pixels and detectors of 2 mm
   // Discrete truth (the projector applied to the raster): with analytic line
   // integrals at this size the discretisation misfit of the true raster
   // (||A x_true - y||^2 = 23) is 33x the noise energy (0.69), so the noise-only
@@ -166,13 +163,15 @@ TEST(EndToEndCt, TvPdhgWithDiscrepancyLambdaBeatsFbpBy8Db) {
   so.noisy = true;
   so.noise.photons_per_ray = 1e5;
   so.seed = 9;
-  const CtData ct = simulate_ct(so, &p, raster);
-  JosephProjector a(so.geometry, ct.mu_per_mm);
+  const Measurement m = simulate_ct(&p, rasterize(p, int(kN), int(kN)), 2.0, so);
+  const CtData& ct = *m.ct;
+  const CtGeometry geometry = ct_geometry_from(m);
+  JosephProjector a(geometry, ct.mu_per_mm);
   VecC y(static_cast<Index>(ct.sinogram.data.size()));
   for (Index i = 0; i < y.size(); ++i) y[i] = cfloat(ct.sinogram.data[size_t(i)], 0.f);
   FbpOptions fo;
   fo.attenuation_per_mm = ct.mu_per_mm;
-  const double fbp_psnr = psnr(raster, fbp(so.geometry, ct.sinogram.ptr(), fo));
+  const double fbp_psnr = psnr(raster, fbp(geometry, ct.sinogram.ptr(), fo));
 
   ConstrainedPrior prior(std::make_unique<TvPrior>(Shape{kN, kN}, 1.0), Box{});
   auto solve = [&a, &y](const Prior& pr, VecC& x) {

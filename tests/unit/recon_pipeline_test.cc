@@ -70,7 +70,7 @@ Measurement mri_measurement(double sigma) {
   for (Index k = 0; k < y.size(); ++k) mri.kspace.data[static_cast<size_t>(k)] = y[k];
   mri.noise_sigma = sigma;
   Measurement m;
-  m.modality = "mri";
+  m.modality = Modality::kMri;
   m.ny = m.nx = kN;
   m.mri = std::move(mri);
   return m;
@@ -93,7 +93,7 @@ Measurement ct_measurement(int views) {
   const double photons = 1e4;
   for (float& p : sino.data) p += float(std::sqrt(std::exp(std::max(0.0f, p)) / photons) * rng.normal());
   Measurement m;
-  m.modality = "ct";
+  m.modality = Modality::kCt;
   m.ny = m.nx = kN;
   CtData ct;
   store_geometry(g, ct);

@@ -142,7 +142,7 @@ TEST(Masks, RejectsAccelerationOutsideOneToSixtyFour) {
       make_mask(opts(MaskPattern::kLinesVd, r));
       FAIL() << "R=" << r;
     } catch (const InputError& e) {
-      EXPECT_EQ(e.field(), "--accel");
+      EXPECT_EQ(e.field(), "mask.accel");
     }
   }
 }
@@ -154,7 +154,7 @@ TEST(Masks, RejectsACentreLargerThanTheSampleBudget) {
     make_mask(o);
     FAIL();
   } catch (const InputError& e) {
-    EXPECT_EQ(e.field(), "--center");
+    EXPECT_EQ(e.field(), "mask.center");
   }
 }
 

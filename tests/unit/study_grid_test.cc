@@ -78,7 +78,7 @@ TEST(StudyGrid, KeysAreUniqueAndNameEveryAxis) {
   for (const Acquisition& a : g.acquisitions)
     for (const std::string& axis : acquisition_axes()) {
       const bool mri_axis = axis == "pattern" || axis == "accel" || axis == "coils" || axis == "noise";
-      EXPECT_EQ(axis_value(a, axis).empty(), mri_axis != (a.modality == "mri")) << a.key() << " " << axis;
+      EXPECT_EQ(axis_value(a, axis).empty(), mri_axis != (a.modality == Modality::kMri)) << a.key() << " " << axis;
     }
 }
 
@@ -90,7 +90,7 @@ TEST(StudyGrid, SeedsDependOnKeysNotPositions) {
   for (const StudyCase& c : g.cases) {
     noise_seeds.insert(c.noise_seed);
     const Acquisition& a = g.acquisitions[size_t(c.acquisition)];
-    if (a.modality != "mri") continue;
+    if (a.modality != Modality::kMri) continue;
     const std::string k = a.pattern + "|" + std::to_string(a.accel) + "|" + std::to_string(c.repetition);
     auto [it, fresh] = mask_of_acq_rep.emplace(k, c.mask_seed);
     EXPECT_EQ(it->second, c.mask_seed) << "one mask per pattern, R and repetition, whatever the coils and noise";

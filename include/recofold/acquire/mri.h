@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "recofold/core/field_error.h"
 #include "recofold/core/measurement.h"
 #include "recofold/core/rng.h"
 #include "recofold/core/types.h"
@@ -49,8 +50,10 @@ struct MriSimulationOptions {
   double coil_correlation = 0.0;
   uint64_t seed = 0;
 
-  // Every violation, named by its CLI flag ("--coils = 0; must be 1..32").
-  std::vector<std::string> validate() const;
+  // Every violation by field path: "mri.coils", "mri.ring_radius", ...
+  // (coil_array), "mri.oversampling", "mri.noise_sigma", "mri.snr_db",
+  // "mri.coil_correlation".
+  std::vector<FieldError> validate() const;
 };
 
 std::string_view to_string(MriTruth t);
@@ -58,9 +61,10 @@ std::string_view to_string(MriTruth t);
 // Simulates an MRI measurement.
 //   analytic: the phantom's component description, or null for a raster-only
 //             object (then only MriTruth::kDiscrete is possible: InputError
-//             "--truth" otherwise);
+//             field "truth" otherwise);
 //   raster:   the object on the reconstruction grid [ny, nx] (also stored as truth);
-//   mask:     the sampling pattern, [ny, nx] (InputError "--mask" otherwise).
+//   mask:     the sampling pattern, [ny, nx] (InputError field "mask" otherwise).
+// Invalid options throw InvalidFields (fields of MriSimulationOptions::validate).
 // Fills modality, grid, /mri (k-space, mask, synthetic coil maps, σ, pattern,
 // R, spoke angles, numbers snr_db / coil_correlation / seed, text
 // kspace_source) and the truth; the caller fills the provenance.
@@ -76,8 +80,8 @@ NdArray<cfloat> oversampled_raster_kspace(const Phantom& p, const CoilArrayOptio
 double sigma_from_snr_db(const NdArray<cfloat>& clean, const NdArray<uint8_t>& mask, double snr_db);
 
 // Adds complex Gaussian noise of std σ (per part) to the sampled points of
-// every coil, correlated between coils as described above. InputError
-// "--coil-correlation" if the correlation matrix is not positive definite.
+// every coil, correlated between coils as described above. InvalidFields
+// "mri.coil_correlation" if the correlation matrix is not positive definite.
 void add_kspace_noise(NdArray<cfloat>& kspace, const NdArray<uint8_t>& mask, double sigma, double coil_correlation,
                       Rng& rng);
 

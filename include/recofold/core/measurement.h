@@ -5,12 +5,33 @@
 #include <map>
 #include <optional>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "recofold/core/provenance.h"
 #include "recofold/core/types.h"
 
 namespace recofold {
+
+// The measurement problems recofold simulates and reconstructs. The names
+// ("mri", "ct", "denoise", "inpaint") are those of files, flags and configs;
+// to_string/parse_modality are the only mapping.
+enum class Modality { kMri, kCt, kDenoise, kInpaint };
+std::string_view to_string(Modality modality);
+std::optional<Modality> parse_modality(std::string_view text);
+// "mri, ct, denoise, inpaint"
+std::string accepted_modalities();
+// Every modality, in the order above.
+const std::vector<Modality>& all_modalities();
+
+// CT beam: "parallel" | "fan".
+enum class CtBeam { kParallel, kFan };
+std::string_view to_string(CtBeam beam);
+std::optional<CtBeam> parse_ct_beam(std::string_view text);
+// Fan-beam detector shape: "flat" | "equiangular".
+enum class FanDetector { kFlat, kEquiangular };
+std::string_view to_string(FanDetector shape);
+std::optional<FanDetector> parse_fan_detector(std::string_view text);
 
 struct MriData {
   NdArray<cfloat> kspace;     // [coils, ny, nx]
@@ -28,8 +49,8 @@ struct MriData {
 struct CtData {
   NdArray<float> sinogram;  // [views, detectors]
   std::vector<double> angles_rad;
-  std::string geometry = "parallel";   // "parallel" | "fan"
-  std::string detector_shape = "flat";  // fan only: "flat" | "equiangular"
+  CtBeam beam = CtBeam::kParallel;
+  FanDetector detector_shape = FanDetector::kFlat;  // fan only
   int64_t detector_count = 0;
   double detector_spacing_mm = 1.0;
   double detector_offset_mm = 0.0;
@@ -43,7 +64,7 @@ struct CtData {
 };
 
 struct Measurement {
-  std::string modality;  // "mri" | "ct"
+  Modality modality = Modality::kMri;
   Index ny = 0, nx = 0;  // reconstruction grid
   double pixel_spacing_mm[2] = {1.0, 1.0};
   std::optional<MriData> mri;

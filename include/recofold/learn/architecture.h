@@ -8,6 +8,7 @@
 #include <vector>
 
 #include "recofold/core/config.h"
+#include "recofold/core/measurement.h"
 #include "recofold/core/types.h"
 
 namespace recofold {
@@ -51,7 +52,7 @@ std::optional<LearnedPriorKind> parse_learned_prior(std::string_view text);  // 
 // from the [model] table of a training config. Every field is a key of that
 // table with the same name.
 struct UnrolledArchitecture {
-  std::string modality = "mri";  // "mri" | "ct": which measurements the model takes
+  Modality modality = Modality::kMri;  // mri | ct: which measurements the model takes
   Index ny = 64, nx = 64;        // image grid the model reconstructs (from [data] size)
   int iterations = 5;            // K, unrolled iterations (1..50)
   LearnedPriorKind prior = LearnedPriorKind::kCnn;

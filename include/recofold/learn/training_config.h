@@ -19,7 +19,7 @@ namespace recofold {
 // uniformly from min..max. In TOML a range is a number (min = max) or a
 // two-element list [min, max].
 struct TrainingConditions {
-  std::string modality = "mri";       // "mri" | "ct"
+  Modality modality = Modality::kMri;  // mri | ct
   Index ny = 64, nx = 64;             // "size" = N or [ny, nx]
   std::vector<std::string> families = {"textured"};  // phantom families (family.h)
   // MRI.

@@ -31,22 +31,13 @@
 #include <string_view>
 #include <vector>
 
+#include "recofold/core/measurement.h"
 #include "recofold/core/types.h"
 
 namespace recofold {
 
-struct CtData;
-struct Measurement;
-
-enum class CtBeam { kParallel, kFan };
-enum class FanDetector { kFlat, kEquiangular };
-
-// "parallel" | "fan"
-std::string_view to_string(CtBeam beam);
-std::optional<CtBeam> parse_ct_beam(std::string_view text);
-// "flat" | "equiangular"
-std::string_view to_string(FanDetector shape);
-std::optional<FanDetector> parse_fan_detector(std::string_view text);
+// CtBeam and FanDetector (and their names) are part of the measurement record
+// (core/measurement.h).
 
 // One ray as a line through two points (mm): for fan beams `a` is the source
 // and `b` the detector element; for parallel beams `a` and `b` lie on the line

@@ -45,7 +45,7 @@ struct ReconRequest {
   // Every violation as "--flag ...: reason" messages (flags: --method,
   // --prior, --lambda, --iters, --levels, --wavelet); empty = valid.
   // `modality` is "mri" or "ct"; `image_shape` the reconstruction grid.
-  std::vector<std::string> validate(const std::string& modality, const Shape& image_shape) const;
+  std::vector<std::string> validate(Modality modality, const Shape& image_shape) const;
 };
 
 // The default number of iterations of each method (see ReconRequest).

@@ -89,7 +89,8 @@ struct SamplingMask {
 
 // Builds a mask. Invalid options, or options that cannot reach R (a centre
 // larger than the sample budget, a radial R below what full spokes can
-// cover), throw InputError naming the field ("--accel", "--center", ...).
+// cover), throw InputError naming the field by its path ("mask.accel",
+// "mask.center", ...: the names of MaskOptions::validate with "mask." in front).
 SamplingMask make_mask(const MaskOptions& options);
 
 // Wraps an existing 0/1 array as a SamplingMask (pattern "file"); values

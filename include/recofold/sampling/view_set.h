@@ -7,6 +7,8 @@
 #include <string_view>
 #include <vector>
 
+#include "recofold/core/measurement.h"
+
 namespace recofold {
 
 // Order of the views of an arc.
@@ -62,7 +64,7 @@ std::vector<double> read_view_file(const std::string& path);
 struct CtProtocol {
   ViewSetSpec views;
   std::string description;
-  std::string geometry;  // empty when not given
+  std::optional<CtBeam> beam;  // `geometry`, when given
 };
 CtProtocol load_ct_protocol(const std::string& path);
 

@@ -10,10 +10,10 @@
 
 namespace recofold {
 
-// One acquisition protocol point. MRI fields are set for modality "mri", CT
-// fields for "ct"; the others stay at their defaults and are blank in results.csv.
+// One acquisition protocol point. MRI fields are set for modality mri, CT
+// fields for ct; the others stay at their defaults and are blank in results.csv.
 struct Acquisition {
-  std::string modality;      // "mri" | "ct"
+  Modality modality = Modality::kMri;
   std::string pattern;       // MRI mask pattern
   double accel = 0.0;        // MRI acceleration R
   int coils = 0;             // MRI receive coils

@@ -78,6 +78,7 @@
 #include <vector>
 
 #include "recofold/core/config.h"
+#include "recofold/core/measurement.h"
 #include "recofold/core/types.h"
 
 namespace recofold {
@@ -120,7 +121,7 @@ struct StudyMethod {
   int levels = 3;
   std::optional<bool> nonneg;       // unset: true for CT, false for MRI
   std::string filter = "ram-lak";   // fbp
-  std::vector<std::string> modalities;  // where it runs ("mri", "ct")
+  std::vector<Modality> modalities;  // where it runs
   std::string model_path;           // unrolled: model file (resolved)
   std::string train_config;         // unrolled: training config (resolved)
   int64_t train_steps = 0;          // > 0 overrides the training config's steps
@@ -128,7 +129,7 @@ struct StudyMethod {
   int line = 0;                     // line of the [[method]] table
 
   bool learned() const { return method == "unrolled"; }
-  bool applies_to(const std::string& modality) const;
+  bool applies_to(Modality modality) const;
 };
 
 struct StudyConfig {
