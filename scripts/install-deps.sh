@@ -10,6 +10,8 @@ PACKAGES=(
   # libraries of the design card
   libfftw3-dev libeigen3-dev libinsighttoolkit5-dev libcli11-dev
   libhdf5-dev libgtest-dev libtomlplusplus-dev
+  # zlib: PNG writer and the length checks of compressed NIfTI/MetaImage/NRRD (src/io)
+  zlib1g-dev
   # learning (src/learn only)
   libtorch-dev
   # independent reference checks (tests/reference), run with /usr/bin/python3

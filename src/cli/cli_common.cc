@@ -2,6 +2,8 @@
 // Shared helpers of the sub-commands.
 #include "cli_common.h"
 
+#include "output_checks_cli.h"
+
 #include <omp.h>
 #include <sys/stat.h>
 #include <unistd.h>
@@ -33,14 +35,7 @@ void apply_threads(const Context& ctx) {
 
 void require_output_path(const std::string& path, const std::string& flag,
                          const std::vector<std::string>& extensions) {
-  if (path.empty()) throw InputError("", flag, "an output path is required");
-  const auto slash = path.find_last_of('/');
-  if (slash != std::string::npos) {
-    const std::string dir = slash == 0 ? "/" : path.substr(0, slash);
-    struct stat st;
-    if (::stat(dir.c_str(), &st) != 0 || !S_ISDIR(st.st_mode))
-      throw InputError(path, flag, "output folder '" + dir + "' does not exist");
-  }
+  require_writable_file(path, flag);  // output_checks_cli.h
   if (extensions.empty()) return;
   const std::string ext = file_extension(path);
   for (const auto& e : extensions)

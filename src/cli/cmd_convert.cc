@@ -4,6 +4,7 @@
 #include <string>
 
 #include "cli_common.h"
+#include "output_checks_cli.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
 #include "recofold/io/image_export.h"
@@ -23,6 +24,7 @@ const std::vector<std::string> kImageExtensions = {".h5", ".nii.gz", ".nii", ".m
 
 void run_convert(const ConvertFlags& f, CLI::App& sub, const Context& ctx) {
   require_output_path(f.out, "OUT", kImageExtensions);
+  require_distinct_output(f.out, "OUT", {f.in});
   const bool lo_given = sub.count("--window-lo") > 0, hi_given = sub.count("--window-hi") > 0;
   if (lo_given != hi_given)
     throw InputError("", lo_given ? "--window-hi" : "--window-lo", "give --window-lo and --window-hi together");

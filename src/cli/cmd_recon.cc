@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "cli_common.h"
+#include "output_checks_cli.h"
 #include "ct_cli.h"
 #include "recon_solve_cli.h"
 #include "recofold/core/atomic_file.h"
@@ -91,6 +92,7 @@ ImageRecord zero_filled_record(const Measurement& m, const ReconFlags& f, const 
 void run_recon(const ReconFlags& f, const CLI::App& sub, const Context& ctx) {
   require_output_path(f.out, "--out", kImageExtensions);
   if (!f.png.empty()) require_output_path(f.png, "--png", {".png"});
+  require_distinct_output(f.out, "--out", {f.meas}); require_distinct_output(f.png, "--png", {f.meas, f.out});
   const MethodInfo* method = nullptr;
   for (const auto& m : kMethods)
     if (f.method == m.name) method = &m;

@@ -32,6 +32,12 @@ std::string json_number(double v) {
   return buf;
 }
 
+std::string readable_number(double v) {
+  char buf[64];
+  std::snprintf(buf, sizeof buf, "%g", v);
+  return buf;
+}
+
 std::string json_string(const std::string& s) {
   std::string out = "\"";
   for (char c : s) {
@@ -49,7 +55,7 @@ std::string json_string(const std::string& s) {
   return out + "\"";
 }
 
-// One slice of an image file: --index applies to stacks, 2-D files ignore it.
+// One slice of an image file: --index picks an image of a stack; a 2-D file holds image 0 only.
 // A measurement file (HDF5 without /image but with /truth/image) gives its ground truth.
 ImageF load(const std::string& path, int index) {
   if (file_extension(path) == ".h5") {
@@ -63,11 +69,11 @@ ImageF load(const std::string& path, int index) {
       ImageRecord rec;
       rec.pixels = *m.truth;
       rec.is_complex = m.truth_is_complex;
-      return image_slice(rec, 0, path);
+      return image_slice(rec, index, path);
     }
   }
   const ImageRecord rec = read_image_any(path);
-  return image_slice(rec, rec.pixels.shape.rank() == 3 ? index : 0, path);
+  return image_slice(rec, index, path);
 }
 
 void require_same_shape(const ImageF& a, const ImageF& b, const std::string& file, const std::string& ref_file) {
@@ -77,9 +83,10 @@ void require_same_shape(const ImageF& a, const ImageF& b, const std::string& fil
                                    std::to_string(b.cols()) + "]");
 }
 
-void run_score(const ScoreFlags& f, const Context& ctx) {
-  if (!std::isfinite(f.data_range) || f.data_range < 0)
-    throw InputError("", "--data-range", "must be a positive number (omit it for max - min of the reference)");
+void run_score(const ScoreFlags& f, const CLI::App& sub, const Context& ctx) {
+  if (sub.count("--data-range") > 0 && !(std::isfinite(f.data_range) && f.data_range > 0))
+    throw InputError("", "--data-range", "got " + readable_number(f.data_range) +
+                                             ", expected a positive number (omit it for max - min of the reference)");
   const ImageF ref = load(f.reference, f.index);
   const ImageF img = load(f.image, f.index);
   require_same_shape(img, ref, f.image, f.reference);
@@ -130,7 +137,7 @@ void register_cmd_score(CLI::App& app, Context& ctx) {
   sub->add_option("--index", flags->index, "Image I of inputs that hold a stack (default 0)")
       ->check(CLI::NonNegativeNumber);
   sub->footer("Complex images are scored by magnitude. Definitions and sources: REFERENCES.md.\n" + std::string(kResearchUseLine));
-  sub->callback([flags, &ctx] { run_score(*flags, ctx); });
+  sub->callback([flags, sub, &ctx] { run_score(*flags, *sub, ctx); });
 }
 
 }  // namespace recofold::cli

@@ -7,6 +7,7 @@
 #include <string>
 
 #include "cli_common.h"
+#include "output_checks_cli.h"
 #include "ct_cli.h"
 #include "mri_cli.h"
 #include "recofold/acquire/mri.h"
@@ -65,6 +66,7 @@ const std::vector<FieldFlag>& mri_simulate_flags() {
 void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
   // Every check before any work: bad input leaves no output.
   require_output_path(f.out, "--out", {".h5"});
+  require_distinct_output(f.out, "--out", {f.phantom, f.mask});
   const std::optional<Modality> modality = parse_modality(f.modality);
   if (!modality || (*modality != Modality::kMri && *modality != Modality::kCt))
     throw InputError("", "--modality", "'" + f.modality + "'; expected mri or ct");

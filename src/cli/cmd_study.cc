@@ -5,6 +5,7 @@
 #include <vector>
 
 #include "cli_common.h"
+#include "output_checks_cli.h"
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
 #include "recofold/study/study_runner.h"
@@ -23,7 +24,7 @@ struct StudyFlags {
 void run(const StudyFlags& f, const Context& ctx) {
   if (!f.merge.empty()) {
     if (!f.config.empty()) throw InputError("", "--merge", "give either --config or --merge, not both");
-    if (f.out.empty()) throw InputError("", "--out", "an output folder is required");
+    require_writable_folder(f.out, "--out");  // output_checks_cli.h
     const StudyRunSummary s = merge_studies(f.merge, f.out, ctx.command_line);
     say(ctx, "merged " + std::to_string(f.merge.size()) + " folders: " + std::to_string(s.cases_skipped) + " of " +
                  std::to_string(s.cases_total) + " cases" + (s.complete ? "" : " (incomplete: some shards missing)"));

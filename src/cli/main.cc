@@ -1,15 +1,72 @@
 // SPDX-License-Identifier: Apache-2.0
 // recofold command-line entry: parse, dispatch, map errors to exit codes.
 //   0 success; 1 the work failed; 2 bad input or usage (ARCHITECTURE.md).
+// Every error is ONE line on stderr:
+//   recofold: error: <where>: <what was expected>     (exit 2)
+//   recofold: failed: <what failed>                    (exit 1)
 #include <CLI/CLI.hpp>
 
+#include <cerrno>
+#include <cstdio>
+#include <cstring>
 #include <iostream>
+#include <new>
+#include <regex>
 
 #include "cli_common.h"
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
 
 #include "command_registry.inc"
+
+namespace {
+
+// One line: newlines of library or parser messages become "; ".
+std::string single_line(std::string s) {
+  while (!s.empty() && (s.back() == '\n' || s.back() == ' ')) s.pop_back();
+  std::string out;
+  for (char c : s) {
+    if (c == '\n') {
+      if (!out.empty() && out.back() != ' ') out += "; ";
+    } else if (c != '\r') {
+      out += c;
+    }
+  }
+  return out;
+}
+
+// CLI11 prints its range checks with the full digits of the type's limits
+// ("not in range 0.000000 to 1797693134862315708...0.000000"): make them read
+// like a person wrote them.
+std::string readable_numbers(std::string s) {
+  static const std::regex open_range(R"(Value (\S+) not in range (-?[0-9.]+) to [0-9]{20,}\.?[0-9]*)");
+  s = std::regex_replace(s, open_range, "got $1, expected a number >= $2");
+  static const std::regex range(R"(Value (\S+) not in range (-?[0-9.]+) to (-?[0-9.]+))");
+  s = std::regex_replace(s, range, "got $1, expected a number from $2 to $3");
+  static const std::regex trailing_zeros(R"((\d)\.0{6}\b)");
+  s = std::regex_replace(s, trailing_zeros, "$1");
+  static const std::regex huge(R"(\b[0-9]{20,}(\.[0-9]+)?)");
+  s = std::regex_replace(s, huge, "(a number too large to use)");
+  return s;
+}
+
+// Whatever a command printed must reach standard output; a failed write
+// (a full disk, a closed pipe, /dev/full) is a failure of the work.
+int check_stdout() {
+  errno = 0;
+  std::cout.flush();
+  const bool stream_bad = !std::cout;
+  const int saved = errno;
+  if (std::fflush(stdout) != 0 || std::ferror(stdout) || stream_bad) {
+    const int e = errno ? errno : saved;
+    std::cerr << "recofold: failed: cannot write to standard output"
+              << (e ? std::string(": ") + std::strerror(e) : std::string()) << "\n";
+    return 1;
+  }
+  return 0;
+}
+
+}  // namespace
 
 int main(int argc, char** argv) {
   using namespace recofold;
@@ -24,8 +81,8 @@ int main(int argc, char** argv) {
   app.set_version_flag("--version", producer_string());
   app.require_subcommand(1);
   app.fallthrough();
-  app.add_option("--threads", ctx.threads, "Threads for FFTW/OpenMP (default: all cores)")
-      ->check(CLI::NonNegativeNumber);
+  app.add_option("--threads", ctx.threads, "Threads for FFTW/OpenMP, 0..1024 (default 0: all cores)")
+      ->check(CLI::Range(0, 1024));
   app.add_flag("--quiet,-q", ctx.quiet, "No progress output");
   cli::register_all_commands(app, ctx);
   app.footer(kResearchUseLine);
@@ -33,11 +90,14 @@ int main(int argc, char** argv) {
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
-    return app.exit(e);
+    const int rc = app.exit(e);
+    return check_stdout() ? 1 : rc;
   } catch (const CLI::CallForAllHelp& e) {
-    return app.exit(e);
+    const int rc = app.exit(e);
+    return check_stdout() ? 1 : rc;
   } catch (const CLI::CallForVersion& e) {
-    return app.exit(e);
+    const int rc = app.exit(e);
+    return check_stdout() ? 1 : rc;
   } catch (const CLI::ParseError& e) {
     if (e.get_name() == "RequiredError" && app.get_subcommands().empty()) {
       // Name the word that is not a sub-command, if there is one (skipping --threads' value).
@@ -48,22 +108,25 @@ int main(int argc, char** argv) {
         else if (!a.empty() && a[0] != '-') unknown = a;
       }
       if (!unknown.empty())
-        std::cerr << "recofold: unknown sub-command '" << unknown << "'; run 'recofold --help' for the list\n";
+        std::cerr << "recofold: error: unknown sub-command '" << unknown << "'; run 'recofold --help' for the list\n";
       else
-        std::cerr << "recofold: " << e.what() << "; run 'recofold --help' for the list of commands\n";
+        std::cerr << "recofold: error: " << single_line(e.what()) << "; run 'recofold --help' for the list of commands\n";
       return 2;
     }
-    std::cerr << "recofold: " << e.what() << "\n";
+    std::cerr << "recofold: error: " << readable_numbers(single_line(e.what())) << "\n";
     return 2;
   } catch (const InputError& e) {
-    std::cerr << "recofold: error: " << e.what() << "\n";
+    std::cerr << "recofold: error: " << single_line(e.what()) << "\n";
     return 2;
   } catch (const WorkError& e) {
-    std::cerr << "recofold: failed: " << e.what() << "\n";
+    std::cerr << "recofold: failed: " << single_line(e.what()) << "\n";
+    return 1;
+  } catch (const std::bad_alloc&) {
+    std::cerr << "recofold: failed: out of memory (the inputs or flags ask for more memory than is available)\n";
     return 1;
   } catch (const std::exception& e) {
-    std::cerr << "recofold: failed: " << e.what() << "\n";
+    std::cerr << "recofold: failed: " << single_line(e.what()) << "\n";
     return 1;
   }
-  return 0;
+  return check_stdout();
 }

@@ -2,6 +2,8 @@
 // Running a study from the command line: signals, progress, the closing lines.
 #include "study_cli.h"
 
+#include "output_checks_cli.h"
+
 #include <algorithm>
 #include <atomic>
 #include <cmath>
@@ -32,7 +34,7 @@ std::string seconds(double s) {
 
 std::string run_study_command(const Context& ctx, const std::string& config_path, const std::string& out_dir,
                               int jobs, const std::string& shard_text) {
-  if (out_dir.empty()) throw InputError("", "--out", "an output folder is required");
+  require_writable_folder(out_dir, "--out");  // output_checks_cli.h
   if (jobs < 0) throw InputError("", "--jobs", "= " + std::to_string(jobs) + "; must be >= 1 (0: all cores)");
   const Shard shard = shard_text.empty() ? Shard{} : Shard::parse(shard_text, "--shard");
   const StudyConfig config = StudyConfig::load(config_path);

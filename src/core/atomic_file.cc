@@ -2,6 +2,7 @@
 // Temporary-file-then-rename writes.
 #include "recofold/core/atomic_file.h"
 
+#include <fcntl.h>
 #include <unistd.h>
 
 #include <algorithm>
@@ -42,23 +43,54 @@ void AtomicFile::commit() {
   committed_ = true;
 }
 
+void write_bytes_checked(const std::string& path, const void* data, size_t size, const std::string& target) {
+  const int fd = ::open(path.c_str(), O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
+  if (fd < 0) throw WorkError("cannot write " + target + ": " + std::strerror(errno));
+  const char* p = static_cast<const char*>(data);
+  size_t left = size;
+  while (left > 0) {
+    const ssize_t n = ::write(fd, p, left);
+    if (n < 0 && errno == EINTR) continue;
+    if (n <= 0) {
+      const std::string why = n < 0 ? std::strerror(errno) : "no progress";
+      ::close(fd);
+      throw WorkError("cannot write " + target + ": " + why + " (after " + std::to_string(size - left) + " of " +
+                      std::to_string(size) + " bytes)");
+    }
+    p += n;
+    left -= static_cast<size_t>(n);
+  }
+  if (::close(fd) != 0) throw WorkError("cannot write " + target + ": closing failed: " + std::strerror(errno));
+}
+
 void write_text_atomic(const std::string& path, const std::string& text) {
   AtomicFile f(path);
-  {
-    std::ofstream out(f.temp_path(), std::ios::binary);
-    if (!out) throw WorkError("cannot write " + path + ": " + std::strerror(errno));
-    out << text;
-    out.flush();
-    if (!out) throw WorkError("write failed for " + path);
-  }
+  write_bytes_checked(f.temp_path(), text.data(), text.size(), path);
   f.commit();
 }
 
+bool is_directory(const std::string& path) {
+  struct stat st;
+  return ::stat(path.c_str(), &st) == 0 && S_ISDIR(st.st_mode);
+}
+
+void require_regular_file(const std::string& path) {
+  struct stat st;
+  if (::stat(path.c_str(), &st) != 0) {
+    if (errno == ENOENT || errno == ENOTDIR) throw InputError(path, "", "file not found");
+    throw InputError(path, "", std::string("cannot be opened: ") + std::strerror(errno));
+  }
+  if (S_ISDIR(st.st_mode)) throw InputError(path, "", "is a directory, expected a file");
+  if (!S_ISREG(st.st_mode)) throw InputError(path, "", "is not a regular file");
+}
+
 std::string read_text_file(const std::string& path) {
+  require_regular_file(path);
   std::ifstream in(path, std::ios::binary);
-  if (!in) throw InputError(path, "", "cannot open file (missing or unreadable)");
+  if (!in) throw InputError(path, "", std::string("cannot be read: ") + std::strerror(errno));
   std::ostringstream ss;
   ss << in.rdbuf();
+  if (in.bad()) throw InputError(path, "", "reading failed");
   return ss.str();
 }
 

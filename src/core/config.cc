@@ -2,6 +2,8 @@
 // toml++ behind the Config facade; the only translation unit that includes toml++.
 #include "recofold/core/config.h"
 
+#include "recofold/core/atomic_file.h"
+
 #include <fstream>
 #include <sstream>
 
@@ -39,11 +41,7 @@ Config::Config(std::shared_ptr<const internal::ConfigDocument> doc, const void* 
     : doc_(std::move(doc)), table_(table), path_(std::move(path)) {}
 
 Config Config::load(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) throw InputError(path, "", "cannot open file (missing or unreadable)");
-  std::ostringstream ss;
-  ss << in.rdbuf();
-  return parse(ss.str(), path);
+  return parse(read_text_file(path), path);
 }
 
 Config Config::parse(const std::string& text, const std::string& name) {

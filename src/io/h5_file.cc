@@ -12,6 +12,7 @@
 #include <type_traits>
 
 #include "recofold/core/atomic_file.h"
+#include "recofold/core/checks.h"
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
 
@@ -206,10 +207,19 @@ struct H5Writer::Impl {
   }
 };
 
+// The file is built in memory (HDF5's "core" driver without a backing store)
+// and written to disk by commit() with checked POSIX writes. HDF5 therefore
+// never writes to disk itself: a full disk or a read-only folder is a checked
+// error of ours, and no file handle is ever left half-closed inside the
+// library (which would crash in the library's clean-up at exit).
 H5Writer::H5Writer(const std::string& target) : impl_(std::make_unique<Impl>(target)) {
   silence_hdf5();
-  impl_->file = Hid(H5Fcreate(impl_->temp.temp_path().c_str(), H5F_ACC_TRUNC, H5P_DEFAULT, H5P_DEFAULT), H5Fclose);
-  if (!impl_->file.ok()) impl_->fail("cannot create the file (is the folder writable?)");
+  Hid fapl(H5Pcreate(H5P_FILE_ACCESS), H5Pclose);
+  if (!fapl.ok() || H5Pset_fapl_core(fapl.get(), size_t{1} << 20, 0) < 0 ||
+      H5Pset_fclose_degree(fapl.get(), H5F_CLOSE_STRONG) < 0)
+    impl_->fail("cannot set up the in-memory file");
+  impl_->file = Hid(H5Fcreate(impl_->temp.temp_path().c_str(), H5F_ACC_TRUNC, H5P_DEFAULT, fapl.get()), H5Fclose);
+  if (!impl_->file.ok()) impl_->fail("cannot create the file in memory");
   impl_->lcpl = Hid(H5Pcreate(H5P_LINK_CREATE), H5Pclose);
   H5Pset_create_intermediate_group(impl_->lcpl.get(), 1);
   H5Pset_char_encoding(impl_->lcpl.get(), H5T_CSET_UTF8);
@@ -265,10 +275,16 @@ void H5Writer::write_attr(const std::string& object, const std::string& name, co
 }
 
 void H5Writer::commit() {
+  silence_hdf5();
   if (!impl_->file.ok()) impl_->fail("commit() called twice");
-  if (H5Fflush(impl_->file.get(), H5F_SCOPE_GLOBAL) < 0) impl_->fail("flush failed");
-  const hid_t id = impl_->file.release();  // close here so a failure is reported
-  if (H5Fclose(id) < 0) impl_->fail("closing the file failed");
+  if (H5Fflush(impl_->file.get(), H5F_SCOPE_GLOBAL) < 0) impl_->fail("flushing the in-memory file failed");
+  const ssize_t size = H5Fget_file_image(impl_->file.get(), nullptr, 0);
+  if (size <= 0) impl_->fail("cannot take the in-memory file image");
+  std::vector<char> image(static_cast<size_t>(size));
+  if (H5Fget_file_image(impl_->file.get(), image.data(), image.size()) != size)
+    impl_->fail("cannot copy the in-memory file image");
+  impl_->file.reset();  // in memory only: closing cannot fail on disk
+  write_bytes_checked(impl_->temp.temp_path(), image.data(), image.size(), impl_->temp.target());
   impl_->temp.commit();
   impl_->committed = true;
 }
@@ -287,17 +303,54 @@ struct H5Reader::Impl {
     silence_hdf5();
     const std::string p = normalise(dataset);
     if (!link_exists(file.get(), p)) bad(p, "dataset is missing");
+    H5L_info_t linfo;
+    const bool external = H5Lget_info(file.get(), p.c_str(), &linfo, H5P_DEFAULT) >= 0 && linfo.type == H5L_TYPE_EXTERNAL;
+    const bool soft = H5Lget_info(file.get(), p.c_str(), &linfo, H5P_DEFAULT) >= 0 && linfo.type == H5L_TYPE_SOFT;
     H5O_info_t info;
-    if (H5Oget_info_by_name(file.get(), p.c_str(), &info, H5P_DEFAULT) < 0 || info.type != H5O_TYPE_DATASET)
-      bad(p, "is not a dataset");
+    if (H5Oget_info_by_name(file.get(), p.c_str(), &info, H5P_DEFAULT) < 0) {
+      if (external) bad(p, "is an external link whose target file or object cannot be found (dangling link)");
+      if (soft) bad(p, "is a soft link whose target does not exist (dangling link)");
+      bad(p, "cannot be opened (the file may be corrupt)");
+    }
+    if (info.type != H5O_TYPE_DATASET) bad(p, info.type == H5O_TYPE_GROUP ? "is a group, not a dataset" : "is not a dataset");
     Hid ds(H5Dopen2(file.get(), p.c_str(), H5P_DEFAULT), H5Dclose);
-    if (!ds.ok()) bad(p, "cannot open dataset");
+    if (!ds.ok()) bad(p, "cannot open dataset (the file may be corrupt)");
+    require_filters_available(ds.get(), p);
     return ds;
+  }
+
+  // Compressed or otherwise filtered data needs the filter in this HDF5 library.
+  void require_filters_available(hid_t ds, const std::string& p) const {
+    Hid dcpl(H5Dget_create_plist(ds), H5Pclose);
+    if (!dcpl.ok()) return;
+    const int n = H5Pget_nfilters(dcpl.get());
+    for (int i = 0; i < n; ++i) {
+      unsigned flags = 0, config = 0;
+      size_t nvals = 0;
+      char name[128] = {0};
+      const H5Z_filter_t id = H5Pget_filter2(dcpl.get(), static_cast<unsigned>(i), &flags, &nvals, nullptr,
+                                             sizeof name, name, &config);
+      if (id < 0) bad(p, "has an unreadable filter pipeline (the file may be corrupt)");
+      if (H5Zfilter_avail(id) <= 0) {
+        std::string label = name[0] ? std::string("'") + name + "' " : std::string();
+        bad(p, "is stored with filter " + label + "(id " + std::to_string(id) +
+                   ") that this HDF5 library does not have; rewrite it uncompressed or with gzip");
+      }
+    }
+  }
+
+  // Shape checked against the size limits before anything is allocated.
+  Shape checked_shape(hid_t ds, const std::string& p, size_t bytes_per_element, const std::string& what) const {
+    const Shape s = shape_of(ds);
+    require_allocatable(s, bytes_per_element, what, path, p);
+    return s;
   }
 
   Shape shape_of(hid_t ds) const {
     Hid space(H5Dget_space(ds), H5Sclose);
     const int rank = H5Sget_simple_extent_ndims(space.get());
+    if (rank < 0) bad("", "a dataspace cannot be read (the file may be corrupt)");
+    if (H5Sget_simple_extent_type(space.get()) == H5S_NULL) return Shape{0};
     std::vector<hsize_t> dims(static_cast<size_t>(std::max(rank, 0)));
     if (rank > 0) H5Sget_simple_extent_dims(space.get(), dims.data(), nullptr);
     Shape s;
@@ -316,9 +369,9 @@ struct H5Reader::Impl {
     if (!ok)
       bad(p, "has type " + describe_type(t.get()) + ", expected " +
                  (integers_only ? std::string("an integer type") : std::string("a real integer or float type")));
-    NdArray<T> out(shape_of(ds.get()));
+    NdArray<T> out(checked_shape(ds.get(), p, sizeof(T), describe_type(t.get())));
     if (out.size() > 0 && H5Dread(ds.get(), native_type<T>(), H5S_ALL, H5S_ALL, H5P_DEFAULT, out.ptr()) < 0)
-      bad(p, "cannot read dataset (type " + describe_type(t.get()) + ")");
+      bad(p, "cannot read dataset (type " + describe_type(t.get()) + "): the data is corrupt, truncated or out of the type's range");
     return out;
   }
 
@@ -344,7 +397,10 @@ struct H5Reader::Impl {
     const H5T_class_t c = H5Tget_class(t.get());
     if (c != H5T_INTEGER && c != H5T_FLOAT)
       bad(normalise(object), "attribute '" + name + "' has type " + describe_type(t.get()) + ", expected a number");
-    std::vector<double> v(static_cast<size_t>(attr_count(a.get())));
+    const hssize_t count = attr_count(a.get());
+    if (count < 0 || count > (hssize_t{1} << 24))
+      bad(normalise(object), "attribute '" + name + "' has " + std::to_string(count) + " values; expected a few numbers");
+    std::vector<double> v(static_cast<size_t>(count));
     if (!v.empty() && H5Aread(a.get(), H5T_NATIVE_DOUBLE, v.data()) < 0)
       bad(normalise(object), "cannot read attribute '" + name + "'");
     return v;
@@ -354,13 +410,13 @@ struct H5Reader::Impl {
 H5Reader::H5Reader(const std::string& path) : impl_(std::make_unique<Impl>()) {
   silence_hdf5();
   impl_->path = path;
-  struct stat st;
-  if (::stat(path.c_str(), &st) != 0) throw InputError(path, "", "file not found");
-  if (!S_ISREG(st.st_mode)) throw InputError(path, "", "is not a regular file");
+  require_regular_file(path);
   const htri_t is_h5 = H5Fis_hdf5(path.c_str());
   if (is_h5 <= 0) throw InputError(path, "", "is not an HDF5 file (or cannot be read)");
-  impl_->file = Hid(H5Fopen(path.c_str(), H5F_ACC_RDONLY, H5P_DEFAULT), H5Fclose);
-  if (!impl_->file.ok()) throw InputError(path, "", "cannot open the HDF5 file");
+  Hid fapl(H5Pcreate(H5P_FILE_ACCESS), H5Pclose);
+  H5Pset_fclose_degree(fapl.get(), H5F_CLOSE_STRONG);
+  impl_->file = Hid(H5Fopen(path.c_str(), H5F_ACC_RDONLY, fapl.get()), H5Fclose);
+  if (!impl_->file.ok()) throw InputError(path, "", "cannot open the HDF5 file (truncated or corrupt)");
 }
 
 H5Reader::~H5Reader() = default;
@@ -427,15 +483,16 @@ NdArray<cfloat> H5Reader::read_complex(const std::string& dataset) const {
   Hid ds = impl_->open_dataset(p);
   Hid t(H5Dget_type(ds.get()), H5Tclose);
   if (is_complex_type(t.get())) {
-    NdArray<cfloat> out(impl_->shape_of(ds.get()));
+    NdArray<cfloat> out(impl_->checked_shape(ds.get(), p, sizeof(cfloat), "complex64"));
     Hid mtype = make_complex_type(H5T_NATIVE_FLOAT);
     if (out.size() > 0 && H5Dread(ds.get(), mtype.get(), H5S_ALL, H5S_ALL, H5P_DEFAULT, out.ptr()) < 0)
-      impl_->bad(p, "cannot read complex dataset");
+      impl_->bad(p, "cannot read complex dataset: the data is corrupt or truncated");
     return out;
   }
   const H5T_class_t c = H5Tget_class(t.get());
   if (c != H5T_INTEGER && c != H5T_FLOAT)
     impl_->bad(p, "has type " + describe_type(t.get()) + ", expected complex64 ({r,i} compound) or a real type");
+  impl_->checked_shape(ds.get(), p, sizeof(cfloat), "complex64");
   NdArray<float> re = impl_->read_real<float>(p, false);
   NdArray<cfloat> out(re.shape);
   for (Index i = 0; i < re.size(); ++i) out.data[static_cast<size_t>(i)] = cfloat(re.data[static_cast<size_t>(i)], 0.f);

@@ -2,7 +2,9 @@
 // Image export/import (ITK itself is behind itk_bridge.h), PNG windowing, format dispatch.
 #include "recofold/io/image_export.h"
 
+#include <sys/stat.h>
 #include <unistd.h>
+#include <zlib.h>
 
 #include <algorithm>
 #include <atomic>
@@ -42,6 +44,9 @@ class TempSibling {
   TempSibling& operator=(const TempSibling&) = delete;
   const std::string& path() const { return temp_; }
   void commit() {
+    struct stat st;
+    if (::stat(target_.c_str(), &st) == 0 && S_ISDIR(st.st_mode))
+      throw WorkError("cannot write " + target_ + ": it is a directory");
     if (std::rename(temp_.c_str(), target_.c_str()) != 0)
       throw WorkError("cannot move finished output into place at " + target_ + ": " + std::strerror(errno));
     committed_ = true;
@@ -51,6 +56,54 @@ class TempSibling {
   std::string target_, temp_;
   bool committed_ = false;
 };
+
+void put_u32(std::string& out, uint32_t v) {
+  for (int shift = 24; shift >= 0; shift -= 8) out.push_back(static_cast<char>((v >> shift) & 0xFF));
+}
+
+void put_chunk(std::string& out, const char* type, const std::string& data) {
+  put_u32(out, static_cast<uint32_t>(data.size()));
+  const size_t start = out.size();
+  out.append(type, 4);
+  out += data;
+  const uLong crc = crc32(0L, reinterpret_cast<const Bytef*>(out.data() + start), static_cast<uInt>(out.size() - start));
+  put_u32(out, static_cast<uint32_t>(crc));
+}
+
+// A grey PNG (colour type 0, 8 or 16 bits, no interlace), row 0 on top, with
+// a tEXt chunk carrying the research-use line (PNG specification, ISO/IEC
+// 15948: signature, IHDR, IDAT holding the zlib stream of filter-type-0 rows,
+// IEND; CRC-32 over type and data of each chunk; written from memory).
+std::string encode_png(size_t nx, size_t ny, const std::vector<uint16_t>& levels, int bits, const std::string& target) {
+  const size_t bytes_per_px = bits == 16 ? 2 : 1;
+  std::string raw;
+  raw.reserve(ny * (1 + nx * bytes_per_px));
+  for (size_t y = 0; y < ny; ++y) {
+    raw.push_back('\0');  // filter type 0 (none)
+    for (size_t x = 0; x < nx; ++x) {
+      const uint16_t v = levels[y * nx + x];
+      if (bits == 16) raw.push_back(static_cast<char>(v >> 8));
+      raw.push_back(static_cast<char>(v & 0xFF));
+    }
+  }
+  uLongf zlen = compressBound(static_cast<uLong>(raw.size()));
+  std::string z(zlen, '\0');
+  if (compress2(reinterpret_cast<Bytef*>(z.data()), &zlen, reinterpret_cast<const Bytef*>(raw.data()),
+                static_cast<uLong>(raw.size()), 6) != Z_OK)
+    throw WorkError("cannot write " + target + ": PNG compression failed");
+  z.resize(zlen);
+  std::string out("\x89PNG\r\n\x1a\n", 8);
+  std::string ihdr;
+  put_u32(ihdr, static_cast<uint32_t>(nx));
+  put_u32(ihdr, static_cast<uint32_t>(ny));
+  ihdr.push_back(static_cast<char>(bits));
+  ihdr.append(std::string("\0\0\0\0", 4));  // grey, deflate, filter 0, no interlace
+  put_chunk(out, "IHDR", ihdr);
+  put_chunk(out, "tEXt", std::string("Comment") + '\0' + kResearchUseLine);
+  put_chunk(out, "IDAT", z);
+  put_chunk(out, "IEND", "");
+  return out;
+}
 
 float real_value(const ImageRecord& rec, size_t i) {
   const cfloat z = rec.pixels.data[i];
@@ -101,9 +154,10 @@ void write_png(const std::string& path, const ImageF& img, const PngWindow& w) {
     if (v > top) v = top;
     levels[static_cast<size_t>(i)] = static_cast<uint16_t>(std::lround(v));
   }
+  const std::string bytes =
+      encode_png(static_cast<size_t>(img.cols()), static_cast<size_t>(img.rows()), levels, w.bits, path);
   TempSibling temp(path);
-  internal::itk_write_png(temp.path(), path, static_cast<size_t>(img.cols()), static_cast<size_t>(img.rows()),
-                          levels, w.bits);
+  write_bytes_checked(temp.path(), bytes.data(), bytes.size(), path);
   temp.commit();
 }
 
@@ -132,16 +186,22 @@ ImageRecord import_image(const std::string& path) {
   const std::string ext = file_extension(path);
   if (!internal::itk_handles(ext))
     throw InputError(path, "", "unsupported extension '" + ext + "' (expected .h5, .nii.gz, .nii, .mha, .nrrd, .png)");
-  if (!file_exists(path)) throw InputError(path, "", "file not found");
-  const internal::PlainImage p = internal::itk_read(path, ext);
+  require_regular_file(path);
+  const internal::PlainImage p = internal::itk_read(
+      path, ext, [&path](const std::vector<size_t>& size, unsigned components, size_t component_bytes) {
+        // ITK order (x first) to ours (slowest first), checked before any pixel is read.
+        Shape s;
+        for (auto it = size.rbegin(); it != size.rend(); ++it) s.dims.push_back(static_cast<Index>(*it));
+        require_allocatable(s, sizeof(float) + components * component_bytes, "pixels", path, "image header");
+      });
   ImageRecord rec;
   const Index nx = static_cast<Index>(p.size[0]), ny = static_cast<Index>(p.size[1]);
   rec.pixels = NdArray<cfloat>(p.size.size() == 3 ? Shape{static_cast<Index>(p.size[2]), ny, nx} : Shape{ny, nx});
   for (size_t i = 0; i < rec.pixels.data.size(); ++i) rec.pixels.data[i] = cfloat(p.values[i], 0.f);
   require_finite(rec.pixels.ptr(), rec.pixels.size(), path, "pixels");
   rec.is_complex = false;
-  rec.pixel_spacing_mm[0] = p.spacing[1] > 0 ? p.spacing[1] : 1.0;
-  rec.pixel_spacing_mm[1] = p.spacing[0] > 0 ? p.spacing[0] : 1.0;
+  rec.pixel_spacing_mm[0] = p.spacing[1] > 0 && std::isfinite(p.spacing[1]) ? p.spacing[1] : 1.0;
+  rec.pixel_spacing_mm[1] = p.spacing[0] > 0 && std::isfinite(p.spacing[0]) ? p.spacing[0] : 1.0;
   rec.description = "imported from " + path;
   return rec;
 }

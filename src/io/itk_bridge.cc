@@ -1,6 +1,12 @@
 // SPDX-License-Identifier: Apache-2.0
-// The only translation unit that includes ITK: NIfTI, MetaImage, NRRD and PNG readers/writers.
+// The only translation unit that includes ITK: NIfTI, MetaImage, NRRD and PNG
+// readers, and the NIfTI, MetaImage and NRRD writers. PNG is written by
+// image_export.cc itself (checked writes, no library abort on a full disk).
 #include "itk_bridge.h"
+
+#include <sys/stat.h>
+#include <sys/statvfs.h>
+#include <zlib.h>
 
 #include <itkImage.h>
 #include <itkImageFileReader.h>
@@ -10,6 +16,15 @@
 #include <itkNiftiImageIO.h>
 #include <itkNrrdImageIO.h>
 #include <itkPNGImageIO.h>
+
+#include <algorithm>
+#include <cctype>
+#include <cmath>
+#include <cstdio>
+#include <cstring>
+#include <fstream>
+#include <regex>
+#include <sstream>
 
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
@@ -33,6 +48,205 @@ itk::ImageIOBase::Pointer io_for(const std::string& ext) {
   if (ext == ".nrrd") return itk::NrrdImageIO::New().GetPointer();
   if (ext == ".png") return itk::PNGImageIO::New().GetPointer();
   return nullptr;
+}
+
+// ITK's exception text as one short line: without the "ITK ERROR: Class(0x...)"
+// prefix, memory addresses, source locations and the multi-line traces of
+// the NRRD library.
+std::string one_line(const itk::ExceptionObject& e) {
+  std::string text = e.GetDescription() ? e.GetDescription() : "";
+  static const std::regex prefix(R"(ITK ERROR: [A-Za-z0-9_:]+\(0x[0-9a-fA-F]+\):\s*)");
+  static const std::regex address(R"(\(?0x[0-9a-fA-F]+\)?)");
+  static const std::regex nrrd_fn(R"(\[nrrd\] [A-Za-z0-9_]+:\s*)");
+  text = std::regex_replace(text, prefix, "");
+  text = std::regex_replace(text, nrrd_fn, "");
+  text = std::regex_replace(text, address, "");
+  std::istringstream in(text);
+  std::string line, out;
+  while (std::getline(in, line)) {
+    line.erase(0, line.find_first_not_of(" \t"));
+    while (!line.empty() && std::isspace(static_cast<unsigned char>(line.back()))) line.pop_back();
+    if (line.empty() || line == "trouble" || line.back() == ':') continue;
+    out = line;  // the last specific line says what went wrong
+  }
+  if (out.empty()) out = "the library gave no reason";
+  if (out.size() > 200) out = out.substr(0, 197) + "...";
+  return out;
+}
+
+// ------------------------------------------------ data length against the header
+
+uint64_t file_size(const std::string& path) {
+  struct stat st;
+  return ::stat(path.c_str(), &st) == 0 ? static_cast<uint64_t>(st.st_size) : 0;
+}
+
+std::string read_prefix(const std::string& path, size_t max_bytes) {
+  std::ifstream in(path, std::ios::binary);
+  std::string s(max_bytes, '\0');
+  in.read(s.data(), static_cast<std::streamsize>(max_bytes));
+  s.resize(static_cast<size_t>(in.gcount()));
+  return s;
+}
+
+// Inflates `in` (zlib or gzip stream, picked by `window_bits`) and counts the
+// bytes; `ok` is false when the stream is corrupt or ends early.
+uint64_t inflated_size(const unsigned char* in, size_t n, int window_bits, bool& ok) {
+  z_stream zs;
+  std::memset(&zs, 0, sizeof zs);
+  ok = false;
+  if (inflateInit2(&zs, window_bits) != Z_OK) return 0;
+  std::vector<unsigned char> buf(1 << 16);
+  zs.next_in = const_cast<unsigned char*>(in);
+  zs.avail_in = static_cast<uInt>(std::min<size_t>(n, 0xFFFFFFFFu));
+  uint64_t total = 0;
+  int rc = Z_OK;
+  while (rc == Z_OK) {
+    zs.next_out = buf.data();
+    zs.avail_out = static_cast<uInt>(buf.size());
+    rc = inflate(&zs, Z_NO_FLUSH);
+    total += buf.size() - zs.avail_out;
+    if (rc == Z_BUF_ERROR || (rc == Z_OK && zs.avail_in == 0 && zs.avail_out != 0)) break;
+  }
+  ok = rc == Z_STREAM_END;
+  inflateEnd(&zs);
+  return total;
+}
+
+std::string whole_file(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream ss;
+  ss << in.rdbuf();
+  return ss.str();
+}
+
+[[noreturn]] void short_data(const std::string& path, uint64_t have, uint64_t need) {
+  throw InputError(path, "", "holds " + std::to_string(have) + " bytes of pixel data but its header declares " +
+                                 std::to_string(need) + " (truncated or corrupt file)");
+}
+
+float nifti_float(const std::string& h, size_t off, bool swap) {
+  unsigned char b[4];
+  std::memcpy(b, h.data() + off, 4);
+  if (swap) std::reverse(b, b + 4);
+  float f;
+  std::memcpy(&f, b, 4);
+  return f;
+}
+
+void check_nifti_length(const std::string& path, bool gz, uint64_t need) {
+  std::string data;
+  uint64_t total = 0;
+  if (gz) {
+    data = whole_file(path);
+    bool ok = false;
+    // Inflate once to count; the header is then read from the start of the stream.
+    total = inflated_size(reinterpret_cast<const unsigned char*>(data.data()), data.size(), 16 + MAX_WBITS, ok);
+    if (!ok) throw InputError(path, "", "the gzip stream is truncated or corrupt");
+    gzFile f = gzopen(path.c_str(), "rb");
+    std::string h(352, '\0');
+    const int got = f ? gzread(f, h.data(), 352) : -1;
+    if (f) gzclose(f);
+    if (got < 348) throw InputError(path, "", "is too short for a NIfTI-1 header");
+    data = h;
+  } else {
+    data = read_prefix(path, 352);
+    total = file_size(path);
+    if (data.size() < 348) throw InputError(path, "", "is too short for a NIfTI-1 header");
+  }
+  int32_t sizeof_hdr;
+  std::memcpy(&sizeof_hdr, data.data(), 4);
+  const bool swap = sizeof_hdr != 348;
+  const float vox_offset = nifti_float(data, 108, swap);
+  if (!std::isfinite(vox_offset) || vox_offset < 0 || vox_offset > 1e9)
+    throw InputError(path, "", "the NIfTI header has an invalid vox_offset");
+  const uint64_t start = std::max<uint64_t>(352, static_cast<uint64_t>(vox_offset));
+  const uint64_t have = total > start ? total - start : 0;
+  if (have < need) short_data(path, have, need);
+}
+
+// Text header "key = value" / "key: value" lines up to `end`, lower-cased keys.
+std::string header_value(const std::string& header, const std::string& key, char sep) {
+  std::istringstream in(header);
+  std::string line;
+  while (std::getline(in, line)) {
+    const auto p = line.find(sep);
+    if (p == std::string::npos) continue;
+    std::string k = line.substr(0, p);
+    k.erase(k.find_last_not_of(" \t\r") + 1);
+    k.erase(0, k.find_first_not_of(" \t"));
+    std::transform(k.begin(), k.end(), k.begin(), [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
+    if (k != key) continue;
+    std::string v = line.substr(p + 1);
+    v.erase(0, v.find_first_not_of(" \t"));
+    v.erase(v.find_last_not_of(" \t\r") + 1);
+    return v;
+  }
+  return "";
+}
+
+void check_metaimage_length(const std::string& path, uint64_t need) {
+  const std::string data = whole_file(path);
+  // The header ends with the line "ElementDataFile = LOCAL"; the data follows.
+  size_t pos = 0, header_end = std::string::npos;
+  while (pos < data.size()) {
+    const auto nl = data.find('\n', pos);
+    const std::string line = data.substr(pos, (nl == std::string::npos ? data.size() : nl) - pos);
+    if (line.compare(0, 15, "ElementDataFile") == 0) {
+      header_end = nl == std::string::npos ? data.size() : nl + 1;
+      break;
+    }
+    if (nl == std::string::npos) break;
+    pos = nl + 1;
+  }
+  if (header_end == std::string::npos) throw InputError(path, "", "the MetaImage header has no ElementDataFile line");
+  const std::string header = data.substr(0, header_end);
+  std::string where = header_value(header, "elementdatafile", '=');
+  if (where != "LOCAL" && where != "local")
+    throw InputError(path, "", "keeps its pixels in a separate file ('" + where +
+                                   "'); a .mha file must hold them itself (ElementDataFile = LOCAL)");
+  const std::string compressed = header_value(header, "compresseddata", '=');
+  const uint64_t have_raw = data.size() - header_end;
+  if (compressed == "True" || compressed == "true") {
+    bool ok = false;
+    const uint64_t have =
+        inflated_size(reinterpret_cast<const unsigned char*>(data.data() + header_end), have_raw, MAX_WBITS, ok);
+    if (!ok || have < need) short_data(path, have, need);
+    return;
+  }
+  if (have_raw < need) short_data(path, have_raw, need);
+}
+
+void check_nrrd_length(const std::string& path, uint64_t need) {
+  const std::string data = whole_file(path);
+  size_t header_end = data.find("\n\n");
+  size_t skip = 2;
+  if (const size_t crlf = data.find("\r\n\r\n"); crlf != std::string::npos && crlf < header_end) {
+    header_end = crlf;
+    skip = 4;
+  }
+  if (header_end == std::string::npos) return;  // detached header: ITK reports what it finds
+  const std::string header = data.substr(0, header_end);
+  if (!header_value(header, "data file", ':').empty() || !header_value(header, "datafile", ':').empty()) return;
+  if (!header_value(header, "line skip", ':').empty() || !header_value(header, "byte skip", ':').empty()) return;
+  const std::string enc = header_value(header, "encoding", ':');
+  const size_t start = header_end + skip;
+  const uint64_t have_raw = data.size() > start ? data.size() - start : 0;
+  if (enc == "raw") {
+    if (have_raw < need) short_data(path, have_raw, need);
+  } else if (enc == "gzip" || enc == "gz") {
+    bool ok = false;
+    const uint64_t have =
+        inflated_size(reinterpret_cast<const unsigned char*>(data.data() + start), have_raw, 16 + MAX_WBITS, ok);
+    if (!ok || have < need) short_data(path, have, need);
+  }
+}
+
+void check_data_length(const std::string& path, const std::string& ext, uint64_t need) {
+  if (ext == ".nii") check_nifti_length(path, false, need);
+  else if (ext == ".nii.gz") check_nifti_length(path, true, need);
+  else if (ext == ".mha") check_metaimage_length(path, need);
+  else if (ext == ".nrrd") check_nrrd_length(path, need);
 }
 
 template <unsigned D>
@@ -65,32 +279,7 @@ void write_float_dim(const std::string& file_name, const std::string& target, it
   try {
     writer->Update();
   } catch (const itk::ExceptionObject& e) {
-    throw WorkError("cannot write " + target + ": " + e.GetDescription());
-  }
-}
-
-template <typename Pixel>
-void write_png_typed(const std::string& file_name, const std::string& target, size_t nx, size_t ny,
-                     const std::vector<uint16_t>& levels) {
-  using Img = itk::Image<Pixel, 2>;
-  auto out = Img::New();
-  typename Img::RegionType region;
-  typename Img::SizeType size;
-  size[0] = static_cast<itk::SizeValueType>(nx);
-  size[1] = static_cast<itk::SizeValueType>(ny);
-  region.SetSize(size);
-  out->SetRegions(region);
-  out->Allocate();
-  Pixel* buf = out->GetBufferPointer();
-  for (size_t i = 0; i < levels.size(); ++i) buf[i] = static_cast<Pixel>(levels[i]);
-  auto writer = itk::ImageFileWriter<Img>::New();
-  writer->SetImageIO(itk::PNGImageIO::New());
-  writer->SetFileName(file_name);
-  writer->SetInput(out);
-  try {
-    writer->Update();
-  } catch (const itk::ExceptionObject& e) {
-    throw WorkError("cannot write " + target + ": " + e.GetDescription());
+    throw WorkError("cannot write " + target + ": " + one_line(e));
   }
 }
 
@@ -98,29 +287,47 @@ void write_png_typed(const std::string& file_name, const std::string& target, si
 
 bool itk_handles(const std::string& ext) { return io_for(ext) != nullptr; }
 
+long long free_bytes_near(const std::string& path) {
+  const auto slash = path.find_last_of('/');
+  const std::string dir = slash == std::string::npos ? "." : (slash == 0 ? "/" : path.substr(0, slash));
+  struct statvfs vfs;
+  if (::statvfs(dir.c_str(), &vfs) != 0) return -1;
+  return static_cast<long long>(vfs.f_bavail) * static_cast<long long>(vfs.f_frsize);
+}
+
 void itk_write_float(const std::string& file_name, const std::string& target, const std::string& ext,
                      const PlainImage& img) {
   quiet_itk();
   auto io = io_for(ext);
   if (!io || ext == ".png") throw WorkError("cannot write " + target + ": no float writer for '" + ext + "'");
+  if (img.size.size() != 2 && img.size.size() != 3)
+    throw WorkError("cannot write " + target + ": only 2-D and 3-D images are supported");
+  // The writers of the NIfTI and MetaImage libraries do not report a short
+  // write, so make sure the file fits first (compressed files are smaller; the
+  // raw size is the bound), and read it back afterwards.
+  const long long need = static_cast<long long>(img.values.size() * sizeof(float)) + 4096;
+  const long long avail = free_bytes_near(file_name);
+  if (avail >= 0 && avail < need)
+    throw WorkError("cannot write " + target + ": not enough free space (needs up to " + std::to_string(need) +
+                    " bytes, " + std::to_string(avail) + " free)");
   if (img.size.size() == 2)
     write_float_dim<2>(file_name, target, io.GetPointer(), img);
-  else if (img.size.size() == 3)
+  else
     write_float_dim<3>(file_name, target, io.GetPointer(), img);
-  else
-    throw WorkError("cannot write " + target + ": only 2-D and 3-D images are supported");
+  PlainImage back;
+  try {
+    back = itk_read(file_name, ext);
+  } catch (const InputError& e) {
+    throw WorkError("cannot write " + target + ": the written file does not read back (" + e.reason() + ")");
+  }
+  std::vector<size_t> want = img.size;
+  if (want.size() == 3 && want[2] == 1) want.pop_back();
+  if (back.size != want || back.values.size() != img.values.size() ||
+      std::memcmp(back.values.data(), img.values.data(), img.values.size() * sizeof(float)) != 0)
+    throw WorkError("cannot write " + target + ": the written file reads back different from what was written");
 }
 
-void itk_write_png(const std::string& file_name, const std::string& target, size_t nx, size_t ny,
-                   const std::vector<uint16_t>& levels, int bits) {
-  quiet_itk();
-  if (bits == 16)
-    write_png_typed<uint16_t>(file_name, target, nx, ny, levels);
-  else
-    write_png_typed<uint8_t>(file_name, target, nx, ny, levels);
-}
-
-PlainImage itk_read(const std::string& path, const std::string& ext) {
+PlainImage itk_read(const std::string& path, const std::string& ext, const HeaderCheck& check) {
   quiet_itk();
   auto io = io_for(ext);
   if (!io) throw InputError(path, "", "unsupported extension '" + ext + "'");
@@ -143,13 +350,22 @@ PlainImage itk_read(const std::string& path, const std::string& ext) {
     if (ptype != itk::IOPixelEnum::SCALAR && !colour)
       throw InputError(path, "", "has " + itk::ImageIOBase::GetPixelTypeAsString(ptype) +
                                      " pixels; expected grey values (use .h5 for complex images)");
+    std::vector<size_t> size;
+    for (unsigned d = 0; d < dims; ++d) size.push_back(io->GetDimensions(d));
+    const size_t comp_bytes = io->GetComponentSize();
+    if (check) check(size, comps, comp_bytes);
+    uint64_t need = comps * static_cast<uint64_t>(comp_bytes);
+    for (size_t s : size) need *= s;
+    check_data_length(path, ext, need);
     auto reader = itk::ImageFileReader<Img>::New();
     reader->SetImageIO(io);
     reader->SetFileName(path);
     reader->Update();
     img = reader->GetOutput();
   } catch (const itk::ExceptionObject& e) {
-    throw InputError(path, "", std::string("cannot read image: ") + e.GetDescription());
+    throw InputError(path, "", "cannot read image: " + one_line(e));
+  } catch (const std::bad_alloc&) {
+    throw InputError(path, "", "cannot read image: its header declares more data than fits in memory");
   }
   const auto size = img->GetLargestPossibleRegion().GetSize();
   const auto spacing = img->GetSpacing();

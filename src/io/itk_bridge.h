@@ -6,6 +6,7 @@
 
 #include <cstddef>
 #include <cstdint>
+#include <functional>
 #include <string>
 #include <vector>
 
@@ -22,15 +23,25 @@ struct PlainImage {
 bool itk_handles(const std::string& ext);
 
 // Writes float32 pixels to `file_name` (whose extension picks NIfTI/MetaImage/NRRD).
-// `target` names the final file in error messages. Throws WorkError.
+// `target` names the final file in error messages. Before writing, the free
+// space of the folder is checked; after writing, the file is read back and
+// compared with `img` (sizes and every value), so a truncated or short file is
+// an error and never reported as written. Throws WorkError.
 void itk_write_float(const std::string& file_name, const std::string& target, const std::string& ext,
                      const PlainImage& img);
 
-// Writes an 8-bit (levels <= 255) or 16-bit grey PNG of nx x ny levels, row 0 on top. Throws WorkError.
-void itk_write_png(const std::string& file_name, const std::string& target, size_t nx, size_t ny,
-                   const std::vector<uint16_t>& levels, int bits);
+// Called by itk_read once the header is known and before any pixel is
+// allocated: `size` in ITK order (x first), the number of components and the
+// bytes of one component. May throw to refuse the image (size limits).
+using HeaderCheck = std::function<void(const std::vector<size_t>& size, unsigned components, size_t component_bytes)>;
 
-// Reads a 2-D or 3-D grey (or RGB/RGBA → luminance) image as float. Throws InputError naming `path`.
-PlainImage itk_read(const std::string& path, const std::string& ext);
+// Reads a 2-D or 3-D grey (or RGB/RGBA → luminance) image as float. The data
+// length is checked against the header (NIfTI, MetaImage and NRRD, raw or
+// gzip-compressed): a short file is refused, never padded with zeros.
+// Throws InputError naming `path`; library messages are reduced to one line.
+PlainImage itk_read(const std::string& path, const std::string& ext, const HeaderCheck& check = {});
+
+// Bytes free for an unprivileged writer in the folder of `path`; -1 if unknown.
+long long free_bytes_near(const std::string& path);
 
 }  // namespace recofold::internal

@@ -28,14 +28,29 @@ class AtomicFile {
   bool committed_ = false;
 };
 
-// Writes `text` to `path` atomically. Throws WorkError on I/O failure.
+// Writes `text` to `path` atomically. Every write and the close are checked
+// (a full disk, a quota, a read-only folder): WorkError naming `path`, and
+// neither the temporary file nor a partial target is left.
 void write_text_atomic(const std::string& path, const std::string& text);
 
-// Reads a whole file; throws InputError(path, "", ...) if it cannot be opened.
+// Writes `size` bytes to the file `path` (created or truncated), checking every
+// write and the close. Throws WorkError naming `target` (the final name the
+// user knows; `path` may be its temporary file).
+void write_bytes_checked(const std::string& path, const void* data, size_t size, const std::string& target);
+
+// Reads a whole file; throws InputError(path, "", ...) if it is missing, a
+// directory, or cannot be read.
 std::string read_text_file(const std::string& path);
 
 // True if a regular file exists at `path`.
 bool file_exists(const std::string& path);
+
+// True if `path` is a directory.
+bool is_directory(const std::string& path);
+
+// InputError(path, "", ...) unless `path` is an existing regular file (names
+// a missing file as missing and a directory as a directory).
+void require_regular_file(const std::string& path);
 
 // Lower-cased extension including compound ones: ".h5", ".nii.gz", ".png".
 std::string file_extension(const std::string& path);
