@@ -7,6 +7,8 @@
 #include <CLI/CLI.hpp>
 
 #include <cerrno>
+#include <cmath>
+#include <cstdlib>
 #include <cstdio>
 #include <cstring>
 #include <iostream>
@@ -50,6 +52,60 @@ std::string readable_numbers(std::string s) {
   return s;
 }
 
+// Size flags: an upper bound each, checked while parsing, so a value that
+// would make the program allocate gigabytes is refused naming the flag before
+// any work (lower bounds and cross-checks stay with the commands).
+struct FlagLimit {
+  const char* name;
+  double max;
+};
+constexpr FlagLimit kFlagLimits[] = {
+    {"--views", 20000},        {"--detectors", 16384}, {"--spokes", 100000},     {"--count", 100000},
+    {"--components", 10000},   {"--texture-blobs", 1000000}, {"--iters", 1000000}, {"--jobs", 1024},
+    {"--supersample", 256},    {"--levels", 16},       {"--index", 1000000},
+};
+
+CLI::Validator at_most(double max) {
+  return CLI::Validator(
+      [max](std::string& value) -> std::string {
+        char* end = nullptr;
+        const double v = std::strtod(value.c_str(), &end);
+        if (end == value.c_str()) return "";  // not a number: the option's own conversion reports it
+        char buf[64];
+        if (!(v <= max)) {
+          std::snprintf(buf, sizeof buf, "got %s, expected at most %.0f", value.c_str(), max);
+          return buf;
+        }
+        return "";
+      },
+      "", "at most");
+}
+
+// Every number flag must be finite: "nan" and "inf" are refused naming the flag.
+CLI::Validator finite_number() {
+  return CLI::Validator(
+      [](std::string& value) -> std::string {
+        char* end = nullptr;
+        const double v = std::strtod(value.c_str(), &end);
+        if (end == value.c_str()) return "";
+        if (!std::isfinite(v)) return "got " + value + ", expected a finite number";
+        return "";
+      },
+      "", "finite");
+}
+
+void install_flag_limits(CLI::App& app) {
+  for (CLI::App* sub : app.get_subcommands([](CLI::App*) { return true; })) {
+    for (CLI::Option* opt : sub->get_options()) {
+      const std::string type = opt->get_type_name();
+      if (type.rfind("FLOAT", 0) == 0 || type.rfind("INT", 0) == 0 || type.rfind("UINT", 0) == 0)
+        opt->check(finite_number());
+      for (const auto& limit : kFlagLimits)
+        if (opt->check_lname(std::string(limit.name).substr(2))) opt->check(at_most(limit.max));
+    }
+  }
+}
+
 // Whatever a command printed must reach standard output; a failed write
 // (a full disk, a closed pipe, /dev/full) is a failure of the work.
 int check_stdout() {
@@ -85,6 +141,7 @@ int main(int argc, char** argv) {
       ->check(CLI::Range(0, 1024));
   app.add_flag("--quiet,-q", ctx.quiet, "No progress output");
   cli::register_all_commands(app, ctx);
+  install_flag_limits(app);
   app.footer(kResearchUseLine);
 
   try {

@@ -70,6 +70,25 @@ void require_rank(const Shape& got, int min_rank, int max_rank, const std::strin
   }
 }
 
+void require_any_nonzero(const uint8_t* data, Index n, const std::string& file, const std::string& field,
+                         const std::string& what) {
+  for (Index i = 0; i < n; ++i)
+    if (data[i] != 0) return;
+  throw InputError(file, field, "is all zero; expected " + what);
+}
+
+void require_coil_maps_nonzero(const cfloat* maps, Index coils, Index pixels_per_coil, const std::string& file,
+                               const std::string& field) {
+  for (Index c = 0; c < coils; ++c) {
+    bool any = false;
+    for (Index i = 0; i < pixels_per_coil && !any; ++i) any = maps[c * pixels_per_coil + i] != cfloat(0.f, 0.f);
+    if (!any)
+      throw InputError(file, field, coils == 1 ? std::string("the coil map is all zero; expected a sensitivity map")
+                                               : "the map of coil " + std::to_string(c) +
+                                                     " is all zero; expected a sensitivity map for every coil");
+  }
+}
+
 uint64_t memory_budget_bytes() {
   uint64_t budget = available_memory_bytes() / 2;
   if (const char* cap = std::getenv("RECOFOLD_MEMORY_LIMIT_MB")) {

@@ -183,9 +183,11 @@ Measurement read_measurement_file(const std::string& path) {
       if (d.mask.data[static_cast<size_t>(i)] > 1)
         c.bad("/mri/mask", "value " + std::to_string(d.mask.data[static_cast<size_t>(i)]) + " at flat index " +
                                std::to_string(i) + "; the mask holds only 0 and 1");
+    require_any_nonzero(d.mask.ptr(), d.mask.size(), path, "/mri/mask", "at least one sampled k-space location (value 1)");
     require_shape(r.shape("/mri/coil_maps"), ks, path, "/mri/coil_maps");
     d.coil_maps = r.read_complex("/mri/coil_maps");
     require_finite(d.coil_maps.ptr(), d.coil_maps.size(), path, "/mri/coil_maps");
+    require_coil_maps_nonzero(d.coil_maps.ptr(), ks[0], m.ny * m.nx, path, "/mri/coil_maps");
     if (r.has("/mri/spoke_angles_rad")) {
       const NdArray<double> a = r.read_double("/mri/spoke_angles_rad");
       require_rank(a.shape, 1, 1, path, "/mri/spoke_angles_rad");

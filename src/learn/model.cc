@@ -6,6 +6,7 @@
 
 #include "json_text.h"
 #include "model_state.h"
+#include "recofold/core/checks.h"
 #include "recofold/core/error.h"
 
 namespace recofold {
@@ -45,6 +46,7 @@ void read_tensors(const H5Reader& r, const std::string& group,
     const std::string path = group + "/" + name;
     if (!r.has(path)) throw InputError(r.file(), path, "missing parameter tensor");
     NdArray<float> a = r.read_float(path);
+    require_finite(a.ptr(), a.size(), r.file(), path);  // one NaN weight would silently give an all-zero image
     std::vector<Index> want;
     for (int64_t d : t.sizes()) want.push_back(d);
     if (want.empty()) want.push_back(1);

@@ -20,6 +20,17 @@ void require_shape(const Shape& got, const Shape& expected, const std::string& f
 // Throws InputError unless `got.rank()` is one of the allowed ranks.
 void require_rank(const Shape& got, int min_rank, int max_rank, const std::string& file, const std::string& field);
 
+// InputError(file, field, ...) when every element is zero: a sampling mask
+// that samples nothing, a weight map that selects nothing. `what` says what
+// was expected ("at least one sampled k-space location").
+void require_any_nonzero(const uint8_t* data, Index n, const std::string& file, const std::string& field,
+                         const std::string& what);
+
+// Coil sensitivity maps [coils, ny, nx]: InputError naming the first coil whose
+// map is all zero (it would receive no signal; all-zero maps reconstruct zeros).
+void require_coil_maps_nonzero(const cfloat* maps, Index coils, Index pixels_per_coil, const std::string& file,
+                               const std::string& field);
+
 // ---------------------------------------------------------------- size limits
 //
 // Every declared shape (a dataset in an HDF5 file, an image header, a size
