@@ -12,6 +12,9 @@ PACKAGES=(
   libhdf5-dev libgtest-dev libtomlplusplus-dev
   # zlib: PNG writer and the length checks of compressed NIfTI/MetaImage/NRRD (src/io)
   zlib1g-dev
+  # raw k-space in the ISMRMRD format (src/io/ismrmrd_file.cc) and its reference
+  # tools (tests/reference/io_ismrmrd_tools.py)
+  libismrmrd-dev ismrmrd-tools
   # learning (src/learn only)
   libtorch-dev
   # independent reference checks (tests/reference), run with /usr/bin/python3

@@ -1,5 +1,6 @@
 // SPDX-License-Identifier: Apache-2.0
 // `recofold convert IN OUT`: images between recofold HDF5 and NIfTI, MetaImage, NRRD and PNG.
+#include <cctype>
 #include <memory>
 #include <string>
 
@@ -8,6 +9,8 @@
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
 #include "recofold/io/image_export.h"
+#include "recofold/io/ismrmrd_file.h"
+#include "recofold/io/measurement_file.h"
 
 namespace recofold::cli {
 
@@ -22,9 +25,27 @@ struct ConvertFlags {
 
 const std::vector<std::string> kImageExtensions = {".h5", ".nii.gz", ".nii", ".mha", ".nrrd", ".png"};
 
+bool ends_with(const std::string& s, const std::string& tail) {
+  return s.size() >= tail.size() && s.compare(s.size() - tail.size(), tail.size(), tail) == 0;
+}
+
+// MEAS.h5 -> OUT.ismrmrd.h5: an MRI measurement as ISMRMRD raw data.
+void export_raw(const ConvertFlags& f, CLI::App& sub, const Context& ctx) {
+  for (const char* flag : {"--window-lo", "--window-hi", "--bits", "--index"})
+    if (sub.count(flag) > 0) throw InputError(f.out, flag, "does not apply to an ISMRMRD output");
+  if (!file_exists(f.in)) throw InputError(f.in, "IN", "file not found");
+  const Measurement m = read_measurement_file(f.in);
+  write_ismrmrd_file(f.out, m, f.in);
+  say(ctx, "wrote " + f.out + ": ISMRMRD raw data, " + std::to_string(m.mri->kspace.shape[0]) + " coils, " +
+               std::to_string(m.ny) + " x " + std::to_string(m.nx));
+}
+
 void run_convert(const ConvertFlags& f, CLI::App& sub, const Context& ctx) {
   require_output_path(f.out, "OUT", kImageExtensions);
   require_distinct_output(f.out, "OUT", {f.in});
+  std::string lower = f.out;
+  for (char& c : lower) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+  if (ends_with(lower, ".ismrmrd.h5")) return export_raw(f, sub, ctx);
   const bool lo_given = sub.count("--window-lo") > 0, hi_given = sub.count("--window-hi") > 0;
   if (lo_given != hi_given)
     throw InputError("", lo_given ? "--window-hi" : "--window-lo", "give --window-lo and --window-hi together");
@@ -77,7 +98,9 @@ void register_cmd_convert(CLI::App& app, Context& ctx) {
   sub->add_option("--bits", flags->bits, "PNG: bits per pixel, 8 or 16 (default 8)")->check(CLI::IsMember({8, 16}));
   sub->add_option("--index", flags->index, "Convert only image I of a stack [count, ny, nx]")
       ->check(CLI::NonNegativeNumber);
-  sub->footer("Complex images keep their values only in .h5; other formats get the magnitude.\n" + std::string(kResearchUseLine));
+  sub->footer("Complex images keep their values only in .h5; other formats get the magnitude.\n"
+              "An MRI measurement file converts to ISMRMRD raw data when OUT ends in .ismrmrd.h5 (line masks only).\n" +
+              std::string(kResearchUseLine));
   sub->callback([flags, sub, &ctx] { run_convert(*flags, *sub, ctx); });
 }
 
