@@ -5,6 +5,7 @@
 #include <string>
 
 #include "cli_common.h"
+#include "output_checks_cli.h"
 #include "recofold/acquire/raw_import.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
@@ -59,7 +60,7 @@ NdArray<cfloat> maps_from_file(const std::string& path, const Shape& want) {
 void run_import(ImportFlags& f, const Context& ctx) {
   // Every check before any work: bad input leaves no output.
   require_output_path(f.out, "--out", {".h5"});
-  if (f.raw == f.out) throw InputError(f.out, "--out", "is the raw input file; choose another output");
+  require_distinct_output(f.out, "--out", {f.raw, f.maps_file});
   IsmrmrdSelection sel;
   sel.slice = f.slice;
   sel.contrast = f.contrast;
