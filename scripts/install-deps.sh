@@ -15,6 +15,8 @@ PACKAGES=(
   # raw k-space in the ISMRMRD format (src/io/ismrmrd_file.cc) and its reference
   # tools (tests/reference/io_ismrmrd_tools.py)
   libismrmrd-dev ismrmrd-tools
+  # DICOM test images and an independent DICOM reader (tests/reference/io_dicom_pydicom.py only)
+  python3-pydicom
   # learning (src/learn only)
   libtorch-dev
   # independent reference checks (tests/reference), run with /usr/bin/python3

@@ -23,7 +23,7 @@ struct ConvertFlags {
   int index = -1;  // -1: keep the whole stack
 };
 
-const std::vector<std::string> kImageExtensions = {".h5", ".nii.gz", ".nii", ".mha", ".nrrd", ".png"};
+const std::vector<std::string> kImageExtensions = {".h5", ".nii.gz", ".nii", ".mha", ".nrrd", ".png", ".dcm"};
 
 bool ends_with(const std::string& s, const std::string& tail) {
   return s.size() >= tail.size() && s.compare(s.size() - tail.size(), tail.size(), tail) == 0;
@@ -90,8 +90,12 @@ void run_convert(const ConvertFlags& f, CLI::App& sub, const Context& ctx) {
 void register_cmd_convert(CLI::App& app, Context& ctx) {
   auto flags = std::make_shared<ConvertFlags>();
   CLI::App* sub = app.add_subcommand(
-      "convert", "Convert images between recofold HDF5 (.h5) and .nii.gz/.nii, .mha, .nrrd, .png");
-  sub->add_option("IN", flags->in, "Input image (.h5, .nii.gz, .nii, .mha, .nrrd, .png)")->required();
+      "convert", "Convert images between recofold HDF5 (.h5) and .nii.gz/.nii, .mha, .nrrd, .png, DICOM; "
+                 "MRI measurements to ISMRMRD raw data");
+  sub->add_option("IN", flags->in,
+                  "Input image (.h5, .nii.gz, .nii, .mha, .nrrd, .png, a DICOM file or a folder holding one DICOM "
+                  "series), or a measurement file for an .ismrmrd.h5 output")
+      ->required();
   sub->add_option("OUT", flags->out, "Output image; the format follows the extension")->required();
   sub->add_option("--window-lo", flags->window_lo, "PNG: value shown black (with --window-hi; default: image min)");
   sub->add_option("--window-hi", flags->window_hi, "PNG: value shown white (with --window-lo; default: image max)");
@@ -99,6 +103,8 @@ void register_cmd_convert(CLI::App& app, Context& ctx) {
   sub->add_option("--index", flags->index, "Convert only image I of a stack [count, ny, nx]")
       ->check(CLI::NonNegativeNumber);
   sub->footer("Complex images keep their values only in .h5; other formats get the magnitude.\n"
+              "DICOM in: rescale slope and intercept applied, pixel spacing kept; DICOM out (.dcm): one 2-D image, int16 "
+              "with rescale slope/intercept.\n"
               "An MRI measurement file converts to ISMRMRD raw data when OUT ends in .ismrmrd.h5 (line masks only).\n" +
               std::string(kResearchUseLine));
   sub->callback([flags, sub, &ctx] { run_convert(*flags, *sub, ctx); });

@@ -15,6 +15,7 @@
 #include <limits>
 
 #include "itk_bridge.h"
+#include "recofold/io/dicom_file.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/checks.h"
 #include "recofold/core/error.h"
@@ -184,6 +185,7 @@ void export_image(const std::string& path, const ImageRecord& rec) {
 
 ImageRecord import_image(const std::string& path) {
   const std::string ext = file_extension(path);
+  if (is_dicom_input(path)) return read_dicom(path);
   if (!internal::itk_handles(ext))
     throw InputError(path, "", "unsupported extension '" + ext + "' (expected .h5, .nii.gz, .nii, .mha, .nrrd, .png)");
   require_regular_file(path);
@@ -206,7 +208,9 @@ ImageRecord import_image(const std::string& path) {
   return rec;
 }
 
-bool is_image_extension(const std::string& ext) { return ext == ".h5" || internal::itk_handles(ext); }
+bool is_image_extension(const std::string& ext) {
+  return ext == ".h5" || ext == ".dcm" || internal::itk_handles(ext);
+}
 
 ImageF image_slice(const ImageRecord& rec, Index index, const std::string& file) {
   const Shape& s = rec.pixels.shape;
@@ -237,6 +241,8 @@ void write_image_any(const std::string& path, const ImageRecord& rec, const Prov
     write_png(path, image_slice(rec, 0, path), w);
   } else if (internal::itk_handles(ext)) {
     export_image(path, rec);
+  } else if (ext == ".dcm") {
+    write_dicom(path, rec);
   } else {
     throw InputError(path, "", "unsupported extension '" + ext + "' (expected .h5, .nii.gz, .nii, .mha, .nrrd, .png)");
   }
