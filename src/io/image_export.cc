@@ -185,7 +185,8 @@ void export_image(const std::string& path, const ImageRecord& rec) {
 
 ImageRecord import_image(const std::string& path) {
   const std::string ext = file_extension(path);
-  if (is_dicom_input(path)) return read_dicom(path);
+  // A folder is a DICOM series unless its name carries another format's extension.
+  if (is_dicom_input(path) && !internal::itk_handles(ext) && ext != ".h5") return read_dicom(path);
   if (!internal::itk_handles(ext))
     throw InputError(path, "", "unsupported extension '" + ext + "' (expected .h5, .nii.gz, .nii, .mha, .nrrd, .png)");
   require_regular_file(path);

@@ -238,7 +238,7 @@ Measurement read_measurement_file(const std::string& path) {
     m.truth_is_complex = r.is_complex("/truth/image");
     m.truth = r.read_complex("/truth/image");
     require_finite(m.truth->ptr(), m.truth->size(), path, "/truth/image");
-    m.truth_kind = c.text("/truth", "kind", false, "", {"analytic", "discrete"});
+    m.truth_kind = c.text("/truth", "kind", false, "", {"analytic", "discrete", "fully sampled"});
   }
   m.provenance = internal::read_provenance_group(r);
   return m;

@@ -71,7 +71,7 @@ struct Measurement {
   std::optional<CtData> ct;
   std::optional<NdArray<cfloat>> truth;  // [ny, nx]
   bool truth_is_complex = false;
-  std::string truth_kind;  // "analytic" | "discrete"
+  std::string truth_kind;  // "analytic" | "discrete" | "fully sampled" (retrospective undersampling)
   Provenance provenance;
 };
 

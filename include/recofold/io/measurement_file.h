@@ -21,7 +21,8 @@
 //                            photons_per_ray (0: noiseless), electronic_sigma, mu_per_mm,
 //                            plus numbers/texts
 //   /truth/image             float32 or complex64 [ny, nx] (when known)
-//   /truth                   attr kind ("analytic"|"discrete")
+//   /truth                   attr kind ("analytic"|"discrete"|"fully sampled": the coil-combined
+//                            image of fully sampled data, retrospective undersampling)
 //   /provenance              attrs producer, command, created_utc, extra entries
 #pragma once
 
