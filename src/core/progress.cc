@@ -1,5 +1,5 @@
 // SPDX-License-Identifier: Apache-2.0
-// Stream progress reporter with rate and time-left estimate.
+// Stream progress reporter with a steady-rate time-left estimate.
 #include "recofold/core/progress.h"
 
 #include <cmath>
@@ -8,9 +8,27 @@
 
 namespace recofold {
 
-StreamProgress::StreamProgress(std::ostream& out, std::string label, ProgressMode mode, double line_interval_s)
-    : out_(out), label_(std::move(label)), mode_(mode), interval_(line_interval_s) {
-  start_ = last_ = std::chrono::steady_clock::now();
+namespace {
+constexpr int64_t kSteadySteps = 3;       // steps after the baseline before an estimate
+constexpr double kSteadySeconds = 1.0;    // or this much steady time (with at least one step)
+}  // namespace
+
+StreamProgress::StreamProgress(std::ostream& out, std::string label, ProgressMode mode, double line_interval_s,
+                               Clock clock)
+    : out_(out), label_(std::move(label)), mode_(mode), interval_(line_interval_s), clock_(std::move(clock)) {
+  start_run();
+}
+
+double StreamProgress::now() const {
+  if (clock_) return clock_();
+  return std::chrono::duration<double>(std::chrono::steady_clock::now().time_since_epoch()).count();
+}
+
+void StreamProgress::start_run() {
+  start_ = last_print_ = now();
+  first_done_ = -1;
+  last_done_ = last_total_ = 0;
+  printed_ = finished_ = false;
 }
 
 std::string StreamProgress::format_duration(double s) {
@@ -26,44 +44,69 @@ std::string StreamProgress::format_duration(double s) {
   return buf;
 }
 
+double StreamProgress::seconds_left(int64_t done, int64_t total) const {
+  if (first_done_ < 0 || total <= 0) return NAN;
+  const int64_t steps = last_done_ - first_done_;
+  const double dt = last_time_ - first_time_;
+  const bool steady = steps >= kSteadySteps || (steps >= 1 && dt >= kSteadySeconds);
+  if (!steady || !(dt > 0.0)) return NAN;
+  return static_cast<double>(total - done) * dt / static_cast<double>(steps);
+}
+
 void StreamProgress::update(int64_t done, int64_t total, const std::string& status) {
+  if (finished_) start_run();  // a new run on the same sink
+  const double t = now();
+  if (first_done_ < 0) {
+    first_done_ = done;
+    first_time_ = t;
+  }
+  last_done_ = done;
+  last_total_ = total;
+  last_time_ = t;
   if (mode_ == ProgressMode::kQuiet) return;
-  const auto now = std::chrono::steady_clock::now();
-  if (first_done_ < 0) first_done_ = done;
-  const double elapsed = std::chrono::duration<double>(now - start_).count();
-  const double since_last = std::chrono::duration<double>(now - last_).count();
   const bool last_step = total > 0 && done >= total;
-  if (mode_ == ProgressMode::kLines && printed_ && since_last < interval_ && !last_step) return;
-  if (mode_ == ProgressMode::kBar && printed_ && since_last < 0.1 && !last_step) return;
-  last_ = now;
-  const double rate = elapsed > 0 ? static_cast<double>(done) / elapsed : 0.0;
-  const double left = (rate > 0 && total > 0) ? static_cast<double>(total - done) / rate : NAN;
-  char head[160];
+  const double since_last = t - last_print_;
+  if (last_step) return;  // the final line (finish) reports it
+  if (mode_ == ProgressMode::kLines && printed_ && since_last < interval_) return;
+  if (mode_ == ProgressMode::kBar && printed_ && since_last < 0.1) return;
+  last_print_ = t;
+  const double left = seconds_left(done, total);
+  const int64_t steps = done - first_done_;
+  const double dt = t - first_time_;
+  const double rate = steps > 0 && dt > 0 ? static_cast<double>(steps) / dt : NAN;
   const double frac = total > 0 ? static_cast<double>(done) / static_cast<double>(total) : 0.0;
+  char head[200];
+  char tail[64] = "";
+  if (std::isfinite(left)) std::snprintf(tail, sizeof tail, " %.3g/s, left %s", rate, format_duration(left).c_str());
   if (mode_ == ProgressMode::kBar) {
     const int width = 24;
     const int fill = static_cast<int>(std::lround(frac * width));
     std::string bar(static_cast<size_t>(fill), '#');
     bar += std::string(static_cast<size_t>(width - fill), '.');
-    std::snprintf(head, sizeof head, "\r%s [%s] %lld/%lld %.3g/s left %s ", label_.c_str(), bar.c_str(),
-                  static_cast<long long>(done), static_cast<long long>(total), rate,
-                  format_duration(left).c_str());
+    std::snprintf(head, sizeof head, "\r%s [%s] %lld/%lld%s ", label_.c_str(), bar.c_str(),
+                  static_cast<long long>(done), static_cast<long long>(total), tail);
     out_ << head << status << "\x1b[K" << std::flush;
   } else {
-    std::snprintf(head, sizeof head, "%s: %lld/%lld (%.0f%%) %.3g/s, elapsed %s, left %s", label_.c_str(),
-                  static_cast<long long>(done), static_cast<long long>(total), 100.0 * frac, rate,
-                  format_duration(elapsed).c_str(), format_duration(left).c_str());
+    std::snprintf(head, sizeof head, "%s: %lld/%lld (%.0f%%), elapsed %s%s", label_.c_str(),
+                  static_cast<long long>(done), static_cast<long long>(total), 100.0 * frac,
+                  format_duration(t - start_).c_str(), tail);
     out_ << head << (status.empty() ? "" : "; ") << status << "\n" << std::flush;
   }
   printed_ = true;
 }
 
 void StreamProgress::finish(const std::string& status) {
+  if (finished_) return;
+  finished_ = true;
   if (mode_ == ProgressMode::kQuiet) return;
-  const double elapsed = std::chrono::duration<double>(std::chrono::steady_clock::now() - start_).count();
-  if (mode_ == ProgressMode::kBar && printed_) out_ << "\n";
-  out_ << label_ << ": done in " << format_duration(elapsed) << (status.empty() ? "" : "; ") << status << "\n"
-       << std::flush;
+  const double elapsed = now() - start_;
+  if (mode_ == ProgressMode::kBar && printed_) out_ << "\r";
+  out_ << label_ << ": ";
+  if (last_total_ > 0)
+    out_ << last_done_ << "/" << last_total_ << " ";
+  out_ << "done in " << format_duration(elapsed) << (status.empty() ? "" : "; ") << status;
+  if (mode_ == ProgressMode::kBar) out_ << "\x1b[K";
+  out_ << "\n" << std::flush;
 }
 
 ProgressMode choose_progress_mode(bool quiet, bool is_terminal) {

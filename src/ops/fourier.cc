@@ -4,6 +4,7 @@
 
 #include <omp.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <vector>
@@ -194,8 +195,12 @@ void MaskedFourier::apply(const VecC& x, VecC& y) const {
   RECOFOLD_CHECK(x.size() == n) << name() << ": apply to " << x.size() << " values";
   y.resize(coils_ * n);
   const int threads = coil_threads(coils_);
-#pragma omp parallel for num_threads(threads) schedule(static) if (threads > 1)
-  for (Index c = 0; c < coils_; ++c) forward_coil(x.data(), c, y.data() + c * n);
+  if (threads > 1) {  // explicit serial branch: no one-thread OpenMP regions (they allocate a team each time)
+#pragma omp parallel for num_threads(threads) schedule(static)
+    for (Index c = 0; c < coils_; ++c) forward_coil(x.data(), c, y.data() + c * n);
+  } else {
+    for (Index c = 0; c < coils_; ++c) forward_coil(x.data(), c, y.data() + c * n);
+  }
 }
 
 namespace {
@@ -211,21 +216,24 @@ void accumulate_over_coils(Index coils, Index n, VecC& out, F&& per_coil) {
     for (Index c = 0; c < coils; ++c) per_coil(c, out.data());
     return;
   }
-  std::vector<cfloat*> partial(static_cast<size_t>(threads), nullptr);
-#pragma omp parallel num_threads(threads)
+  // Per-thread partial images live in the threads' FFT scratch (slot 2): no allocation per call.
+  constexpr int kMaxPartials = 256;
+  const int used_threads = std::min(threads, kMaxPartials);
+  cfloat* partial[kMaxPartials] = {};
+#pragma omp parallel num_threads(used_threads)
   {
     cfloat* acc = internal::fft_scratch(static_cast<size_t>(n), 2);
     std::fill(acc, acc + n, cfloat(0.0f, 0.0f));
-    partial[static_cast<size_t>(omp_get_thread_num())] = acc;
+    partial[omp_get_thread_num()] = acc;
 #pragma omp for schedule(static)
     for (Index c = 0; c < coils; ++c) per_coil(c, acc);
   }
-  const int used = threads;
-#pragma omp parallel for num_threads(threads) schedule(static)
+  const int used = used_threads;
+#pragma omp parallel for num_threads(used_threads) schedule(static)
   for (Index i = 0; i < n; ++i) {
     cfloat s(0.0f, 0.0f);
     for (int t = 0; t < used; ++t)
-      if (partial[static_cast<size_t>(t)]) s += partial[static_cast<size_t>(t)][i];
+      if (partial[t]) s += partial[t][i];
     out[i] = s;
   }
 }

@@ -2,6 +2,8 @@
 // Joseph projector / exact transpose: ray table set-up and the two OpenMP loops.
 #include "recofold/ops/joseph_projector.h"
 
+#include <omp.h>
+
 #include <algorithm>
 #include <cmath>
 #include <sstream>
@@ -61,6 +63,16 @@ inline void detector_range(float base, float delta, int n, int count, int& lo, i
 }
 
 }  // namespace
+
+// Buffers kept between calls (ScratchCache): padded image grids, the weighted
+// sinogram, real/imaginary parts of complex vectors, per-thread detector rows.
+struct JosephProjector::Workspace {
+  std::vector<float> rows, cols, sw, part, out, image, thread_acc, thread_left, thread_right;
+  std::vector<int> thread_index;
+};
+
+JosephProjector::JosephProjector(const JosephProjector& other) = default;
+JosephProjector::~JosephProjector() = default;
 
 JosephProjector::JosephProjector(CtGeometry geometry, double scale) : geometry_(std::move(geometry)), scale_(scale) {
   auto errors = geometry_.validate();
@@ -155,36 +167,52 @@ std::string JosephProjector::name() const {
 }
 
 void JosephProjector::project(const float* image, float* sinogram) const {
+  auto lease = scratch_.borrow();
+  project_with(*lease, image, sinogram);
+}
+
+void JosephProjector::project_with(Workspace& ws, const float* image, float* sinogram) const {
   const Index ny = geometry_.ny, nx = geometry_.nx;
   const Index rs = nx + 2, cs = ny + 2;
-  std::vector<float> rows(static_cast<size_t>(ny * rs), 0.0f);
-  std::vector<float> cols(any_by_columns_ ? static_cast<size_t>(nx * cs) : 0, 0.0f);
+  ws.rows.resize(static_cast<size_t>(ny * rs));
+  ws.cols.resize(any_by_columns_ ? static_cast<size_t>(nx * cs) : 0);
+  float* rows = ws.rows.data();
+  float* cols = ws.cols.data();
 #pragma omp parallel
   {
+    // Interior copied, the two padding entries of each row (column) set to zero:
+    // the buffers are reused and may hold a back-projection's sums.
 #pragma omp for schedule(static)
-    for (Index r = 0; r < ny; ++r) std::copy(image + r * nx, image + (r + 1) * nx, rows.data() + r * rs + 1);
+    for (Index r = 0; r < ny; ++r) {
+      float* row = rows + r * rs;
+      row[0] = row[nx + 1] = 0.0f;
+      std::copy(image + r * nx, image + (r + 1) * nx, row + 1);
+    }
     if (any_by_columns_) {
       // Blocked transpose into the padded column grid.
 #pragma omp for schedule(static)
-      for (Index c0 = 0; c0 < nx; c0 += 32)
+      for (Index c0 = 0; c0 < nx; c0 += 32) {
+        for (Index c = c0; c < std::min(c0 + 32, nx); ++c) cols[c * cs] = cols[c * cs + ny + 1] = 0.0f;
         for (Index r0 = 0; r0 < ny; r0 += 32)
           for (Index c = c0; c < std::min(c0 + 32, nx); ++c)
-            for (Index r = r0; r < std::min(r0 + 32, ny); ++r)
-              cols[static_cast<size_t>(c * cs + r + 1)] = image[r * nx + c];
+            for (Index r = r0; r < std::min(r0 + 32, ny); ++r) cols[c * cs + r + 1] = image[r * nx + c];
+      }
     }
   }
   if (parallel_)
-    project_parallel(rows.data(), cols.data(), sinogram);
+    project_parallel(ws, rows, cols, sinogram);
   else
-    project_rays(rows.data(), cols.data(), sinogram);
+    project_rays(rows, cols, sinogram);
 }
 
-void JosephProjector::project_parallel(const float* rows, const float* cols, float* sinogram) const {
+void JosephProjector::project_parallel(Workspace& ws, const float* rows, const float* cols, float* sinogram) const {
   const Index nv = geometry_.view_count(), nd = geometry_.detector_count;
   const Index rs = geometry_.nx + 2, cs = geometry_.ny + 2;
-#pragma omp parallel
+  const int max_threads = omp_get_max_threads();
+  ws.thread_acc.resize(static_cast<size_t>(max_threads * nd));
+#pragma omp parallel num_threads(max_threads)
   {
-    std::vector<float> acc(static_cast<size_t>(nd));
+    float* const acc_row = ws.thread_acc.data() + omp_get_thread_num() * nd;
 #pragma omp for schedule(dynamic, 1)
     for (Index v = 0; v < nv; ++v) {
       const ParallelView& pv = views_[static_cast<size_t>(v)];
@@ -192,8 +220,8 @@ void JosephProjector::project_parallel(const float* rows, const float* cols, flo
       const Index stride = pv.by_rows ? rs : cs;
       const int steps = static_cast<int>(pv.by_rows ? geometry_.ny : geometry_.nx);
       const int n = static_cast<int>(pv.by_rows ? geometry_.nx : geometry_.ny);
-      std::fill(acc.begin(), acc.end(), 0.0f);
-      float* a = acc.data();
+      std::fill(acc_row, acc_row + nd, 0.0f);
+      float* a = acc_row;
       const float delta = pv.delta;
       for (int r = 0; r < steps; ++r) {
         const float base = position(pv.start0, pv.slope, r);
@@ -232,14 +260,21 @@ void JosephProjector::project_rays(const float* rows, const float* cols, float* 
 }
 
 void JosephProjector::back_project(const float* sinogram, float* image) const {
+  auto lease = scratch_.borrow();
+  back_project_with(*lease, sinogram, image);
+}
+
+void JosephProjector::back_project_with(Workspace& ws, const float* sinogram, float* image) const {
   const Index ny = geometry_.ny, nx = geometry_.nx;
   const Index rs = nx + 2, cs = ny + 2;
-  std::vector<float> rows(static_cast<size_t>(ny * rs), 0.0f);
-  std::vector<float> cols(any_by_columns_ ? static_cast<size_t>(nx * cs) : 0, 0.0f);
+  ws.rows.assign(static_cast<size_t>(ny * rs), 0.0f);
+  ws.cols.assign(any_by_columns_ ? static_cast<size_t>(nx * cs) : 0, 0.0f);
+  float* rows = ws.rows.data();
+  float* cols = ws.cols.data();
   if (parallel_)
-    back_project_parallel(sinogram, rows.data(), cols.data());
+    back_project_parallel(ws, sinogram, rows, cols);
   else
-    back_project_rays(sinogram, rows.data(), cols.data());
+    back_project_rays(sinogram, rows, cols);
 #pragma omp parallel for schedule(static)
   for (Index r = 0; r < ny; ++r) {
     for (Index c = 0; c < nx; ++c) {
@@ -250,27 +285,31 @@ void JosephProjector::back_project(const float* sinogram, float* image) const {
   }
 }
 
-void JosephProjector::back_project_parallel(const float* sinogram, float* rows, float* cols) const {
+void JosephProjector::back_project_parallel(Workspace& ws, const float* sinogram, float* rows, float* cols) const {
   const Index ny = geometry_.ny, nx = geometry_.nx;
   const Index nv = geometry_.view_count(), nd = geometry_.detector_count;
   const Index rs = nx + 2, cs = ny + 2;
   const Index row_blocks = (ny + kBlock - 1) / kBlock, col_blocks = (nx + kBlock - 1) / kBlock;
   const Index col_tasks = any_by_columns_ ? col_blocks : 0;
   // Sinogram times each view's scale * weight, once.
-  std::vector<float> sw(static_cast<size_t>(nv * nd));
+  std::vector<float>& sw = ws.sw;
+  sw.resize(static_cast<size_t>(nv * nd));
   for (Index v = 0; v < nv; ++v) {
     const float w = static_cast<float>(scale_ * views_[static_cast<size_t>(v)].weight);
     for (Index j = 0; j < nd; ++j) sw[static_cast<size_t>(v * nd + j)] = w * sinogram[v * nd + j];
   }
   // Each task owns a block of rows of one accumulator: no two threads write
   // the same element.
-#pragma omp parallel
+  const int max_threads = omp_get_max_threads();
+  ws.thread_index.resize(static_cast<size_t>(max_threads * nd));
+  ws.thread_left.resize(static_cast<size_t>(max_threads * nd));
+  ws.thread_right.resize(static_cast<size_t>(max_threads * nd));
+#pragma omp parallel num_threads(max_threads)
   {
-    std::vector<int> index_buf(static_cast<size_t>(nd));
-    std::vector<float> left_buf(static_cast<size_t>(nd)), right_buf(static_cast<size_t>(nd));
-    int* index = index_buf.data();
-    float* left = left_buf.data();
-    float* right = right_buf.data();
+    const Index t = omp_get_thread_num();
+    int* index = ws.thread_index.data() + t * nd;
+    float* left = ws.thread_left.data() + t * nd;
+    float* right = ws.thread_right.data() + t * nd;
 #pragma omp for schedule(dynamic, 1)
     for (Index task = 0; task < row_blocks + col_tasks; ++task) {
       const bool by_rows = task < row_blocks;
@@ -340,16 +379,21 @@ void JosephProjector::back_project_rays(const float* sinogram, float* rows, floa
 void JosephProjector::apply(const VecC& x, VecC& y) const {
   RECOFOLD_CHECK(x.size() == domain_size()) << "Joseph apply: input size " << x.size() << ", domain " << domain_size();
   const Index n = x.size(), m = range_size();
-  VecF part(n), out(m);
+  auto lease = scratch_.borrow();
+  Workspace& ws = *lease;
+  ws.part.resize(static_cast<size_t>(std::max(n, m)));
+  ws.out.resize(static_cast<size_t>(std::max(n, m)));
+  float* part = ws.part.data();
+  float* out = ws.out.data();
   for (Index i = 0; i < n; ++i) part[i] = x[i].real();
-  project(part.data(), out.data());
+  project_with(ws, part, out);
   y.resize(m);
   for (Index i = 0; i < m; ++i) y[i] = cfloat(out[i], 0.0f);
   bool complex_input = false;
   for (Index i = 0; i < n && !complex_input; ++i) complex_input = x[i].imag() != 0.0f;
   if (complex_input) {
     for (Index i = 0; i < n; ++i) part[i] = x[i].imag();
-    project(part.data(), out.data());
+    project_with(ws, part, out);
     for (Index i = 0; i < m; ++i) y[i].imag(out[i]);
   }
 }
@@ -357,17 +401,52 @@ void JosephProjector::apply(const VecC& x, VecC& y) const {
 void JosephProjector::adjoint(const VecC& y, VecC& x) const {
   RECOFOLD_CHECK(y.size() == range_size()) << "Joseph adjoint: input size " << y.size() << ", range " << range_size();
   const Index n = domain_size(), m = y.size();
-  VecF part(m), out(n);
+  auto lease = scratch_.borrow();
+  Workspace& ws = *lease;
+  ws.part.resize(static_cast<size_t>(std::max(n, m)));
+  ws.out.resize(static_cast<size_t>(std::max(n, m)));
+  float* part = ws.part.data();
+  float* out = ws.out.data();
   for (Index i = 0; i < m; ++i) part[i] = y[i].real();
-  back_project(part.data(), out.data());
+  back_project_with(ws, part, out);
   x.resize(n);
   for (Index i = 0; i < n; ++i) x[i] = cfloat(out[i], 0.0f);
   bool complex_input = false;
   for (Index i = 0; i < m && !complex_input; ++i) complex_input = y[i].imag() != 0.0f;
   if (complex_input) {
     for (Index i = 0; i < m; ++i) part[i] = y[i].imag();
-    back_project(part.data(), out.data());
+    back_project_with(ws, part, out);
     for (Index i = 0; i < n; ++i) x[i].imag(out[i]);
+  }
+}
+
+void JosephProjector::normal(const VecC& x, VecC& result) const {
+  RECOFOLD_CHECK(x.size() == domain_size()) << "Joseph normal: input size " << x.size() << ", domain " << domain_size();
+  const Index n = x.size(), m = range_size();
+  auto lease = scratch_.borrow();
+  Workspace& ws = *lease;
+  ws.part.resize(static_cast<size_t>(std::max(n, m)));
+  ws.out.resize(static_cast<size_t>(std::max(n, m)));
+  ws.image.resize(static_cast<size_t>(n));
+  float* part = ws.part.data();
+  float* sino = ws.out.data();
+  float* image = ws.image.data();
+  bool complex_input = false;
+  for (Index i = 0; i < n && !complex_input; ++i) complex_input = x[i].imag() != 0.0f;
+  for (Index i = 0; i < n; ++i) part[i] = x[i].real();
+  project_with(ws, part, sino);
+  back_project_with(ws, sino, image);
+  // `result` may be `x`: the imaginary parts are read before they are overwritten.
+  if (complex_input) {
+    for (Index i = 0; i < n; ++i) part[i] = x[i].imag();
+    result.resize(n);
+    for (Index i = 0; i < n; ++i) result[i].real(image[i]);
+    project_with(ws, part, sino);
+    back_project_with(ws, sino, image);
+    for (Index i = 0; i < n; ++i) result[i].imag(image[i]);
+  } else {
+    result.resize(n);
+    for (Index i = 0; i < n; ++i) result[i] = cfloat(image[i], 0.0f);
   }
 }
 

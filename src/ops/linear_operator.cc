@@ -29,12 +29,20 @@ cdouble dot(const VecC& a, const VecC& b) {
   RECOFOLD_CHECK(a.size() == b.size()) << "dot of sizes " << a.size() << " and " << b.size();
   double re = 0.0, im = 0.0;
   const Index n = a.size();
-#pragma omp parallel for reduction(+ : re, im) schedule(static) if (n > 65536)
-  for (Index i = 0; i < n; ++i) {
+  auto term = [&](Index i, double& r, double& m) {
     const double ar = a[i].real(), ai = a[i].imag();
     const double br = b[i].real(), bi = b[i].imag();
-    re += ar * br + ai * bi;  // conj(a) b
-    im += ar * bi - ai * br;
+    r += ar * br + ai * bi;  // conj(a) b
+    m += ar * bi - ai * br;
+  };
+  // An explicit serial branch rather than an `if` clause: entering an
+  // OpenMP region of one thread between regions of two makes the runtime
+  // allocate a new team every time (solvers call this every iteration).
+  if (n > 65536) {
+#pragma omp parallel for reduction(+ : re, im) schedule(static)
+    for (Index i = 0; i < n; ++i) term(i, re, im);
+  } else {
+    for (Index i = 0; i < n; ++i) term(i, re, im);
   }
   return {re, im};
 }
@@ -42,8 +50,12 @@ cdouble dot(const VecC& a, const VecC& b) {
 double norm_squared(const VecC& a) {
   double s = 0.0;
   const Index n = a.size();
-#pragma omp parallel for reduction(+ : s) schedule(static) if (n > 65536)
-  for (Index i = 0; i < n; ++i) s += double(a[i].real()) * a[i].real() + double(a[i].imag()) * a[i].imag();
+  if (n > 65536) {  // serial branch: see dot()
+#pragma omp parallel for reduction(+ : s) schedule(static)
+    for (Index i = 0; i < n; ++i) s += double(a[i].real()) * a[i].real() + double(a[i].imag()) * a[i].imag();
+  } else {
+    for (Index i = 0; i < n; ++i) s += double(a[i].real()) * a[i].real() + double(a[i].imag()) * a[i].imag();
+  }
   return s;
 }
 
@@ -78,6 +90,8 @@ class ScaledOperator final : public LinearOperator {
   }
   Shape domain_shape() const override { return a_->domain_shape(); }
   Shape range_shape() const override { return a_->range_shape(); }
+  Index domain_size() const override { return a_->domain_size(); }
+  Index range_size() const override { return a_->range_size(); }
   std::string name() const override {
     std::ostringstream s;
     s << s_ << " * (" << a_->name() << ")";
@@ -110,6 +124,8 @@ class ComposedOperator final : public LinearOperator {
   }
   Shape domain_shape() const override { return b_->domain_shape(); }
   Shape range_shape() const override { return a_->range_shape(); }
+  Index domain_size() const override { return b_->domain_size(); }
+  Index range_size() const override { return a_->range_size(); }
   std::string name() const override { return "(" + a_->name() + ") o (" + b_->name() + ")"; }
 
  private:
@@ -124,6 +140,8 @@ class IdentityOperator final : public LinearOperator {
   void normal(const VecC& x, VecC& out) const override { out = x; }
   Shape domain_shape() const override { return shape_; }
   Shape range_shape() const override { return shape_; }
+  Index domain_size() const override { return shape_.size(); }
+  Index range_size() const override { return shape_.size(); }
   std::string name() const override { return "identity " + shape_.to_string(); }
 
  private:

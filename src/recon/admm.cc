@@ -4,6 +4,7 @@
 
 #include <cmath>
 #include <cstdio>
+#include <functional>
 #include <limits>
 
 #include "recofold/core/error.h"
@@ -44,7 +45,22 @@ SolverSummary solve_admm(const AdmmOptions& options, const LinearOperator& a, co
 
   VecC aty;
   a.adjoint(y, aty);
-  VecC z, u, w, u2, kx, tmp, tmp2, rhs, r, x_prev;
+  // Every vector below is sized in the first iteration and reused: no
+  // allocation per iteration (tests/unit/recon_allocation_test.cc).
+  VecC z, u, w, u2, kx, tmp, tmp2, rhs, r, x_prev, diff, diff_x, z_old, w_old, kin, khk;  // diff: K range, diff_x: image
+  CgWorkspace cg_ws;
+  internal::reserve_records(summary, options.max_iterations);
+  float fr = static_cast<float>(rho);
+  // x-update operator (A^H A + rho K^H K + rho [box] I), built once (it reads fr).
+  const std::function<void(const VecC&, VecC&)> h = [&](const VecC& in, VecC& out) {
+    a.normal(in, out);
+    if (k_op) {
+      k_op->apply(in, kin);
+      k_op->adjoint(kin, khk);
+      out += fr * khk;
+    }
+    if (box) out += fr * in;
+  };
   if (k_op) {
     k_op->apply(x, z);
     u.setZero(z.size());
@@ -57,43 +73,37 @@ SolverSummary solve_admm(const AdmmOptions& options, const LinearOperator& a, co
   Termination term = Termination::kMaxIterations;
   std::string message = "reached max_iterations";
   for (int k = 1; k <= options.max_iterations; ++k) {
-    const float fr = static_cast<float>(rho);
+    fr = static_cast<float>(rho);
     // x-update: (A^H A + rho K^H K + rho [box] I) x = A^H y + rho K^H (z - u) + rho (w - u2).
     rhs = aty;
     if (k_op) {
-      k_op->adjoint(z - u, tmp);
+      diff = z - u;
+      k_op->adjoint(diff, tmp);
       rhs += fr * tmp;
     }
     if (box) rhs += fr * (w - u2);
-    auto h = [&](const VecC& in, VecC& out) {
-      a.normal(in, out);
-      if (k_op) {
-        VecC kin, khk;
-        k_op->apply(in, kin);
-        k_op->adjoint(kin, khk);
-        out += fr * khk;
-      }
-      if (box) out += fr * in;
-    };
     x_prev = x;
-    conjugate_gradient(h, rhs, x, options.cg_iterations, options.cg_tolerance);
+    conjugate_gradient(h, rhs, x, options.cg_iterations, options.cg_tolerance, nullptr, &cg_ws);
     // z- and w-updates, dual updates, residuals.
     double primal2 = 0.0, dual2 = 0.0;
     if (k_op) {
       k_op->apply(x, kx);
-      const VecC z_old = z;
-      parts.analysis->analysis_prox(kx + u, 1.0 / rho, z);
+      z_old = z;
+      diff = kx + u;
+      parts.analysis->analysis_prox(diff, 1.0 / rho, z);
       u += kx - z;
-      primal2 += norm_squared(kx - z);
-      k_op->adjoint(z - z_old, tmp2);
+      primal2 += internal::squared_distance(kx, z);
+      diff = z - z_old;
+      k_op->adjoint(diff, tmp2);
       dual2 += rho * rho * norm_squared(tmp2);
     }
     if (box) {
-      const VecC w_old = w;
-      box->project(x + u2, w);
+      w_old = w;
+      diff_x = x + u2;
+      box->project(diff_x, w);
       u2 += x - w;
-      primal2 += norm_squared(x - w);
-      dual2 += rho * rho * norm_squared(w - w_old);
+      primal2 += internal::squared_distance(x, w);
+      dual2 += rho * rho * internal::squared_distance(w, w_old);
     }
     IterationRecord rec;
     rec.iteration = k;

@@ -14,7 +14,8 @@ namespace recofold {
 
 CgResult conjugate_gradient(const std::function<void(const VecC&, VecC&)>& apply_h, const VecC& b, VecC& x,
                             int max_iterations, double tolerance,
-                            const std::function<bool(int, const VecC&, double)>& after_iteration) {
+                            const std::function<bool(int, const VecC&, double)>& after_iteration,
+                            CgWorkspace* workspace) {
   CgResult res;
   if (x.size() == 0) x.setZero(b.size());
   const double bnorm = std::sqrt(norm_squared(b));
@@ -23,7 +24,11 @@ CgResult conjugate_gradient(const std::function<void(const VecC&, VecC&)>& apply
     res.converged = true;
     return res;
   }
-  VecC r, p, hp;
+  CgWorkspace local;
+  CgWorkspace& ws = workspace ? *workspace : local;
+  VecC& r = ws.r;
+  VecC& p = ws.p;
+  VecC& hp = ws.hp;
   apply_h(x, hp);
   r = b - hp;
   p = r;
@@ -56,14 +61,18 @@ CgResult conjugate_gradient(const std::function<void(const VecC&, VecC&)>& apply
 }
 
 CgResult solve_regularised_normal(const LinearOperator& a, const VecC& aty, const VecC& z, double mu, VecC& x,
-                                  int max_iterations, double tolerance) {
+                                  int max_iterations, double tolerance, CgWorkspace* workspace) {
   const float m = static_cast<float>(mu);
-  const VecC b = aty + m * z;
-  auto h = [&](const VecC& in, VecC& out) {
-    a.normal(in, out);
+  CgWorkspace local;
+  CgWorkspace& ws = workspace ? *workspace : local;
+  ws.b = aty + m * z;
+  // Two captured pointers: small enough for std::function's in-place storage (no allocation).
+  const LinearOperator* op = &a;
+  const std::function<void(const VecC&, VecC&)> h = [op, m](const VecC& in, VecC& out) {
+    op->normal(in, out);
     out += m * in;
   };
-  return conjugate_gradient(h, b, x, max_iterations, tolerance);
+  return conjugate_gradient(h, ws.b, x, max_iterations, tolerance, nullptr, &ws);
 }
 
 std::vector<std::string> CgOptions::validate() const {
@@ -88,6 +97,7 @@ SolverSummary solve_cg(const CgOptions& options, const LinearOperator& a, const 
   summary.values["tikhonov"] = options.tikhonov;
   internal::Stopwatch total, lap;
   const float mu = static_cast<float>(options.tikhonov);
+  internal::reserve_records(summary, options.max_iterations);
   VecC b;
   a.adjoint(y, b);
   if (reference && options.tikhonov > 0.0) b += mu * *reference;
@@ -109,7 +119,7 @@ SolverSummary solve_cg(const CgOptions& options, const LinearOperator& a, const 
       const double r2 = norm_squared(r);
       rec.data_residual = std::sqrt(r2);
       double reg = 0.0;
-      if (options.tikhonov > 0.0) reg = reference ? norm_squared(xk - *reference) : norm_squared(xk);
+      if (options.tikhonov > 0.0) reg = reference ? internal::squared_distance(xk, *reference) : norm_squared(xk);
       rec.objective = 0.5 * r2 + 0.5 * options.tikhonov * reg;
       non_finite = !std::isfinite(rec.objective);
     } else {

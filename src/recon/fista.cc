@@ -27,15 +27,19 @@ SolverSummary solve_fista(const FistaOptions& options, const LinearOperator& a, 
   const double step =
       internal::proximal_gradient_step(a, options.step_size, options.power_iterations, options.power_seed, summary);
   const double nan = std::numeric_limits<double>::quiet_NaN();
+  // Every vector the loop touches is sized in the first iteration and reused
+  // (no allocation per iteration; tests/unit/recon_allocation_test.cc).
   VecC v = x, z, x_new, r;
+  DcWorkspace dc;
+  internal::reserve_records(summary, options.max_iterations);
   double t = 1.0;
   int restarts = 0;
   Termination term = Termination::kMaxIterations;
   std::string message = "reached max_iterations";
   for (int k = 1; k <= options.max_iterations; ++k) {
-    gradient_dc_step(a, y, v, step, z);
+    gradient_dc_step(a, y, v, step, z, dc);
     prior.prox(z, step, x_new);
-    if (options.adaptive_restart && dot(v - x_new, x_new - x).real() > 0.0) {
+    if (options.adaptive_restart && internal::real_dot_of_differences(v, x_new, x_new, x) > 0.0) {
       t = 1.0;  // restart: momentum of the next extrapolation is 0
       ++restarts;
     }

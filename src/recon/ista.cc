@@ -28,12 +28,13 @@ SolverSummary solve_ista(const IstaOptions& options, const LinearOperator& a, co
   // The same arithmetic as gradient_dc_step + ProxPriorStep in the unrolled
   // scheme: r = A x - y, z = x - s A^H r, x+ = prox(z, s). The residual of x+
   // is reused by the next gradient, so the objective costs no extra A apply.
-  VecC r, z, x_new;
+  VecC r, z, x_new, g;  // sized once, reused (no allocation per iteration)
+  internal::reserve_records(summary, options.max_iterations);
   internal::data_residual(a, x, y, r);
   Termination term = Termination::kMaxIterations;
   std::string message = "reached max_iterations";
   for (int k = 1; k <= options.max_iterations; ++k) {
-    internal::gradient_step_from_residual(a, r, x, step, z);
+    internal::gradient_step_from_residual(a, r, x, step, z, g);
     prior.prox(z, step, x_new);
     internal::data_residual(a, x_new, y, r);
     IterationRecord rec;

@@ -68,7 +68,10 @@ SolverSummary solve_pdhg(const PdhgOptions& options, const LinearOperator& a, co
   summary.values["norm_k_squared"] = nk;
 
   if (box) box->project(x, x);
-  VecC p = VecC::Zero(a.range_size()), q, ax, kx, w, s, tmp, x_new, xbar = x, r;
+  // Every vector is sized before or in the first iteration and reused (no
+  // allocation per iteration; tests/unit/recon_allocation_test.cc).
+  VecC p = VecC::Zero(a.range_size()), q, ax, kx, w, s, tmp, khq, x_new, xbar = x, r, scaled, neg_s;
+  internal::reserve_records(summary, options.max_iterations);
   if (k_op) q.setZero(k_op->range_size());
   const Box free_box{-std::numeric_limits<double>::infinity(), std::numeric_limits<double>::infinity(), false};
   const float fsa = static_cast<float>(sa), fsk = static_cast<float>(sk), ftau = static_cast<float>(tau);
@@ -83,14 +86,15 @@ SolverSummary solve_pdhg(const PdhgOptions& options, const LinearOperator& a, co
     if (k_op) {
       k_op->apply(xbar, kx);
       w = q + fsk * kx;
-      parts.analysis->analysis_prox(w / fsk, 1.0 / sk, tmp);
+      scaled = w / fsk;
+      parts.analysis->analysis_prox(scaled, 1.0 / sk, tmp);
       q = w - fsk * tmp;
     }
     // Primal step.
     a.adjoint(p, s);
     if (k_op) {
-      k_op->adjoint(q, tmp);
-      s += tmp;
+      k_op->adjoint(q, khq);
+      s += khq;
     }
     x_new = x - ftau * s;
     if (box) box->project(x_new, x_new);
@@ -112,7 +116,8 @@ SolverSummary solve_pdhg(const PdhgOptions& options, const LinearOperator& a, co
         dual -= parts.analysis->analysis_conjugate(q);
       }
       const double radius = 2.0 * (x.size() ? double(x.cwiseAbs().maxCoeff()) : 0.0) + 1.0;
-      dual -= (box ? *box : free_box).support(-s, radius);
+      neg_s = -s;
+      dual -= (box ? *box : free_box).support(neg_s, radius);
       rec.objective = primal;
       rec.gap = primal - dual;
       last_gap = rec.gap;

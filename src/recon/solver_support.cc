@@ -27,9 +27,51 @@ void prepare_solve(const std::string& solver, const LinearOperator& a, const Vec
 }
 
 double relative_change(const VecC& now, const VecC& before) {
-  const double d = std::sqrt(norm_squared(now - before));
+  const double d = std::sqrt(squared_distance(now, before));
   const double n = std::sqrt(norm_squared(now));
   return d / std::max(n, 1e-30);
+}
+
+double squared_distance(const VecC& a, const VecC& b) {
+  RECOFOLD_CHECK(a.size() == b.size()) << "squared_distance of sizes " << a.size() << " and " << b.size();
+  const Index n = a.size();
+  double s = 0.0;
+  // The float difference an expression a - b would hold, squared in double (as norm_squared(a - b)).
+  auto term = [&](Index i) {
+    const cfloat d = a[i] - b[i];
+    return double(d.real()) * d.real() + double(d.imag()) * d.imag();
+  };
+  // Explicit serial branch (as in norm_squared): no one-thread OpenMP regions in solver loops.
+  if (n > 65536) {
+#pragma omp parallel for reduction(+ : s) schedule(static)
+    for (Index i = 0; i < n; ++i) s += term(i);
+  } else {
+    for (Index i = 0; i < n; ++i) s += term(i);
+  }
+  return s;
+}
+
+double real_dot_of_differences(const VecC& a, const VecC& b, const VecC& c, const VecC& d) {
+  RECOFOLD_CHECK(a.size() == b.size() && b.size() == c.size() && c.size() == d.size())
+      << "real_dot_of_differences of unequal sizes";
+  const Index n = a.size();
+  double s = 0.0;
+  // The same float differences an expression a - b would form, then the product in double.
+  auto term = [&](Index i) {
+    const cfloat u = a[i] - b[i], v = c[i] - d[i];
+    return double(u.real()) * v.real() + double(u.imag()) * v.imag();
+  };
+  if (n > 65536) {
+#pragma omp parallel for reduction(+ : s) schedule(static)
+    for (Index i = 0; i < n; ++i) s += term(i);
+  } else {
+    for (Index i = 0; i < n; ++i) s += term(i);
+  }
+  return s;
+}
+
+void reserve_records(SolverSummary& summary, int max_iterations) {
+  summary.iterations.reserve(static_cast<size_t>(std::clamp(max_iterations, 0, 1 << 20)));
 }
 
 void data_residual(const LinearOperator& a, const VecC& x, const VecC& y, VecC& r) {
@@ -37,8 +79,7 @@ void data_residual(const LinearOperator& a, const VecC& x, const VecC& y, VecC& 
   r -= y;
 }
 
-void gradient_step_from_residual(const LinearOperator& a, const VecC& r, const VecC& x, double step, VecC& z) {
-  VecC g;
+void gradient_step_from_residual(const LinearOperator& a, const VecC& r, const VecC& x, double step, VecC& z, VecC& g) {
   a.adjoint(r, g);
   z = x - static_cast<float>(step) * g;
 }
@@ -50,7 +91,10 @@ void report_progress(ProgressSink* progress, int done, int total, const Iteratio
     std::snprintf(buf, sizeof buf, "obj %.6g change %.2e", rec.objective, rec.relative_change);
   else
     std::snprintf(buf, sizeof buf, "change %.2e", rec.relative_change);
-  progress->update(done, total, buf);
+  thread_local std::string status;
+  if (status.capacity() < sizeof buf) status.reserve(sizeof buf);
+  status.assign(buf);
+  progress->update(done, total, status);
 }
 
 void finish_summary(SolverSummary& summary, Termination t, const std::string& message, double total_seconds,

@@ -20,14 +20,25 @@ namespace internal {
 // Throws InputError naming `solver` when a size is wrong.
 void prepare_solve(const std::string& solver, const LinearOperator& a, const VecC& y, VecC& x);
 
-// ||a - b|| / max(||a||, tiny).
+// ||a - b|| / max(||a||, tiny), accumulated in double without temporaries.
 double relative_change(const VecC& now, const VecC& before);
+
+// ||a - b||^2 in double, without a temporary vector.
+double squared_distance(const VecC& a, const VecC& b);
+
+// Re <a - b, c - d> in double, without temporaries.
+double real_dot_of_differences(const VecC& a, const VecC& b, const VecC& c, const VecC& d);
 
 // r = A x - y.
 void data_residual(const LinearOperator& a, const VecC& x, const VecC& y, VecC& r);
 
-// z = x - step * A^H r (the gradient step of 1/2||Ax - y||^2 given r = Ax - y).
-void gradient_step_from_residual(const LinearOperator& a, const VecC& r, const VecC& x, double step, VecC& z);
+// z = x - step * A^H r (the gradient step of 1/2||Ax - y||^2 given r = Ax - y);
+// `g` holds A^H r (a work vector the caller keeps, so repeated calls do not allocate).
+void gradient_step_from_residual(const LinearOperator& a, const VecC& r, const VecC& x, double step, VecC& z, VecC& g);
+
+// Room for the per-iteration records of a solve (records are pushed inside
+// the loop; reserving keeps the loop free of allocations).
+void reserve_records(SolverSummary& summary, int max_iterations);
 
 // Wall-clock stopwatch for per-iteration records.
 class Stopwatch {
@@ -44,7 +55,8 @@ class Stopwatch {
   std::chrono::steady_clock::time_point start_;
 };
 
-// Sends "obj 1.234e+01" (or the relative change) to the sink, when there is one.
+// Sends "obj 1.234e+01" (or the relative change) to the sink, when there is
+// one (through a reused per-thread string: no allocation per call).
 void report_progress(ProgressSink* progress, int done, int total, const IterationRecord& rec);
 
 // Fills termination/message/total time at the end of a solve.

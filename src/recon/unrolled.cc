@@ -40,9 +40,13 @@ void ProxPriorStep::apply(int, const IterationParameters& params, const VecC& in
 std::string ProxPriorStep::name() const { return "prox of " + prior_->name(); }
 
 void gradient_dc_step(const LinearOperator& a, const VecC& y, const VecC& v, double step, VecC& z) {
-  VecC r;
-  internal::data_residual(a, v, y, r);
-  internal::gradient_step_from_residual(a, r, v, step, z);
+  DcWorkspace ws;
+  gradient_dc_step(a, y, v, step, z, ws);
+}
+
+void gradient_dc_step(const LinearOperator& a, const VecC& y, const VecC& v, double step, VecC& z, DcWorkspace& ws) {
+  internal::data_residual(a, v, y, ws.residual);
+  internal::gradient_step_from_residual(a, ws.residual, v, step, z, ws.gradient);
 }
 
 void extrapolate(const VecC& x, const VecC& x_prev, double beta, VecC& v) {
@@ -121,21 +125,25 @@ SolverSummary UnrolledScheme::run(const LinearOperator& a, const VecC& y, VecC& 
   internal::Stopwatch total, lap;
   VecC aty;
   if (options_.dc_mode == DcMode::kCgSolve) a.adjoint(y, aty);
+  // Work vectors sized in the first iteration and reused (no allocation per iteration).
   VecC x_prev = x, v, z, x_new, r;
+  DcWorkspace dc_ws;
+  CgWorkspace cg_ws;
+  internal::reserve_records(summary, options_.iterations);
   const double nan = std::numeric_limits<double>::quiet_NaN();
 
   auto dc = [&](const IterationParameters& p, const VecC& in, VecC& out) {
     switch (options_.dc_mode) {
-      case DcMode::kGradient: gradient_dc_step(a, y, in, p.step, out); break;
+      case DcMode::kGradient: gradient_dc_step(a, y, in, p.step, out, dc_ws); break;
       case DcMode::kCgSolve:
         out = in;
-        solve_regularised_normal(a, aty, in, p.mu, out, options_.cg_iterations, options_.cg_tolerance);
+        solve_regularised_normal(a, aty, in, p.mu, out, options_.cg_iterations, options_.cg_tolerance, &cg_ws);
         break;
       case DcMode::kReplace:
         if (options_.projection)
           options_.projection(in, y, out);
         else
-          gradient_dc_step(a, y, in, 1.0, out);
+          gradient_dc_step(a, y, in, 1.0, out, dc_ws);
         break;
     }
   };

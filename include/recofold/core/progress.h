@@ -5,6 +5,7 @@
 
 #include <chrono>
 #include <cstdint>
+#include <functional>
 #include <iosfwd>
 #include <string>
 
@@ -30,23 +31,50 @@ enum class ProgressMode {
 };
 
 // Formats progress onto a stream (the CLI passes std::cerr).
+//
+// Honest estimates: the first update only sets the baseline (the first step
+// often includes one-off costs such as FFTW planning or loading), and the
+// rate is measured from there ("steady work"). No time left is shown until at
+// least 3 steps or 1 s of steady work have been seen; then
+//   left = (total - done) * (steady seconds / steady steps).
+// The final line ("label: 150/150 done in 4s; status") is printed once per
+// run: finish() after finish() prints nothing, and an update() after a
+// finish() starts a new run (a sink reused for a second solve). The last step
+// is not printed separately (the final line covers it); in bar mode the final
+// line overwrites the bar.
 class StreamProgress : public ProgressSink {
  public:
-  StreamProgress(std::ostream& out, std::string label, ProgressMode mode, double line_interval_s = 5.0);
+  // Seconds on a monotonic clock; the default reads std::chrono::steady_clock.
+  // Tests inject a fake clock.
+  using Clock = std::function<double()>;
+
+  StreamProgress(std::ostream& out, std::string label, ProgressMode mode, double line_interval_s = 5.0,
+                 Clock clock = {});
   void update(int64_t done, int64_t total, const std::string& status) override;
   void finish(const std::string& status) override;
+
+  // Seconds left for `total` at the steady rate seen so far (NaN while there
+  // is not enough steady work for an estimate). For tests and callers that
+  // show their own display.
+  double seconds_left(int64_t done, int64_t total) const;
 
   // "1h02m", "3m07s", "12s"
   static std::string format_duration(double seconds);
 
  private:
+  double now() const;
+  void start_run();
+
   std::ostream& out_;
   std::string label_;
   ProgressMode mode_;
   double interval_;
-  std::chrono::steady_clock::time_point start_, last_;
-  int64_t first_done_ = -1;
-  bool printed_ = false;
+  Clock clock_;
+  double start_ = 0.0, last_print_ = 0.0;  // clock seconds: start of the run, last line printed
+  double first_time_ = 0.0;                 // clock seconds of the first update (the steady baseline)
+  int64_t first_done_ = -1, last_done_ = 0, last_total_ = 0;
+  double last_time_ = 0.0;
+  bool printed_ = false, finished_ = false;
 };
 
 // Picks kBar when `is_terminal`, kLines otherwise, kQuiet when `quiet`.

@@ -22,6 +22,8 @@ class DenseOperator final : public LinearOperator {
   void adjoint(const VecC& y, VecC& x) const override;
   Shape domain_shape() const override { return domain_; }
   Shape range_shape() const override { return range_; }
+  Index domain_size() const override { return domain_.size(); }
+  Index range_size() const override { return range_.size(); }
   std::string name() const override;
 
   const Eigen::MatrixXcf& matrix() const { return m_; }

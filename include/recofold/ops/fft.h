@@ -60,6 +60,8 @@ class CenteredFft final : public LinearOperator {
   void normal(const VecC& x, VecC& out) const override { out = x; }
   Shape domain_shape() const override { return Shape{ny_, nx_}; }
   Shape range_shape() const override { return Shape{ny_, nx_}; }
+  Index domain_size() const override { return ny_ * nx_; }
+  Index range_size() const override { return ny_ * nx_; }
   std::string name() const override;
 
  private:

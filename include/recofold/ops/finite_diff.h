@@ -36,6 +36,8 @@ class FiniteDifference final : public LinearOperator {
   void adjoint(const VecC& y, VecC& x) const override;
   Shape domain_shape() const override { return shape_; }
   Shape range_shape() const override { return Shape{2, shape_[0], shape_[1]}; }
+  Index domain_size() const override { return shape_[0] * shape_[1]; }
+  Index range_size() const override { return 2 * shape_[0] * shape_[1]; }
   std::string name() const override;
 
   DiffBoundary boundary() const { return boundary_; }

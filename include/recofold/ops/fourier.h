@@ -35,6 +35,8 @@ class MaskedFourier final : public LinearOperator {
   void normal(const VecC& x, VecC& out) const override;
   Shape domain_shape() const override { return Shape{ny_, nx_}; }
   Shape range_shape() const override { return Shape{coils_, ny_, nx_}; }
+  Index domain_size() const override { return ny_ * nx_; }
+  Index range_size() const override { return coils_ * ny_ * nx_; }
   std::string name() const override;  // "SENSE 8 coils 256x256, R 4.00"
 
   Index coils() const { return coils_; }

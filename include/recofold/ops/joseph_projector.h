@@ -6,6 +6,7 @@
 #include <string>
 #include <vector>
 
+#include "recofold/core/scratch.h"
 #include "recofold/ops/ct_geometry.h"
 #include "recofold/ops/linear_operator.h"
 
@@ -38,17 +39,26 @@ struct Measurement;
 // (for column-stepped rays, into a transposed accumulator): every thread owns
 // the pixels it writes, so there are no races and the result does not depend
 // on the thread count. Safe to call concurrently on different vectors.
+// Work buffers (padded grids, per-thread rows) are kept between calls, so a
+// solver's repeated applies allocate nothing once sized; concurrent calls
+// each get their own.
 class JosephProjector final : public LinearOperator {
  public:
   // Throws InputError (field "ct geometry") listing every violation when the
   // geometry is invalid. `scale` is typically the attenuation per unit
   // intensity (1/mm), so A x is in line-integral units.
   explicit JosephProjector(CtGeometry geometry, double scale = 1.0);
+  JosephProjector(const JosephProjector& other);  // copies the geometry and tables, not the buffers
+  ~JosephProjector() override;
 
   void apply(const VecC& x, VecC& y) const override;
   void adjoint(const VecC& y, VecC& x) const override;
+  // A^H A x through the kept buffers (no range vector allocated).
+  void normal(const VecC& x, VecC& out) const override;
   Shape domain_shape() const override { return Shape{geometry_.ny, geometry_.nx}; }
   Shape range_shape() const override { return Shape{geometry_.view_count(), geometry_.detector_count}; }
+  Index domain_size() const override { return geometry_.ny * geometry_.nx; }
+  Index range_size() const override { return geometry_.view_count() * geometry_.detector_count; }
   std::string name() const override;
 
   // Real-valued forms without complex copies: sinogram = scale * P image,
@@ -77,8 +87,11 @@ class JosephProjector final : public LinearOperator {
     float start0 = 0, delta = 0, slope = 0, weight = 0;
     bool by_rows = true;
   };
-  void project_parallel(const float* rows, const float* cols, float* sinogram) const;
-  void back_project_parallel(const float* sinogram, float* rows, float* cols) const;
+  struct Workspace;
+  void project_with(Workspace& ws, const float* image, float* sinogram) const;
+  void back_project_with(Workspace& ws, const float* sinogram, float* image) const;
+  void project_parallel(Workspace& ws, const float* rows, const float* cols, float* sinogram) const;
+  void back_project_parallel(Workspace& ws, const float* sinogram, float* rows, float* cols) const;
   void project_rays(const float* rows, const float* cols, float* sinogram) const;
   void back_project_rays(const float* sinogram, float* rows, float* cols) const;
 
@@ -88,6 +101,7 @@ class JosephProjector final : public LinearOperator {
   std::vector<ParallelView> views_;  // parallel beams: [views]
   std::vector<Ray> rays_;            // fan beams: [views * detectors]
   bool any_by_columns_ = false;
+  ScratchCache<Workspace> scratch_;
 };
 
 // The CT forward operator of a measurement: Joseph projector on the

@@ -29,8 +29,11 @@ class LinearOperator {
   // Short description for logs ("SENSE 8 coils 256x256", "Joseph parallel 180 views").
   virtual std::string name() const = 0;
 
-  Index domain_size() const { return domain_shape().size(); }
-  Index range_size() const { return range_shape().size(); }
+  // Element counts of the two shapes. Operators override these with a
+  // computation that builds no Shape (solvers call them every iteration, and
+  // a Shape holds a heap-allocated vector).
+  virtual Index domain_size() const { return domain_shape().size(); }
+  virtual Index range_size() const { return range_shape().size(); }
 };
 
 // Result of check_adjoint: |<Ax, y> - <x, A^H y>| / (|<Ax,y>|) for random x, y.

@@ -71,6 +71,8 @@ class WaveletTransform final : public LinearOperator {
   void normal(const VecC& x, VecC& out) const override { out = x; }
   Shape domain_shape() const override { return shape_; }
   Shape range_shape() const override { return shape_; }
+  Index domain_size() const override { return shape_.size(); }
+  Index range_size() const override { return shape_.size(); }
   std::string name() const override;
 
   WaveletFamily family() const { return family_; }

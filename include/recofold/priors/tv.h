@@ -6,6 +6,7 @@
 #include <string>
 #include <vector>
 
+#include "recofold/core/scratch.h"
 #include "recofold/ops/finite_diff.h"
 #include "recofold/priors/prior.h"
 
@@ -39,11 +40,19 @@ struct TvOptions {
 // analysis form: K = D, g = the TV norm of D x; (lambda g)^* is the indicator of
 //   the dual ball |q_p| <= lambda (pairwise for isotropic, per entry for
 //   anisotropic), evaluated with a relative tolerance of 1e-4.
-// Thread-safe (no state between calls).
+// Implementation: single precision with channel-planar buffers (one channel
+// for real inputs, two for complex), fused row loops (divergence + primal
+// step + box, and difference + dual projection + momentum) that vectorise,
+// OpenMP over rows from 256^2 up; the stopping test sums per-row norms in row
+// order, so results do not depend on the thread count. The buffers are kept
+// between calls (no allocation per call once sized).
+// Thread-safe: concurrent calls on one object each get their own buffers.
 class TvPrior final : public Prior {
  public:
   // Throws InputError when options.validate() fails or the shape is not 2-D.
   TvPrior(Shape image_shape, double weight, TvOptions options = {});
+  TvPrior(const TvPrior& other);  // copies settings, not buffers
+  ~TvPrior() override;
 
   double value(const VecC& x) const override;
   void prox(const VecC& v, double step, VecC& out) const override;
@@ -61,10 +70,12 @@ class TvPrior final : public Prior {
 
  private:
   void fgp(const VecC& v, double theta, const Box* box, VecC& out) const;
+  struct Workspace;
 
   Shape shape_;
   TvOptions options_;
   std::shared_ptr<const FiniteDifference> diff_;
+  ScratchCache<Workspace> scratch_;
 };
 
 }  // namespace recofold

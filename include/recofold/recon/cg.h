@@ -19,15 +19,24 @@ struct CgResult {
   bool converged = false;
 };
 
+// Work vectors of conjugate_gradient() and solve_regularised_normal(). A
+// caller that solves repeatedly (ADMM, the unrolled CG step) keeps one and
+// passes it each time, so only the first solve allocates.
+struct CgWorkspace {
+  VecC r, p, hp, b;
+};
+
 // Solves H x = b for a Hermitian positive (semi-)definite H given by
 // `apply_h(in, out)` (out = H in), starting from `x` (warm start; zeros if x is
 // empty). Stops after `max_iterations` or when ||b - H x|| <= tolerance ||b||.
 // Inner products accumulate in double. `after_iteration(k, x, rel_residual)`,
 // if given, runs after each iteration k (1-based) and may return false to stop.
-// (Hestenes & Stiefel 1952.)
+// `workspace`: reused work vectors (null: local ones). `b` must not be one of them
+// except workspace->b. (Hestenes & Stiefel 1952.)
 CgResult conjugate_gradient(const std::function<void(const VecC&, VecC&)>& apply_h, const VecC& b, VecC& x,
                             int max_iterations, double tolerance,
-                            const std::function<bool(int, const VecC&, double)>& after_iteration = nullptr);
+                            const std::function<bool(int, const VecC&, double)>& after_iteration = nullptr,
+                            CgWorkspace* workspace = nullptr);
 
 // Least squares with optional Tikhonov term:
 //   minimise 1/2 ||A x - y||^2 + mu/2 ||x - r||^2    (r = reference or 0)
@@ -53,8 +62,9 @@ SolverSummary solve_cg(const CgOptions& options, const LinearOperator& a, const 
 // The regularised normal-equation solve shared by ADMM and the unrolled
 // scheme's CG data-consistency step:
 //   x = argmin 1/2||A x - y||^2 + mu/2 ||x - z||^2,  i.e. (A^H A + mu I) x = A^H y + mu z,
-// `aty` = A^H y precomputed; x is the warm start and the result.
+// `aty` = A^H y precomputed; x is the warm start and the result (x may be z).
+// `workspace`: as for conjugate_gradient().
 CgResult solve_regularised_normal(const LinearOperator& a, const VecC& aty, const VecC& z, double mu, VecC& x,
-                                  int max_iterations, double tolerance);
+                                  int max_iterations, double tolerance, CgWorkspace* workspace = nullptr);
 
 }  // namespace recofold

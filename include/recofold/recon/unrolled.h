@@ -137,6 +137,12 @@ std::vector<IterationParameters> half_quadratic_schedule(int iterations, double 
 // One gradient data-consistency step: z = v - step * A^H (A v - y). The piece
 // shared by ISTA, FISTA and kGradient.
 void gradient_dc_step(const LinearOperator& a, const VecC& y, const VecC& v, double step, VecC& z);
+// The same with caller-kept work vectors (the residual A v - y and A^H of it),
+// so repeated steps do not allocate.
+struct DcWorkspace {
+  VecC residual, gradient;
+};
+void gradient_dc_step(const LinearOperator& a, const VecC& y, const VecC& v, double step, VecC& z, DcWorkspace& ws);
 
 // v = x + beta (x - x_prev), the extrapolation shared by FISTA and the scheme.
 void extrapolate(const VecC& x, const VecC& x_prev, double beta, VecC& v);
