@@ -16,7 +16,7 @@ constexpr double kSteadySeconds = 1.0;    // or this much steady time (with at l
 StreamProgress::StreamProgress(std::ostream& out, std::string label, ProgressMode mode, double line_interval_s,
                                Clock clock)
     : out_(out), label_(std::move(label)), mode_(mode), interval_(line_interval_s), clock_(std::move(clock)) {
-  start_run();
+  start_run(now());
 }
 
 double StreamProgress::now() const {
@@ -24,8 +24,8 @@ double StreamProgress::now() const {
   return std::chrono::duration<double>(std::chrono::steady_clock::now().time_since_epoch()).count();
 }
 
-void StreamProgress::start_run() {
-  start_ = last_print_ = now();
+void StreamProgress::start_run(double at) {
+  start_ = last_print_ = at;
   first_done_ = -1;
   last_done_ = last_total_ = 0;
   printed_ = finished_ = false;
@@ -54,7 +54,7 @@ double StreamProgress::seconds_left(int64_t done, int64_t total) const {
 }
 
 void StreamProgress::update(int64_t done, int64_t total, const std::string& status) {
-  if (finished_) start_run();  // a new run on the same sink
+  if (finished_) start_run(finish_time_);  // a new run on the same sink, timed from the previous finish
   const double t = now();
   if (first_done_ < 0) {
     first_done_ = done;
@@ -98,8 +98,9 @@ void StreamProgress::update(int64_t done, int64_t total, const std::string& stat
 void StreamProgress::finish(const std::string& status) {
   if (finished_) return;
   finished_ = true;
+  finish_time_ = now();
   if (mode_ == ProgressMode::kQuiet) return;
-  const double elapsed = now() - start_;
+  const double elapsed = finish_time_ - start_;
   if (mode_ == ProgressMode::kBar && printed_) out_ << "\r";
   out_ << label_ << ": ";
   if (last_total_ > 0)

@@ -39,7 +39,8 @@ enum class ProgressMode {
 //   left = (total - done) * (steady seconds / steady steps).
 // The final line ("label: 150/150 done in 4s; status") is printed once per
 // run: finish() after finish() prints nothing, and an update() after a
-// finish() starts a new run (a sink reused for a second solve). The last step
+// finish() starts a new run (a sink reused for a second solve), timed from
+// that finish. The last step
 // is not printed separately (the final line covers it); in bar mode the final
 // line overwrites the bar.
 class StreamProgress : public ProgressSink {
@@ -63,7 +64,7 @@ class StreamProgress : public ProgressSink {
 
  private:
   double now() const;
-  void start_run();
+  void start_run(double at);
 
   std::ostream& out_;
   std::string label_;
@@ -75,6 +76,7 @@ class StreamProgress : public ProgressSink {
   int64_t first_done_ = -1, last_done_ = 0, last_total_ = 0;
   double last_time_ = 0.0;
   bool printed_ = false, finished_ = false;
+  double finish_time_ = 0.0;  // clock seconds of the last finish() (a reused sink's next run starts there)
 };
 
 // Picks kBar when `is_terminal`, kLines otherwise, kQuiet when `quiet`.
