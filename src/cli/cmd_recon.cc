@@ -106,7 +106,7 @@ void run_recon(const ReconFlags& f, const CLI::App& sub, const Context& ctx) {
         (g.rfind("Learned", 0) == 0 && f.method != "unrolled"))
       throw InputError("", opt->get_name(), "does not apply to --method " + f.method);
   }
-  if (!file_exists(f.meas)) throw InputError(f.meas, "--meas", "file not found");
+  if (!file_exists(f.meas)) throw InputError(f.meas, "--meas", not_a_file_reason(f.meas));
   const Measurement m = read_measurement_file(f.meas);
   if (std::string(method->modality) != "any" && to_string(m.modality) != method->modality)
     throw InputError(f.meas, "--method",

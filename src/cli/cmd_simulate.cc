@@ -74,7 +74,7 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
   if (!f.truth.empty() && f.truth != "analytic" && f.truth != "discrete")
     throw InputError("", "--truth", "'" + f.truth + "'; expected analytic or discrete");
   if (f.index < 0) throw InputError("", "--index", "must be >= 0");
-  if (!file_exists(f.phantom)) throw InputError(f.phantom, "--phantom", "file not found");
+  if (!file_exists(f.phantom)) throw InputError(f.phantom, "--phantom", not_a_file_reason(f.phantom));
 
   const ImageRecord rec = read_image_any(f.phantom);
   const Shape& s = rec.pixels.shape;

@@ -8,6 +8,7 @@
 #include <string>
 
 #include "cli_common.h"
+#include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
 #include "recofold/learn/trainer.h"
 #include "recofold/learn/training_config.h"
@@ -22,12 +23,20 @@ extern "C" void request_stop(int) { g_stop_training.store(true); }
 
 struct TrainFlags {
   std::string config, out;
-  bool resume = false;
+  bool resume = false, restart = false;
 };
 
 void run_train(const TrainFlags& f, const Context& ctx) {
   require_output_path(f.out, "--out", {".h5"});
   TrainingConfig cfg = TrainingConfig::load(f.config);
+  // An earlier run's checkpoint is never overwritten silently.
+  const std::string checkpoint = checkpoint_path(f.out);
+  if (f.resume && f.restart) throw InputError("", "--restart", "give either --resume or --restart, not both");
+  if (file_exists(checkpoint) && !f.resume && !f.restart)
+    throw InputError(checkpoint, "--out", "a checkpoint of an earlier run exists; give --resume to continue it or "
+                                          "--restart to start again from step 0 (replacing it)");
+  if (f.restart && file_exists(checkpoint) && std::remove(checkpoint.c_str()) != 0)
+    throw WorkError("cannot remove the old checkpoint " + checkpoint);
   apply_threads(ctx);
   if (cfg.train.threads == 0 && ctx.threads > 0) cfg.train.threads = ctx.threads;
 
@@ -77,7 +86,9 @@ void register_cmd_train(CLI::App& app, Context& ctx) {
   sub->add_option("--out", flags->out, "Model file to write (.h5); the checkpoint goes beside it as NAME.checkpoint.h5")
       ->required();
   sub->add_flag("--resume", flags->resume, "Continue from the checkpoint of an interrupted run with the same config");
-  sub->footer("SIGINT/SIGTERM write a checkpoint and stop; --resume then continues with identical results.");
+  sub->add_flag("--restart", flags->restart, "Start from step 0 even though a checkpoint exists (it is replaced)");
+  sub->footer("SIGINT/SIGTERM write a checkpoint and stop; --resume then continues with identical results.\n"
+              "When a checkpoint exists, train refuses to start without --resume or --restart.");
   sub->callback([flags, &ctx] { run_train(*flags, ctx); });
 }
 

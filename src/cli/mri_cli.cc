@@ -58,7 +58,7 @@ void write_mask_file(const std::string& path, const SamplingMask& m, const Prove
 }
 
 SamplingMask read_mask_any(const std::string& path, const std::string& flag) {
-  if (!file_exists(path)) throw InputError(path, flag, "file not found");
+  if (!file_exists(path)) throw InputError(path, flag, not_a_file_reason(path));
   const std::string ext = file_extension(path);
   if (ext == ".h5") {
     H5Reader r(path);

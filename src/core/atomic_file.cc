@@ -69,6 +69,14 @@ void write_text_atomic(const std::string& path, const std::string& text) {
   f.commit();
 }
 
+std::string not_a_file_reason(const std::string& path) {
+  struct stat st;
+  if (::stat(path.c_str(), &st) != 0) return "file not found";
+  if (S_ISDIR(st.st_mode)) return "is a directory, expected a file";
+  if (!S_ISREG(st.st_mode)) return "is not a regular file";
+  return "cannot be read";
+}
+
 bool is_directory(const std::string& path) {
   struct stat st;
   return ::stat(path.c_str(), &st) == 0 && S_ISDIR(st.st_mode);

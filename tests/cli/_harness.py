@@ -29,3 +29,113 @@ def bad_input_case(name, runner, must_mention, workdir, failures, one_line=False
         print(f"        {p}")
         failures.append(f"{name}: {p}")
     return out
+
+
+# ---------------------------------------------------------------- the bad-input corpus
+# A table of cases, one per line:   name | command | exit | words | left
+#   command  the recofold arguments (shell words); a word naming a fixture file
+#            is copied into the case's own folder, where the command runs
+#   exit     the expected exit code (2 bad input or usage, 1 the work failed)
+#   words    comma-separated words the one-line message must contain
+#   left     "none": nothing may be left in the case folder (no output, no
+#            temporary file) and the inputs must be unchanged; "-": not checked
+# Commands whose words start with FULL/ or RO/ write into a small full or
+# read-only tmpfs; they need root (mount) and are skipped with a message otherwise.
+import concurrent.futures
+import hashlib
+import shlex
+import shutil
+import subprocess
+import tempfile
+
+
+def read_corpus(path):
+    cases = []
+    for lineno, line in enumerate(open(path, encoding="utf-8"), 1):
+        line = line.strip()
+        if not line or line.startswith("#"):
+            continue
+        parts = [p.strip() for p in line.split("|")]
+        if len(parts) != 5:
+            raise SystemExit(f"{path}:{lineno}: expected 5 columns 'name | command | exit | words | left'")
+        name, command, code, words, left = parts
+        cases.append(dict(name=name, args=shlex.split(command), exit=int(code),
+                          words=[w.strip() for w in words.split(",") if w.strip()], left=left, line=lineno))
+    return cases
+
+
+def _digest(folder):
+    out = {}
+    for root, dirs, files in os.walk(folder):
+        for n in dirs + files:
+            p = os.path.join(root, n)
+            rel = os.path.relpath(p, folder)
+            out[rel] = hashlib.sha256(open(p, "rb").read()).hexdigest() if os.path.isfile(p) else "dir"
+    return out
+
+
+def run_corpus_case(exe, case, fixtures, special, env=None):
+    """Runs one corpus case; returns (name, problems, message)."""
+    work = tempfile.mkdtemp(prefix="case-", dir=os.path.dirname(fixtures))
+    try:
+        args = []
+        for a in case["args"]:
+            first = a.split("/")[0]  # "good.h5/x": the fixture good.h5 is needed too
+            src = os.path.join(fixtures, first)
+            if first and os.path.lexists(src) and not os.path.lexists(os.path.join(work, first)):
+                if os.path.isdir(src):
+                    shutil.copytree(src, os.path.join(work, first))
+                else:
+                    shutil.copy(src, os.path.join(work, first))
+            for key, folder in special.items():
+                a = a.replace(key + "/", folder + "/")
+            args.append(a)
+        stdout = subprocess.PIPE
+        if len(args) >= 2 and args[-2] == ">":  # "> FILE": standard output into FILE (e.g. /dev/full)
+            stdout = open(args[-1], "w")
+            args = args[:-2]
+        before = _digest(work)
+        used = {k: v for k, v in special.items() if any(a.startswith(k + "/") for a in case["args"])}
+        special_before = {k: sorted(os.listdir(v)) for k, v in used.items()}
+        out = subprocess.run([exe] + args, stdout=stdout, stderr=subprocess.PIPE, text=True, cwd=work, env=env,
+                             timeout=300)
+        problems = []
+        if out.returncode != case["exit"]:
+            problems.append(f"exit {out.returncode}, expected {case['exit']}")
+        lines = [ln for ln in out.stderr.splitlines() if ln.strip()]
+        if len(lines) != 1:
+            problems.append(f"{len(lines)} message lines, expected one")
+        for w in case["words"]:
+            if w not in out.stderr:
+                problems.append(f"message does not name '{w}'")
+        if case["left"] == "none":
+            after = _digest(work)
+            if after != before:
+                changed = sorted(set(after.items()) ^ set(before.items()))
+                problems.append(f"left or changed files: {sorted({c[0] for c in changed})}")
+            for k, v in used.items():
+                if sorted(os.listdir(v)) != special_before[k]:
+                    problems.append(f"left files in {k}/")
+        return case["name"], problems, out.stderr.strip()
+    finally:
+        shutil.rmtree(work, ignore_errors=True)
+
+
+def run_corpus(exe, cases, fixtures, special, workers=2):
+    """Runs every case; prints one line each and the counts; returns the failures."""
+    failures = []
+    # Cases on the shared FULL/RO mounts run one at a time (their "nothing left" check looks there).
+    shared = [any(a.startswith(k + "/") for k in special for a in c["args"]) for c in cases]
+    with concurrent.futures.ThreadPoolExecutor(max_workers=workers) as pool:
+        futures = [pool.submit(run_corpus_case, exe, c, fixtures, special) for c, s in zip(cases, shared) if not s]
+        parallel = [f.result() for f in futures]
+    serial = [run_corpus_case(exe, c, fixtures, special) for c, s in zip(cases, shared) if s]
+    results = []
+    for s in shared:
+        results.append(serial.pop(0) if s else parallel.pop(0))
+    for (name, problems, message), case in zip(results, cases):
+        print(("ok    " if not problems else "FAIL  ") + f"[{case['line']}] {name}: {message[:200]}")
+        for p in problems:
+            print(f"        {p}")
+            failures.append(f"{name}: {p}")
+    return failures

@@ -45,6 +45,10 @@ std::string read_text_file(const std::string& path);
 // True if a regular file exists at `path`.
 bool file_exists(const std::string& path);
 
+// Why `path` is not a readable regular file, for messages: "file not found",
+// "is a directory, expected a file", "is not a regular file".
+std::string not_a_file_reason(const std::string& path);
+
 // True if `path` is a directory.
 bool is_directory(const std::string& path);
 
