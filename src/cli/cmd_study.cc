@@ -5,6 +5,7 @@
 #include <vector>
 
 #include "cli_common.h"
+#include "learn_cli.h"
 #include "output_checks_cli.h"
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
@@ -25,7 +26,14 @@ void run(const StudyFlags& f, const Context& ctx) {
   if (!f.merge.empty()) {
     if (!f.config.empty()) throw InputError("", "--merge", "give either --config or --merge, not both");
     require_writable_folder(f.out, "--out");  // output_checks_cli.h
-    const StudyRunSummary s = merge_studies(f.merge, f.out, ctx.command_line);
+    install_learned_backend();  // the merged config may name learned methods
+    StudyRunSummary s;
+    try {
+      s = merge_studies(f.merge, f.out, ctx.command_line);
+    } catch (const InputError& e) {
+      if (!e.file().empty()) throw;  // a file's own error (config, manifest, results)
+      throw_with_flags(e, study_flags());
+    }
     say(ctx, "merged " + std::to_string(f.merge.size()) + " folders: " + std::to_string(s.cases_skipped) + " of " +
                  std::to_string(s.cases_total) + " cases" + (s.complete ? "" : " (incomplete: some shards missing)"));
     say(ctx, "results: " + s.results_path);

@@ -8,7 +8,6 @@
 #include "recofold/acquire/ct_simulation.h"
 #include "recofold/core/error.h"
 #include "recofold/ops/ct_geometry.h"
-#include "recofold/recon/fbp.h"
 #include "recofold/sampling/view_set.h"
 
 namespace recofold::cli {
@@ -189,34 +188,6 @@ const std::vector<FieldFlag>& ct_simulate_flags() {
       {"truth", "--truth"},
   };
   return map;
-}
-
-void add_ct_recon_flags(CLI::App& sub, CtReconFlags& flags) {
-  sub.add_option("--filter", flags.filter, "FBP window: " + fbp_filter_names())
-      ->capture_default_str()
-      ->group("CT (--method fbp)");
-}
-
-ImageRecord reconstruct_fbp_record(const Measurement& m, const CtReconFlags& flags) {
-  const auto filter = parse_fbp_filter(flags.filter);
-  if (!filter) throw InputError("", "--filter", "'" + flags.filter + "'; expected one of " + fbp_filter_names());
-  if (m.modality != Modality::kCt || !m.ct)
-    throw InputError("", "--method",
-                     "fbp needs a CT measurement; this one is '" + std::string(to_string(m.modality)) + "'");
-  FbpOptions options;
-  options.filter = *filter;
-  const ImageF img = fbp(m, options, "--meas");
-  ImageRecord rec;
-  rec.pixels = NdArray<cfloat>(Shape{img.rows(), img.cols()});
-  for (Index k = 0; k < img.size(); ++k) rec.pixels.data[static_cast<size_t>(k)] = cfloat(img.data()[k], 0.0f);
-  rec.is_complex = false;
-  rec.pixel_spacing_mm[0] = m.pixel_spacing_mm[0];
-  rec.pixel_spacing_mm[1] = m.pixel_spacing_mm[1];
-  rec.description = "FBP (" + flags.filter + ") of a " + ct_geometry_from(m, "--meas").describe() + " sinogram";
-  rec.text_attrs["method"] = "fbp";
-  rec.text_attrs["filter"] = flags.filter;
-  rec.number_attrs["mu_per_mm"] = m.ct->mu_per_mm;
-  return rec;
 }
 
 }  // namespace recofold::cli

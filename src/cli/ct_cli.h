@@ -1,6 +1,6 @@
 // SPDX-License-Identifier: Apache-2.0
-// CT parts of `recofold simulate` and `recofold recon`, kept apart from the
-// MRI parts so each modality's flags and checks live in one place.
+// CT parts of `recofold simulate`: its flags and their checks; the protocol
+// defaults and the simulation are acquire's (acquire/ct_simulation.h).
 #pragma once
 
 #include <CLI/CLI.hpp>
@@ -62,14 +62,5 @@ Measurement simulate_ct_measurement(const CtSimulateFlags& flags,
 
 // Library field paths of CT simulation ("ct.detector_count", ...) and their flags.
 const std::vector<FieldFlag>& ct_simulate_flags();
-
-// Flags of `recon` that only CT uses.
-struct CtReconFlags {
-  std::string filter = "ram-lak";  // --filter ram-lak|shepp-logan|cosine|hamming|hann
-};
-void add_ct_recon_flags(CLI::App& sub, CtReconFlags& flags);
-
-// FBP of a CT measurement, in phantom intensity units (divided by mu).
-ImageRecord reconstruct_fbp_record(const Measurement& m, const CtReconFlags& flags);
 
 }  // namespace recofold::cli

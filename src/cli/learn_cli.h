@@ -1,22 +1,13 @@
 // SPDX-License-Identifier: Apache-2.0
-// Learned-model parts of the CLI: running an unrolled model file on a measurement (used by `recon --method unrolled`).
+// The learned backend of the CLI: installed from the learn module when the build has one.
 #pragma once
-
-#include <string>
-
-#include "recofold/core/image_record.h"
-#include "recofold/core/measurement.h"
 
 namespace recofold::cli {
 
-// Reconstructs `m` with the learned unrolled model in `model_path`.
-// Throws InputError (exit 2) naming the model file when the model cannot be
-// read or does not fit the measurement (modality, image size). When the
-// measurement's acquisition conditions lie outside the model's trained_on
-// ranges, the reconstruction still runs and *warning (if not null) receives
-// "measurement outside the training conditions of MODEL: ..."; otherwise it
-// is cleared. The record is complex for MRI, real for CT, and carries the
-// model path, checksum and architecture as text attributes.
-ImageRecord reconstruct_unrolled_record(const Measurement& m, const std::string& model_path, std::string* warning);
+// Registers the learn module's LearnedBackend (recon/learned_backend.h) once;
+// the commands that run learned methods (recon, study) call it before work.
+// A build without libtorch compiles learn_absent.cc instead, which installs
+// nothing: find_learned_backend() then says why.
+void install_learned_backend();
 
 }  // namespace recofold::cli

@@ -11,6 +11,7 @@
 #include <cstdio>
 #include <thread>
 
+#include "learn_cli.h"
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
 #include "recofold/study/study_config.h"
@@ -32,11 +33,18 @@ std::string seconds(double s) {
 
 }  // namespace
 
+const std::vector<FieldFlag>& study_flags() {
+  static const std::vector<FieldFlag> map = {{"out_dir", "--out"}, {"merge", "--merge"}, {"jobs", "--jobs"},
+                                             {"shard", "--shard"}};
+  return map;
+}
+
 std::string run_study_command(const Context& ctx, const std::string& config_path, const std::string& out_dir,
                               int jobs, const std::string& shard_text) {
   require_writable_folder(out_dir, "--out");  // output_checks_cli.h
   if (jobs < 0) throw InputError("", "--jobs", "= " + std::to_string(jobs) + "; must be >= 1 (0: all cores)");
   const Shard shard = shard_text.empty() ? Shard{} : Shard::parse(shard_text, "--shard");
+  install_learned_backend();  // learned methods go through it (none in a build without libtorch)
   const StudyConfig config = StudyConfig::load(config_path);
   apply_threads(ctx);
   StudyRunOptions o;
@@ -54,7 +62,15 @@ std::string run_study_command(const Context& ctx, const std::string& config_path
   g_stop.store(false);
   std::signal(SIGINT, on_stop_signal);
   std::signal(SIGTERM, on_stop_signal);
-  const StudyRunSummary s = run_study(config, o);
+  StudyRunSummary s;
+  try {
+    s = run_study(config, o);
+  } catch (const InputError& e) {
+    std::signal(SIGINT, SIG_DFL);
+    std::signal(SIGTERM, SIG_DFL);
+    if (!e.file().empty()) throw;  // a file's own error (config, manifest, results)
+    throw_with_flags(e, study_flags());
+  }
   std::signal(SIGINT, SIG_DFL);
   std::signal(SIGTERM, SIG_DFL);
   say(ctx, "study " + config.name + ": " + std::to_string(s.cases_in_shard) + " cases" +

@@ -3,10 +3,14 @@
 #pragma once
 
 #include <string>
+#include <vector>
 
 #include "cli_common.h"
 
 namespace recofold::cli {
+
+// The study runner's option fields (out_dir, merge, jobs, shard) and their flags.
+const std::vector<FieldFlag>& study_flags();
 
 // Runs `config_path` into `out_dir` with `jobs` parallel cases (0: all
 // cores) and shard "I/N" ("" = whole study); prints the counts, timings and

@@ -110,9 +110,9 @@ CaseGrid expand_grid(const StudyConfig& c) {
   return g;
 }
 
-Shard Shard::parse(const std::string& text, const std::string& flag) {
+Shard Shard::parse(const std::string& text, const std::string& field) {
   const size_t slash = text.find('/');
-  auto bad = [&](const std::string& why) { return InputError("", flag, "'" + text + "'; " + why); };
+  auto bad = [&](const std::string& why) { return InputError("", field, "'" + text + "'; " + why); };
   if (slash == std::string::npos) throw bad("expected I/N, e.g. 1/4");
   char* end = nullptr;
   const std::string a = text.substr(0, slash), b = text.substr(slash + 1);

@@ -1,5 +1,5 @@
 // SPDX-License-Identifier: Apache-2.0
-// Simulation and reconstruction of one study case by direct calls into acquire, recon, priors and metrics.
+// One study case: simulation by acquire, reconstruction by recon's reconstruct(), scores by metrics.
 #include "recofold/study/case_runner.h"
 
 #include <chrono>
@@ -10,24 +10,11 @@
 #include "recofold/acquire/ct_simulation.h"
 #include "recofold/acquire/mri.h"
 #include "recofold/core/error.h"
-#include "recofold/ops/ct_geometry.h"
-#include "recofold/ops/fourier.h"
-#include "recofold/ops/joseph_projector.h"
 #include "recofold/phantom/family.h"
 #include "recofold/phantom/phantom_table.h"
 #include "recofold/phantom/raster.h"
-#include "recofold/priors/prior_spec.h"
-#include "recofold/recon/admm.h"
-#include "recofold/recon/cg.h"
-#include "recofold/recon/fbp.h"
-#include "recofold/recon/fista.h"
-#include "recofold/recon/ista.h"
-#include "recofold/recon/lambda_discrepancy.h"
-#include "recofold/recon/pdhg.h"
-#include "recofold/recon/pipeline.h"
-#include "recofold/recon/zero_filled.h"
+#include "recofold/recon/reconstruct.h"
 #include "recofold/sampling/mask.h"
-#include "recofold/sampling/view_set.h"
 #include "recofold/study/learned_models.h"
 
 namespace recofold {
@@ -51,127 +38,11 @@ ImageF disc_region(Index ny, Index nx, double radius) {
   return r;
 }
 
-ImageF image_of(const VecC& x, Index ny, Index nx, bool magnitude) {
-  ImageF out(ny, nx);
-  for (Index k = 0; k < ny * nx; ++k) out.data()[k] = magnitude ? std::abs(x[k]) : x[k].real();
-  return out;
-}
 
 ImageF image_of(const ImageC& x, bool magnitude) {
   ImageF out(x.rows(), x.cols());
   for (Index k = 0; k < x.size(); ++k) out.data()[k] = magnitude ? std::abs(x.data()[k]) : x.data()[k].real();
   return out;
-}
-
-// One solver run with weight `lambda` (or, when `lambda` is NaN, with the weight
-// chosen by the discrepancy principle); returns the image, the weight used and
-// the iteration count of the final solve.
-ImageF run_solver(const StudyMethod& method, const Measurement& m, double lambda, double* lambda_used,
-                  int* iterations) {
-  const bool mri = m.modality == Modality::kMri;
-  std::unique_ptr<LinearOperator> op;
-  VecC y;
-  if (mri) {
-    op = make_sense_operator(*m.mri);
-    y = kspace_vector(*m.mri);
-  } else {
-    op = make_ct_operator(m);
-    y = ct_sinogram_vector(m);
-  }
-  const Shape shape{m.ny, m.nx};
-  VecC x;
-  SolverSummary summary;
-  *lambda_used = lambda;
-  if (method.method == "cg") {
-    CgOptions o;
-    o.max_iterations = method.iterations;
-    o.tikhonov = method.prior == "l2" ? lambda : 0.0;
-    o.record_objective = false;
-    summary = solve_cg(o, *op, y, x);
-    if (method.prior != "l2") *lambda_used = std::numeric_limits<double>::quiet_NaN();
-  } else {
-    PriorSpec spec;
-    spec.kind = *parse_prior(method.prior);
-    spec.lambda = std::isnan(lambda) ? 1.0 : lambda;
-    if (const auto w = parse_wavelet(method.wavelet)) spec.wavelet.family = *w;
-    else throw InputError("", "method.wavelet", "'" + method.wavelet + "'; expected db1, db2, db3 or db4");
-    spec.wavelet.levels = method.levels;
-    spec.tv.isotropic = spec.kind != PriorKind::kTvAniso;
-    const bool nonneg = method.nonneg.value_or(!mri);
-    if (nonneg) spec.box = Box{};
-    const std::unique_ptr<Prior> prior = make_prior(spec, shape);
-    const int iters = method.iterations;
-    const std::string name = method.method;
-    const LinearOperator& a = *op;
-    const RegularisedSolve solve = [&a, &y, iters, name](const Prior& p, VecC& xs) {
-      if (name == "ista") {
-        IstaOptions o;
-        o.max_iterations = iters;
-        o.record_objective = false;
-        return solve_ista(o, a, p, y, xs);
-      }
-      if (name == "fista") {
-        FistaOptions o;
-        o.max_iterations = iters;
-        o.record_objective = false;
-        return solve_fista(o, a, p, y, xs);
-      }
-      if (name == "admm") {
-        AdmmOptions o;
-        o.max_iterations = iters;
-        o.record_objective = false;
-        return solve_admm(o, a, p, y, xs);
-      }
-      if (name == "pdhg") {
-        PdhgOptions o;
-        o.max_iterations = iters;
-        o.record_gap = false;
-        return solve_pdhg(o, a, p, y, xs);
-      }
-      throw InputError("", "method.method", "'" + name + "' is not a solver");
-    };
-    if (std::isnan(lambda) && !mri) {
-      // CT "auto": the held-out-views rule shared with `recofold recon`
-      // (recon/pipeline.h). The plain discrepancy target cannot be reached
-      // with exact line integrals: the projector's model misfit exceeds the
-      // Poisson noise energy.
-      ReconRequest request;
-      request.method = *parse_solver_method(name);
-      request.prior = spec;
-      request.lambda_auto = true;
-      request.iterations = iters;
-      const ReconResult r = reconstruct_measurement(m, request);
-      *lambda_used = r.lambda;
-      *iterations = static_cast<int>(r.summary.iterations.size());
-      return image_of(r.image, m.ny, m.nx, mri);
-    }
-    if (std::isnan(lambda)) {
-      DiscrepancyOptions d;
-      if (mri) {
-        if (!(m.mri->noise_sigma > 0.0))
-          throw InputError("", "method.lambda", "auto needs noisy data (the discrepancy principle matches the noise)");
-        Index sampled = 0;
-        for (uint8_t v : m.mri->mask.data) sampled += v != 0;
-        d.noise_sigma = m.mri->noise_sigma;
-        d.measurement_count = sampled * (m.mri->kspace.shape.rank() == 3 ? m.mri->kspace.shape[0] : 1);
-        d.complex_noise = true;
-      } else {
-        if (!(m.ct->photons_per_ray > 0.0))
-          throw InputError("", "method.lambda", "auto needs noisy data (photons > 0)");
-        d.target = transmission_noise_energy(y, m.ct->photons_per_ray);
-        d.complex_noise = false;
-      }
-      d.max_steps = 10;
-      const DiscrepancyChoice choice = choose_lambda_discrepancy(d, a, y, *prior, solve, x);
-      *lambda_used = choice.lambda;
-      *iterations = choice.curve.points.empty() ? 0 : choice.curve.points.back().iterations;
-      return image_of(x, m.ny, m.nx, mri);
-    }
-    summary = solve(*prior, x);
-  }
-  if (!summary.is_usable()) throw WorkError(method.method + ": " + summary.brief_report());
-  *iterations = static_cast<int>(summary.iterations.size());
-  return image_of(x, m.ny, m.nx, mri);
 }
 
 }  // namespace
@@ -222,37 +93,31 @@ CaseOutcome run_case_method(const StudyMethod& method, const CaseMeasurement& da
   ScoreOptions so;
   so.region = data.region;
   const Measurement& m = data.measurement;
+  const bool magnitude = m.modality == Modality::kMri;
   const auto start = std::chrono::steady_clock::now();
   try {
-    if (method.method == "zero-filled") {
-      const bool sense = m.mri && m.mri->coil_maps.size() > 0;
-      out.image = image_of(zero_filled(*m.mri, sense ? CoilCombine::kSensitivity : CoilCombine::kSumOfSquares), true);
-    } else if (method.method == "fbp") {
-      FbpOptions o;
-      o.filter = *parse_fbp_filter(method.filter);
-      out.image = fbp(m, o);
-    } else if (method.method == "unrolled") {
-      if (learned == nullptr) throw WorkError("learned method '" + method.name + "' has no model loaded");
-      out.image = image_of(learned->reconstruct(method.name, m, &out.outside), m.modality == Modality::kMri);
-      out.in_training = out.outside.empty() ? "yes" : "no";
-    } else {
-      const std::vector<double> lambdas =
-          method.lambda_auto ? std::vector<double>{std::numeric_limits<double>::quiet_NaN()}
-                             : (method.lambdas.empty() ? std::vector<double>{0.0} : method.lambdas);
-      double best = -std::numeric_limits<double>::infinity();
-      for (double lambda : lambdas) {
-        int iterations = 0;
-        double used = lambda;
-        ImageF image = run_solver(method, m, lambda, &used, &iterations);
-        const double p = lambdas.size() > 1 ? psnr(data.truth, image, so) : 0.0;
-        if (lambdas.size() == 1 || p > best) {
-          best = p;
-          out.image = std::move(image);
-          out.iterations = iterations;
-          out.lambda = used;
-        }
-      }
+    ReconSpec spec = method.spec;
+    if (method.learned()) {
+      spec.model = learned ? learned->model_path(method.name) : "";
+      if (spec.model.empty()) throw WorkError("learned method '" + method.name + "' has no model loaded");
     }
+    ReconHooks hooks;
+    hooks.record_history = false;
+    // The oracle rule scores in the study's region; without one the default
+    // (squared error against the measurement's truth) chooses alike.
+    if (data.region.size() > 0)
+      hooks.oracle_score = [&](const ImageC& img) { return psnr(data.truth, image_of(img, magnitude), so); };
+    const Reconstruction r = reconstruct(m, spec, hooks);
+    out.image = image_of(r.image, magnitude);
+    out.record = reconstruction_record(m, r);
+    out.iterations = static_cast<int>(r.summary.iterations.size());
+    out.lambda = r.lambda.value;
+    if (method.learned()) {
+      out.outside = r.outside_training;
+      out.in_training = out.outside.empty() ? "yes" : "no";
+    }
+    if (is_iterative(r.spec.method) && !r.summary.is_usable())
+      throw WorkError(method.name + ": " + r.summary.brief_report());
     out.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     out.scores = score_images(data.truth, out.image, so);
     out.ok = true;

@@ -33,7 +33,7 @@ std::string format_result_row(const StudyConfig& config, const CaseGrid& grid, c
   const Acquisition& a = grid.acquisitions[size_t(c.acquisition)];
   const StudyMethod& m = config.methods[size_t(c.method)];
   std::vector<std::string> cells = {c.key, config.phantoms[size_t(c.phantom)].label,
-                                    std::string(to_string(a.modality)), m.name, m.prior};
+                                    std::string(to_string(a.modality)), m.name, m.prior_name(a.modality)};
   for (const auto& axis : acquisition_axes()) cells.push_back(axis_value(a, axis));
   cells.push_back(std::to_string(c.repetition));
   cells.push_back(std::isnan(o.lambda) ? "" : format_sig(o.lambda, 6));

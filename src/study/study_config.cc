@@ -12,15 +12,15 @@
 #include "recofold/core/provenance.h"
 #include "recofold/phantom/family.h"
 #include "recofold/priors/prior_spec.h"
+#include "recofold/core/field_error.h"
 #include "recofold/recon/fbp.h"
+#include "recofold/recon/learned_backend.h"
 #include "recofold/sampling/mask.h"
 #include "study_util.h"
 
 namespace recofold {
 
 namespace {
-
-const std::vector<std::string> kMethodNames = {"zero-filled", "fbp", "cg", "ista", "fista", "admm", "pdhg", "unrolled"};
 
 std::string join(const std::vector<std::string>& v) {
   std::string s;
@@ -77,23 +77,95 @@ std::string resolve(const std::string& path, const std::string& base_dir) {
   return path;
 }
 
-StudyMethod parse_method(const Config& t, const std::string& base_dir) {
-  t.expect_only({"name", "method", "prior", "lambda", "iters", "wavelet", "levels", "nonneg", "filter", "modality",
-                 "model", "train", "train_steps", "optional"});
+// Spec field paths and the [[method]] keys that set them.
+const std::vector<std::pair<std::string, std::string>>& spec_keys() {
+  static const std::vector<std::pair<std::string, std::string>> keys = {
+      {"method", "method"},
+      {"prior", "prior"},
+      {"prior.wavelet.family", "wavelet"},
+      {"prior.wavelet.levels", "levels"},
+      {"prior.wavelet.cycle_spin", "cycle_spin"},
+      {"lambda", "lambda"},
+      {"lambda.rule", "lambda_rule"},
+      {"lambda.max_solves", "lambda_solves"},
+      {"iterations", "iters"},
+      {"tolerance", "tol"},
+      {"fista.restart", "restart"},
+      {"admm.rho", "rho"},
+      {"admm.cg_iterations", "cg_iters"},
+      {"pdhg.tau", "tau"},
+      {"pdhg.sigma", "sigma"},
+      {"fbp.filter", "filter"},
+      {"zero_filled.combine", "combine"},
+      {"zero_filled.maps", "maps"},
+      {"nonneg", "nonneg"},
+      {"model", "model"},
+  };
+  return keys;
+}
+
+std::string key_of_field(const std::string& field) {
+  if (field.rfind("lambda[", 0) == 0) return "lambda";
+  for (const auto& [f, k] : spec_keys())
+    if (f == field) return k;
+  return field;
+}
+
+// Spec violations as an InvalidFields naming method[i].<key>, with the line of the first key.
+void throw_spec_errors(const Config& t, int index, const std::vector<FieldError>& errors) {
+  if (errors.empty()) return;
+  std::vector<FieldError> named;
+  int line = 0;
+  for (const FieldError& e : errors) {
+    const std::string key = key_of_field(e.field);
+    if (line == 0) line = t.has(key) ? t.line(key) : t.line();
+    named.push_back({"method[" + std::to_string(index) + "]." + key, e.value, e.rule});
+  }
+  throw InvalidFields(std::move(named), t.file(), line);
+}
+
+template <typename Enum, typename Parse>
+std::optional<Enum> enum_key(const Config& t, const std::string& key, Parse parse, const std::string& accepted) {
+  if (!t.has(key)) return std::nullopt;
+  const std::string v = t.get_string(key);
+  const auto parsed = parse(v);
+  if (!parsed) throw t.error(key, "'" + v + "'; expected one of " + accepted);
+  return *parsed;
+}
+
+std::optional<int> int_key(const Config& t, const std::string& key) {
+  if (!t.has(key)) return std::nullopt;
+  const int64_t v = t.get_int(key);
+  if (v < -1000000000 || v > 1000000000) throw t.error(key, "= " + std::to_string(v) + "; out of range");
+  return static_cast<int>(v);
+}
+
+std::optional<double> double_key(const Config& t, const std::string& key) {
+  if (!t.has(key)) return std::nullopt;
+  return t.get_double(key);
+}
+
+std::optional<bool> bool_key(const Config& t, const std::string& key) {
+  if (!t.has(key)) return std::nullopt;
+  return t.get_bool(key);
+}
+
+StudyMethod parse_method_table(const Config& t, int index, const std::string& base_dir) {
+  t.expect_only({"name", "method", "prior", "lambda", "lambda_rule", "lambda_solves", "iters", "tol", "wavelet",
+                 "levels", "cycle_spin", "restart", "rho", "cg_iters", "tau", "sigma", "filter", "combine", "maps",
+                 "nonneg", "modality", "model", "train", "train_steps", "optional"});
   StudyMethod m;
+  m.index = index;
   m.line = t.line();
-  m.method = t.get_string("method");
-  if (std::find(kMethodNames.begin(), kMethodNames.end(), m.method) == kMethodNames.end())
-    throw t.error("method", "'" + m.method + "'; expected one of " + join(kMethodNames));
-  m.prior = t.get_string_or("prior", "none");
-  if (!parse_prior(m.prior)) throw t.error("prior", "'" + m.prior + "'; expected one of " + accepted_priors());
-  const bool solver = m.method != "zero-filled" && m.method != "fbp" && m.method != "unrolled";
-  if (!solver && t.has("prior") && m.prior != "none")
-    throw t.error("prior", "method " + m.method + " takes no prior");
-  if ((m.method == "admm" || m.method == "pdhg") && m.prior == "none")
-    throw t.error("prior", "method " + m.method + " needs a prior (l2, wavelet, tv, tv-aniso)");
-  if (m.method == "cg" && m.prior != "none" && m.prior != "l2")
-    throw t.error("prior", "method cg takes prior none or l2 (lambda is the Tikhonov weight)");
+  ReconSpec& s = m.spec;
+  const std::string method = t.get_string("method");
+  const auto parsed_method = parse_method(method);
+  if (!parsed_method) throw t.error("method", "'" + method + "'; expected one of " + accepted_methods());
+  s.method = *parsed_method;
+  s.prior.kind = enum_key<PriorKind>(t, "prior", parse_prior, accepted_priors());
+  s.prior.wavelet.family = enum_key<WaveletFamily>(t, "wavelet", parse_wavelet, accepted_wavelets());
+  s.prior.wavelet.levels = int_key(t, "levels");
+  s.prior.wavelet.cycle_spin = bool_key(t, "cycle_spin");
   if (t.has("lambda")) {
     std::string text;
     bool is_text = true;
@@ -105,56 +177,65 @@ StudyMethod parse_method(const Config& t, const std::string& base_dir) {
     if (is_text) {
       if (text != "auto")
         throw t.error("lambda", "'" + text + "'; give a number, a list of numbers (per-case oracle choice) or \"auto\"");
-      if (m.method != "ista" && m.method != "fista" && m.method != "admm" && m.method != "pdhg")
-        throw t.error("lambda", "auto needs a prior solver (ista, fista, admm, pdhg), not " + m.method);
-      if (m.prior == "none") throw t.error("lambda", "auto needs a prior");
-      m.lambda_auto = true;
+      s.lambda.mode = LambdaMode::kAuto;
     } else {
-      m.lambdas = number_list(t, "lambda");
-      check_range(t, "lambda", m.lambdas, 0.0, 1e12, false, ">= 0");
+      try {
+        s.lambda.value = t.get_double("lambda");
+        s.lambda.mode = LambdaMode::kValue;
+      } catch (const InputError&) {
+        s.lambda.grid = t.get_double_list("lambda");
+        s.lambda.mode = LambdaMode::kGrid;
+      }
     }
   }
-  m.iterations = static_cast<int>(t.get_int_or("iters", 50));
-  if (m.iterations < 1 || m.iterations > 100000) throw t.error("iters", "must be in 1..100000");
-  m.wavelet = t.get_string_or("wavelet", "db4");
-  m.levels = static_cast<int>(t.get_int_or("levels", 3));
-  if (t.has("nonneg")) m.nonneg = t.get_bool("nonneg");
-  m.filter = t.get_string_or("filter", "ram-lak");
-  if (!parse_fbp_filter(m.filter)) throw t.error("filter", "'" + m.filter + "'; expected " + fbp_filter_names());
+  s.lambda.rule = enum_key<LambdaRule>(t, "lambda_rule", parse_lambda_rule, accepted_lambda_rules());
+  s.lambda.max_solves = int_key(t, "lambda_solves");
+  s.iterations = int_key(t, "iters");
+  s.tolerance = double_key(t, "tol");
+  s.fista.restart = bool_key(t, "restart");
+  s.admm.rho = double_key(t, "rho");
+  s.admm.cg_iterations = int_key(t, "cg_iters");
+  s.pdhg.tau = double_key(t, "tau");
+  s.pdhg.sigma = double_key(t, "sigma");
+  s.fbp.filter = enum_key<FbpFilter>(t, "filter", parse_fbp_filter, fbp_filter_names());
+  s.zero_filled.combine = enum_key<CoilCombine>(t, "combine", parse_coil_combine, "sos, sense");
+  s.zero_filled.maps = enum_key<CoilMapSource>(t, "maps", parse_coil_map_source, "measured, estimated");
+  s.nonneg = bool_key(t, "nonneg");
+
   if (t.has("modality")) {
     const std::string mod = t.get_string("modality");
     const auto parsed = parse_modality(mod);
     if (!parsed || (*parsed != Modality::kMri && *parsed != Modality::kCt))
       throw t.error("modality", "'" + mod + "'; expected mri or ct");
-    if ((m.method == "zero-filled" && *parsed != Modality::kMri) || (m.method == "fbp" && *parsed != Modality::kCt))
-      throw t.error("modality", "method " + m.method + " does not run on " + mod);
+    if (!runs_on(s.method, *parsed))
+      throw t.error("modality", "method " + m.method_name() + " does not run on " + mod);
     m.modalities = {*parsed};
-  } else if (m.method == "zero-filled") {
-    m.modalities = {Modality::kMri};
-  } else if (m.method == "fbp") {
-    m.modalities = {Modality::kCt};
-  } else if (m.method == "unrolled") {
+  } else if (s.method == Method::kUnrolled) {
     throw t.error("modality", "missing; an unrolled method needs modality = \"mri\" or \"ct\"");
   } else {
-    m.modalities = {Modality::kMri, Modality::kCt};
+    for (Modality mod : {Modality::kMri, Modality::kCt})
+      if (runs_on(s.method, mod)) m.modalities.push_back(mod);
   }
-  m.name = t.get_string_or("name", m.prior == "none" ? m.method : m.method + "-" + m.prior);
+  const bool named_prior = s.prior.kind && *s.prior.kind != PriorKind::kNone && s.method != Method::kUnrolled;
+  m.name = t.get_string_or("name", named_prior ? m.method_name() + "-" + std::string(to_string(*s.prior.kind))
+                                               : m.method_name());
   if (m.name.empty() || m.name.find_first_of(",|\"\n/") != std::string::npos)
     throw t.error("name", "'" + m.name + "'; must be non-empty without , | \" / or newlines");
-  if (m.method == "unrolled") m.prior = "learned";  // the prior column of results.csv
   m.optional = t.get_bool_or("optional", false);
   m.train_steps = t.get_int_or("train_steps", 0);
   if (m.train_steps < 0) throw t.error("train_steps", "must be >= 0");
-  if (m.method == "unrolled") {
+  if (s.method == Method::kUnrolled) {
     const bool has_model = t.has("model"), has_train = t.has("train");
     if (has_model == has_train) throw t.error(has_model ? "train" : "model", "an unrolled method needs exactly one of model or train");
     if (has_model) {
       m.model_path = resolve(t.get_string("model"), base_dir);
       if (!file_exists(m.model_path)) throw t.error("model", "model file '" + m.model_path + "' does not exist");
+      s.model = m.model_path;
     } else {
       m.train_config = resolve(t.get_string("train"), base_dir);
       if (!file_exists(m.train_config))
         throw t.error("train", "training config '" + m.train_config + "' does not exist");
+      s.model = "models/" + m.name + ".h5";  // trained into the study folder; the runner sets the path
     }
   } else {
     for (const char* k : {"model", "train", "train_steps", "optional"})
@@ -167,6 +248,14 @@ StudyMethod parse_method(const Config& t, const std::string& base_dir) {
 
 bool StudyMethod::applies_to(Modality modality) const {
   return std::find(modalities.begin(), modalities.end(), modality) != modalities.end();
+}
+
+std::string StudyMethod::method_name() const { return std::string(to_string(spec.method)); }
+
+std::string StudyMethod::prior_name(Modality modality) const {
+  if (learned()) return "learned";
+  if (!is_iterative(spec.method)) return "none";
+  return std::string(to_string(*spec.with_defaults(modality).prior.kind));
 }
 
 const std::vector<std::string>& study_metric_names() {
@@ -296,8 +385,13 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
   // Methods.
   const std::vector<Config> methods = root.tables("method");
   if (methods.empty()) throw root.error("method", "empty grid: no [[method]] table");
-  for (const Config& t : methods) {
-    StudyMethod m = parse_method(t, base_dir);
+  for (size_t index = 0; index < methods.size(); ++index) {
+    const Config& t = methods[index];
+    StudyMethod m = parse_method_table(t, static_cast<int>(index), base_dir);
+    // The spec against every modality the study runs it on.
+    for (Modality mod : m.modalities)
+      if ((mod == Modality::kMri && c.mri) || (mod == Modality::kCt && c.ct))
+        throw_spec_errors(t, m.index, m.spec.validate(mod, Shape{c.ny, c.nx}));
     if (m.learned() && !study_has_learn()) {
       if (m.optional) {
         c.notes.push_back("Learned method '" + m.name +

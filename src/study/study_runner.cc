@@ -149,7 +149,7 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
     if (!errors.empty()) throw InputError("", errors[0].substr(0, errors[0].find(' ')), errors[0]);
   }
   const std::string dir = options.out_dir;
-  if (!is_dir(parent_of(dir))) throw InputError("", "--out", "the folder '" + parent_of(dir) + "' does not exist");
+  if (!is_dir(parent_of(dir))) throw InputError("", "out_dir", "the folder '" + parent_of(dir) + "' does not exist");
   const CaseGrid grid = expand_grid(config);
   std::vector<const StudyCase*> mine;
   for (const StudyCase& c : grid.cases)
@@ -301,8 +301,8 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
 StudyRunSummary merge_studies(const std::vector<std::string>& dirs, const std::string& out_dir,
                               const std::string& command) {
   const auto t0 = std::chrono::steady_clock::now();
-  if (dirs.size() < 2) throw InputError("", "--merge", "give at least two study folders to merge");
-  if (!is_dir(parent_of(out_dir))) throw InputError("", "--out", "the folder '" + parent_of(out_dir) + "' does not exist");
+  if (dirs.size() < 2) throw InputError("", "merge", "give at least two study folders to merge");
+  if (!is_dir(parent_of(out_dir))) throw InputError("", "out_dir", "the folder '" + parent_of(out_dir) + "' does not exist");
   std::string hash, config_text, cdir;
   ResultsTable merged;
   std::map<std::string, std::string> owner;
@@ -333,7 +333,7 @@ StudyRunSummary merge_studies(const std::vector<std::string>& dirs, const std::s
     }
   }
   if (out_dir == dirs.front() || std::find(dirs.begin(), dirs.end(), out_dir) != dirs.end())
-    throw InputError("", "--out", "'" + out_dir + "' is one of the folders being merged; choose a new one");
+    throw InputError("", "out_dir", "'" + out_dir + "' is one of the folders being merged; choose a new one");
   // The config (its relative paths resolve against its original folder).
   StudyConfig config = StudyConfig::parse(config_text, cdir + "/study.toml", cdir);
   config.file = cdir + "/study.toml";

@@ -1,5 +1,6 @@
 // SPDX-License-Identifier: Apache-2.0
-// Scores a trained model against zero-filled, tuned FISTA-wavelet and tuned TV-ADMM on the trainer's validation set.
+// Scores a trained model against zero-filled, tuned FISTA-wavelet and tuned TV-ADMM on the trainer's validation set
+// (the classical methods through reconstruct(), as `recofold recon` and studies run them).
 //
 // Usage: learn_compare_classical --config configs/train-mri-small.toml [--model model.h5] [--count N]
 //                                [--iters 100]
@@ -19,11 +20,8 @@
 #include "recofold/learn/model.h"
 #include "recofold/learn/trainer.h"
 #include "recofold/learn/training_data.h"
-#include "recofold/ops/fourier.h"
-#include "recofold/ops/joseph_projector.h"
-#include "recofold/priors/prior_spec.h"
-#include "recofold/recon/admm.h"
-#include "recofold/recon/fista.h"
+#include "recofold/recon/forward_model.h"
+#include "recofold/recon/reconstruct.h"
 
 namespace {
 
@@ -40,11 +38,6 @@ double psnr(const VecC& x, const NdArray<cfloat>& truth) {
   return 10 * std::log10(peak * peak / (se / double(x.size())));
 }
 
-struct Problem {
-  std::shared_ptr<LinearOperator> op;
-  VecC y;
-  const Measurement* m;
-};
 
 }  // namespace
 
@@ -72,54 +65,37 @@ int main(int argc, char** argv) {
     std::vector<Measurement> ms;
     for (int i = 0; i < count; ++i)
       ms.push_back(draw_training_example(cfg.data, validation_seed(cfg.train.seed), static_cast<uint64_t>(i)));
-    std::vector<Problem> probs;
-    for (const auto& m : ms) {
-      Problem p;
-      p.m = &m;
-      if (m.mri) {
-        p.op = make_sense_operator(*m.mri);
-        p.y = kspace_vector(*m.mri);
-      } else {
-        p.op = make_ct_operator(m);
-        p.y = ct_sinogram_vector(m);
-      }
-      probs.push_back(std::move(p));
-    }
-    const Shape shape{cfg.data.ny, cfg.data.nx};
-    // A^H y (zero-filled for MRI).
+    // A^H y (zero-filled for MRI): one CG step from zero is a scaled A^H y,
+    // so the adjoint comes from the forward model itself.
     double zf = 0;
-    for (const auto& p : probs) {
+    for (const auto& m : ms) {
+      const ForwardModel fm = make_forward_model(m);
       VecC x;
-      p.op->adjoint(p.y, x);
-      zf += psnr(x, *p.m->truth) / count;
+      fm.op->adjoint(fm.y, x);
+      zf += psnr(x, *m.truth) / count;
     }
     std::printf("%-28s %8.2f dB\n", "A^H y (zero-filled)", zf);
     std::printf("RESULT|learn compare|%s|A^H y psnr|%.2f|dB\n", config.c_str(), zf);
 
+    // The classical priors through reconstruct(), the path of `recofold recon`
+    // and of studies (ReconSpec defaults except the given iterations and lambda).
     const std::vector<double> lambdas = {1e-4, 2e-4, 5e-4, 1e-3, 2e-3, 5e-3, 1e-2, 2e-2, 5e-2};
     for (const std::string method : {"fista-wavelet", "admm-tv"}) {
       double best = -1e9, best_lambda = 0;
       for (double lambda : lambdas) {
-        PriorSpec spec;
-        spec.kind = method == "fista-wavelet" ? PriorKind::kWavelet : PriorKind::kTv;
-        spec.lambda = lambda;
-        spec.wavelet.levels = 3;
-        auto prior = make_prior(spec, shape);
+        ReconSpec spec;
+        spec.method = method == "fista-wavelet" ? Method::kFista : Method::kAdmm;
+        spec.prior.kind = method == "fista-wavelet" ? PriorKind::kWavelet : PriorKind::kTv;
+        spec.lambda.mode = LambdaMode::kValue;
+        spec.lambda.value = lambda;
+        spec.iterations = iters;
+        ReconHooks hooks;
+        hooks.record_history = false;
         double mean = 0;
-        for (const auto& p : probs) {
-          VecC x;
-          if (method == "fista-wavelet") {
-            FistaOptions o;
-            o.max_iterations = iters;
-            o.record_objective = false;
-            solve_fista(o, *p.op, *prior, p.y, x);
-          } else {
-            AdmmOptions o;
-            o.max_iterations = iters;
-            o.record_objective = false;
-            solve_admm(o, *p.op, *prior, p.y, x);
-          }
-          mean += psnr(x, *p.m->truth) / count;
+        for (const auto& m : ms) {
+          const Reconstruction r = reconstruct(m, spec, hooks);
+          const VecC x = Eigen::Map<const VecC>(r.image.data(), r.image.size());
+          mean += psnr(x, *m.truth) / count;
         }
         if (mean > best) {
           best = mean;
@@ -133,10 +109,10 @@ int main(int argc, char** argv) {
       UnrolledModel model = UnrolledModel::load(model_path);
       double mean = 0;
       const auto t0 = std::chrono::steady_clock::now();
-      for (const auto& p : probs) {
-        ImageC img = model.reconstruct(*p.m);
+      for (const auto& m : ms) {
+        ImageC img = model.reconstruct(m);
         VecC x = Eigen::Map<const VecC>(img.data(), img.size());
-        mean += psnr(x, *p.m->truth) / count;
+        mean += psnr(x, *m.truth) / count;
       }
       const double ms_per = 1e3 * std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count() / count;
       std::printf("%-28s %8.2f dB (%s; %.1f ms per image)\n", "learned unrolled", mean,

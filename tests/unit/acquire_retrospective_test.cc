@@ -14,7 +14,7 @@
 #include "recofold/ops/espirit.h"
 #include "recofold/ops/fft.h"
 #include "recofold/phantom/raster.h"
-#include "recofold/recon/pipeline.h"
+#include "recofold/recon/reconstruct.h"
 #include "recofold/recon/zero_filled.h"
 #include "recofold/sampling/mask.h"
 
@@ -129,16 +129,16 @@ TEST(Retrospective, TvWithAutoLambdaBeatsZeroFilledByFiveDecibelsAtR4) {
   for (Index p = 0; p < n * n; ++p) truth.data()[p] = std::abs(m.truth->data[static_cast<size_t>(p)]);
   const ImageC zf = zero_filled(*m.mri, CoilCombine::kSensitivity);
   const double zf_psnr = psnr(truth, zf.abs());
-  ReconRequest req;
-  req.method = SolverMethod::kAdmm;
-  req.prior.kind = PriorKind::kTv;
-  req.lambda_auto = true;
-  const ReconResult r = reconstruct_measurement(m, req);
+  ReconSpec spec;
+  spec.method = Method::kAdmm;
+  spec.prior.kind = PriorKind::kTv;
+  spec.lambda.mode = LambdaMode::kAuto;
+  const Reconstruction r = reconstruct(m, spec);
   ImageF tv(n, n);
   for (Index p = 0; p < n * n; ++p) tv.data()[p] = std::abs(r.image(p));
   const double tv_psnr = psnr(truth, tv);
   std::printf("R = %.2f against the fully sampled image: zero-filled %.2f dB, ADMM-TV auto (lambda %.3g) %.2f dB\n",
-              m.mri->acceleration, zf_psnr, r.lambda, tv_psnr);
+              m.mri->acceleration, zf_psnr, r.lambda.value, tv_psnr);
   EXPECT_GE(tv_psnr, zf_psnr + 5.0);
 }
 

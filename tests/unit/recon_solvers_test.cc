@@ -20,7 +20,6 @@
 #include "recofold/recon/fista.h"
 #include "recofold/recon/ista.h"
 #include "recofold/recon/pdhg.h"
-#include "recofold/recon/solver_method.h"
 
 namespace recofold {
 namespace {
@@ -371,52 +370,6 @@ TEST(SolverSummary, HistoryTableHasOneRowPerIteration) {
   EXPECT_EQ(t.text_attrs.at("termination"), "max-iterations");
   EXPECT_GT(t.number_attrs.at("step_size"), 0.0);
   EXPECT_NE(s.brief_report().find("ista: max-iterations after 7 iterations"), std::string::npos) << s.brief_report();
-}
-
-TEST(SolverMethod, ParsesNamesAndChecksPriorCombinations) {
-  for (SolverMethod m : {SolverMethod::kCg, SolverMethod::kIsta, SolverMethod::kFista, SolverMethod::kAdmm,
-                         SolverMethod::kPdhg})
-    EXPECT_EQ(parse_solver_method(to_string(m)), m);
-  EXPECT_FALSE(parse_solver_method("sgd").has_value());
-  EXPECT_TRUE(check_method_prior(SolverMethod::kCg, PriorKind::kL2).empty());
-  ASSERT_EQ(check_method_prior(SolverMethod::kCg, PriorKind::kTv).size(), 1u);
-  EXPECT_EQ(check_method_prior(SolverMethod::kCg, PriorKind::kTv)[0].rfind("--prior", 0), 0u);
-  EXPECT_EQ(check_method_prior(SolverMethod::kAdmm, PriorKind::kNone).size(), 1u);
-  EXPECT_TRUE(check_method_prior(SolverMethod::kPdhg, PriorKind::kNone).empty());
-}
-
-TEST(SolverMethod, RegularisedSolveRunsEachMethodWithThePriorsLambda) {
-  const SmallProblem p = undersampled_problem();
-  L2Prior l2(Shape{16, 16}, 0.2);
-  for (SolverMethod m : {SolverMethod::kCg, SolverMethod::kIsta, SolverMethod::kFista, SolverMethod::kAdmm,
-                         SolverMethod::kPdhg}) {
-    const RegularisedSolve solve = make_regularised_solve(m, *p.a, p.y, 300);
-    VecC x;
-    const SolverSummary s = solve(l2, x);
-    EXPECT_EQ(s.solver, to_string(m));
-    // Every method minimises the same Tikhonov objective.
-    VecC r;
-    p.a->apply(x, r);
-    const double f = 0.5 * norm_squared(r - p.y) + l2.value(x);
-    CgOptions exact;
-    exact.max_iterations = 200;
-    exact.tolerance = 1e-8;
-    exact.tikhonov = 0.2;
-    VecC xe;
-    solve_cg(exact, *p.a, p.y, xe);
-    p.a->apply(xe, r);
-    const double fe = 0.5 * norm_squared(r - p.y) + l2.value(xe);
-    EXPECT_NEAR(f, fe, 2e-3 * fe) << to_string(m);
-  }
-  TvPrior tv(Shape{16, 16}, 0.1);
-  VecC x;
-  try {
-    make_regularised_solve(SolverMethod::kCg, *p.a, p.y, 10)(tv, x);
-    FAIL() << "cg accepted a TV prior";
-  } catch (const InputError& e) {
-    EXPECT_EQ(e.field(), "--prior");
-  }
-  EXPECT_THROW(make_regularised_solve(SolverMethod::kFista, *p.a, p.y, 0), InputError);
 }
 
 }  // namespace

@@ -127,7 +127,7 @@ TEST(StudyGrid, ShardParseRejectsImpossibleShards) {
       Shard::parse(bad);
       ADD_FAILURE() << bad << " accepted";
     } catch (const InputError& e) {
-      EXPECT_EQ(e.field(), "--shard") << bad;
+      EXPECT_EQ(e.field(), "shard") << bad;  // the field; the CLI maps it to its flag
     }
   }
   EXPECT_EQ(Shard::parse("2/3").to_string(), "2/3");

@@ -68,8 +68,8 @@ struct Shard {
   int count = 1;
   bool contains(const StudyCase& c) const { return c.group % count == index - 1; }
   std::string to_string() const { return std::to_string(index) + "/" + std::to_string(count); }
-  // Parses "I/N"; InputError(file "", field `flag`) unless 1 <= I <= N.
-  static Shard parse(const std::string& text, const std::string& flag = "--shard");
+  // Parses "I/N"; InputError(file "", `field`) unless 1 <= I <= N.
+  static Shard parse(const std::string& text, const std::string& field = "shard");
 };
 
 }  // namespace recofold

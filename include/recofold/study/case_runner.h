@@ -1,17 +1,16 @@
 // SPDX-License-Identifier: Apache-2.0
 // One study case: simulate its measurement, reconstruct with one method, score against the truth.
 //
-// This is the single place where a study turns a method description into
-// library calls (zero_filled, fbp, solve_cg/ista/fista/admm/pdhg with a prior
-// from make_prior, and learned models through LearnedModelSet). When the recon
-// module offers a shared "reconstruct(measurement, method spec)" function,
-// run_case_method() switches to it.
+// A case runs its method's ReconSpec through recon's reconstruct(), the same
+// call `recofold recon` makes, so a study and the command line give the same
+// image for the same spec and measurement.
 #pragma once
 
 #include <cstdint>
 #include <limits>
 #include <string>
 
+#include "recofold/core/image_record.h"
 #include "recofold/core/measurement.h"
 #include "recofold/core/types.h"
 #include "recofold/metrics/image_quality.h"
@@ -51,7 +50,8 @@ struct CaseOutcome {
   double lambda = std::numeric_limits<double>::quiet_NaN();  // the weight used (NaN: none)
   std::string in_training;  // learned methods: "yes" | "no"; "" otherwise
   std::string outside;      // learned methods: which conditions lie outside training
-  ImageF image;             // the reconstruction (magnitude for MRI, real part for CT)
+  ImageF image;             // the reconstruction as scored (magnitude for MRI, real part for CT)
+  ImageRecord record;       // the reconstruction as `recofold recon` writes it (reconstruction_record)
 };
 
 // Reconstructs and scores one case; never throws for a failing reconstruction

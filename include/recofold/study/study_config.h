@@ -39,23 +39,24 @@
 //   mu      = 0.0                   attenuation per unit intensity, 1/mm (single value);
 //                                   0 (default): automatic, the largest line integral is 4
 //
-//   [[method]]                      one table per method:
+//   [[method]]                      one table per method (StudyMethod lists every key):
 //   name      = "fista-wavelet"     label in results.csv (default: method-prior)
 //   method    = "fista"             zero-filled | fbp | cg | ista | fista | admm | pdhg | unrolled
 //   prior     = "wavelet"           none | l2 | wavelet | tv | tv-aniso (solvers only)
 //   lambda    = 0.01                weight >= 0; or a list [1e-3, 1e-2]: per case the
-//                                   value with the best PSNR against the truth is
-//                                   kept (an oracle choice: the best a tuned
-//                                   classical method can do; the row records it);
-//                                   or "auto": MRI by Morozov's discrepancy principle with the
-//                                   measurement's known noise (recon/lambda_discrepancy.h),
-//                                   CT by the held-out-views rule of recon/pipeline.h
-//                                   (needs noisy data: MRI noise > 0, CT photons > 0;
-//                                   CT needs >= 12 views)
-//   iters     = 50                  iterations (solvers)
+//                                   value closest to the truth is kept (the oracle
+//                                   rule: the best a tuned classical method can do;
+//                                   the row records it); or "auto" (the default with
+//                                   a prior): MRI by Morozov's discrepancy principle
+//                                   with the measurement's known noise, CT by the
+//                                   held-out-views rule (recon/reconstruct.h; MRI
+//                                   needs noise > 0, CT needs >= 12 views)
+//   iters     = 50                  iterations (solvers; default per method)
 //   wavelet   = "db4"   levels = 3  wavelet prior options
 //   nonneg    = true                box x >= 0 (default true for CT, false for MRI)
 //   filter    = "ram-lak"           fbp window
+//   lambda_rule, lambda_solves, tol, cycle_spin, restart, rho, cg_iters, tau, sigma,
+//   combine, maps                   the other spec fields (StudyMethod)
 //   modality  = "mri"               restrict to one modality (default: where the method
 //                                   applies: zero-filled MRI, fbp CT, solvers both;
 //                                   required for unrolled)
@@ -68,6 +69,9 @@
 //   optional  = true                unrolled: leave the method out (with a note in the
 //                                   report) when this build has no learn module
 //
+// Each method's spec is checked against every modality it runs on at load
+// time; its violations name the keys: "configs/x.toml:31: method[2].lambda =
+// -1; must be >= 0 and finite, or auto".
 // Every problem is an InputError naming the file, line and key. Nothing is
 // run or written by loading.
 #pragma once
@@ -80,6 +84,7 @@
 #include "recofold/core/config.h"
 #include "recofold/core/measurement.h"
 #include "recofold/core/types.h"
+#include "recofold/recon/recon_spec.h"
 
 namespace recofold {
 
@@ -109,27 +114,34 @@ struct CtAxes {
   double mu_per_mm = 0.0;  // 0: automatic (acquire/ct_simulation.h)
 };
 
-// One method of the study.
+// One method of the study: a label and the ReconSpec its keys describe.
+// Keys of a [[method]] table and the spec fields they set (recon/recon_spec.h;
+// unset keys take the defaults of ReconSpec::with_defaults, the same as the
+// command line's):
+//   method -> method, prior -> prior, wavelet -> prior.wavelet.family,
+//   levels -> prior.wavelet.levels, cycle_spin -> prior.wavelet.cycle_spin,
+//   lambda (number | list | "auto") -> lambda, lambda_rule -> lambda.rule,
+//   lambda_solves -> lambda.max_solves, iters -> iterations, tol -> tolerance,
+//   restart -> fista.restart, rho -> admm.rho, cg_iters -> admm.cg_iterations,
+//   tau / sigma -> pdhg.tau / pdhg.sigma, filter -> fbp.filter,
+//   combine / maps -> zero_filled.combine / maps, nonneg -> nonneg, model -> model.
 struct StudyMethod {
   std::string name;                 // label (unique per modality)
-  std::string method;               // zero-filled, fbp, cg, ista, fista, admm, pdhg, unrolled
-  std::string prior = "none";       // none, l2, wavelet, tv, tv-aniso
-  std::vector<double> lambdas;      // empty: 0; one: fixed; several: oracle choice per case
-  bool lambda_auto = false;         // "auto": per case (MRI discrepancy, CT held-out views)
-  int iterations = 50;
-  std::string wavelet = "db4";
-  int levels = 3;
-  std::optional<bool> nonneg;       // unset: true for CT, false for MRI
-  std::string filter = "ram-lak";   // fbp
+  ReconSpec spec;                   // as given; the model of a trained method is set by the runner
   std::vector<Modality> modalities;  // where it runs
   std::string model_path;           // unrolled: model file (resolved)
   std::string train_config;         // unrolled: training config (resolved)
   int64_t train_steps = 0;          // > 0 overrides the training config's steps
   bool optional = false;            // unrolled: skip when learn is absent
+  int index = 0;                    // position among the [[method]] tables
   int line = 0;                     // line of the [[method]] table
 
-  bool learned() const { return method == "unrolled"; }
+  bool learned() const { return spec.method == Method::kUnrolled; }
   bool applies_to(Modality modality) const;
+  // results.csv's method and prior columns: the method name, and the prior
+  // that runs on `modality` ("learned" for unrolled, "none" for direct methods).
+  std::string method_name() const;
+  std::string prior_name(Modality modality) const;
 };
 
 struct StudyConfig {
@@ -162,7 +174,8 @@ struct StudyConfig {
   static StudyConfig parse(const std::string& text, const std::string& name, const std::string& base_dir = ".");
 };
 
-// True when this build can run learned (unrolled) methods.
+// True when a learned backend is available (recon/learned_backend.h), i.e.
+// learned (unrolled) methods can run.
 bool study_has_learn();
 
 // The metric names results.csv uses (those of `score --json`).

@@ -1,0 +1,101 @@
+// SPDX-License-Identifier: Apache-2.0
+// The learned-reconstruction backend: an interface recon declares and the learn module implements.
+//
+// recon, study and cli never include learn headers (and so never libtorch):
+// method unrolled, the study's learned methods and model inspection go
+// through find_learned_backend(). The learn module implements
+// LearnedBackend and registers it (register_learned_backend); a build without
+// libtorch (RECOFOLD_WITH_LIBTORCH=OFF) registers nothing, so the lookup
+// returns no backend and a one-line reason, and unrolled is refused as bad
+// usage. The interface is plain C++ (no torch types) so that it can also be
+// served by a module loaded at run time.
+#pragma once
+
+#include <atomic>
+#include <cstdint>
+#include <map>
+#include <memory>
+#include <string>
+
+#include "recofold/core/measurement.h"
+#include "recofold/core/progress.h"
+#include "recofold/core/types.h"
+
+namespace recofold {
+
+// What a model file holds (without running it).
+struct LearnedModelInfo {
+  Modality modality = Modality::kMri;  // the measurements it reconstructs
+  Index ny = 0, nx = 0;                // its image grid
+  std::string architecture_json;       // the architecture (JSON object)
+  std::string trained_on_json;         // training conditions (JSON object); "" for an untrained model
+  std::string description;             // one line, e.g. "mri 64x64, cnn depth 5 width 32 k3 shared, 5 it, dc cg(5)"
+};
+
+// What a training config would train.
+struct LearnedTrainingPlan {
+  Modality modality = Modality::kMri;
+  Index ny = 0, nx = 0;
+  std::string description;
+};
+
+// A reconstruction by a model.
+struct LearnedReconstruction {
+  ImageC image;                  // [ny, nx]; complex for mri, real (imaginary part 0) for ct
+  std::string outside_training;  // "" inside the model's training conditions, else which ones it lies outside
+  std::string description;       // one line
+  std::map<std::string, std::string> text_attrs;  // attributes for the output file (model, model_checksum, ...)
+};
+
+// One training run.
+struct LearnedTrainingRun {
+  std::string config_file;                  // training config (TOML)
+  std::string out;                          // model file to write
+  bool resume = false;                      // continue from the checkpoint (an error when there is none)
+  bool resume_if_checkpoint = false;        // continue when a checkpoint of `out` exists, else start fresh
+  int64_t steps = 0;                        // > 0 overrides the config's train.steps
+  ProgressSink* progress = nullptr;         // may be null
+  const std::atomic<bool>* stop = nullptr;  // set: write the checkpoint and return interrupted
+  std::string command;                      // for provenance
+};
+
+struct LearnedTrainingOutcome {
+  bool interrupted = false;  // stopped early: the checkpoint holds the state, no model file written
+  int64_t steps_done = 0;
+  std::string checkpoint;  // the checkpoint path (when interrupted)
+  std::map<std::string, double> metrics;  // e.g. val_psnr_db, val_psnr_baseline_db, seconds
+};
+
+class LearnedBackend {
+ public:
+  virtual ~LearnedBackend() = default;
+  // "learn (libtorch 2.1)": shown in messages.
+  virtual std::string name() const = 0;
+  // Reads a model file. InputError naming the file when it is not a valid model file.
+  virtual LearnedModelInfo inspect_model(const std::string& model_file) const = 0;
+  // Reads a training config. InputError (file, line, key) when it is invalid.
+  virtual LearnedTrainingPlan inspect_training(const std::string& config_file) const = 0;
+  // Reconstructs `m` with the model in `model_file` (loaded once and kept;
+  // safe to call from several threads). InputError naming the model file when
+  // it does not fit the measurement (modality, image size).
+  virtual LearnedReconstruction reconstruct(const Measurement& m, const std::string& model_file) const = 0;
+  // Trains a model (resumable; see LearnedTrainingRun). InputError for a bad
+  // config or resume; WorkError when the training fails.
+  virtual LearnedTrainingOutcome train(const LearnedTrainingRun& run) const = 0;
+  // The likelihood of an image under a generative (flow) model, for
+  // plausibility scores, comes here next (bits per dimension).
+};
+
+struct LearnedBackendLookup {
+  const LearnedBackend* backend = nullptr;  // null: none available
+  std::string reason;                       // one line when null, e.g. "this build has no learn module ..."
+};
+
+// The registered backend, or null with the reason.
+LearnedBackendLookup find_learned_backend();
+
+// Installs `backend` for the whole program (the learn module calls it once at
+// start-up; a later call replaces it). Not for use while reconstructions run.
+void register_learned_backend(std::unique_ptr<LearnedBackend> backend);
+
+}  // namespace recofold

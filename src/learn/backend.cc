@@ -1,0 +1,114 @@
+// SPDX-License-Identifier: Apache-2.0
+// LearnedBackend over the learn module's models and trainer.
+#include "recofold/learn/backend.h"
+
+#include <map>
+#include <mutex>
+
+#include "recofold/core/atomic_file.h"
+#include "recofold/core/error.h"
+#include "recofold/core/provenance.h"
+#include "recofold/learn/model.h"
+#include "recofold/learn/trainer.h"
+#include "recofold/learn/training_config.h"
+
+namespace recofold {
+
+namespace {
+
+class LearnBackend final : public LearnedBackend {
+ public:
+  std::string name() const override { return "learn (libtorch)"; }
+
+  LearnedModelInfo inspect_model(const std::string& model_file) const override {
+    Entry& e = entry(model_file);
+    const UnrolledArchitecture& a = e.model->architecture();
+    LearnedModelInfo info;
+    info.modality = a.modality;
+    info.ny = a.ny;
+    info.nx = a.nx;
+    info.architecture_json = a.to_json();
+    if (e.model->info().trained_on) info.trained_on_json = e.model->info().trained_on->to_json();
+    info.description = a.describe();
+    return info;
+  }
+
+  LearnedTrainingPlan inspect_training(const std::string& config_file) const override {
+    const TrainingConfig c = TrainingConfig::load(config_file);
+    LearnedTrainingPlan p;
+    p.modality = c.data.modality;
+    p.ny = c.data.ny;
+    p.nx = c.data.nx;
+    p.description = c.architecture.describe();
+    return p;
+  }
+
+  LearnedReconstruction reconstruct(const Measurement& m, const std::string& model_file) const override {
+    Entry& e = entry(model_file);
+    LearnedReconstruction r;
+    {
+      std::lock_guard<std::mutex> lock(e.mutex);
+      r.image = e.model->reconstruct(m, model_file);
+      r.outside_training = e.model->outside_training(m);
+    }
+    if (m.modality != Modality::kMri)
+      for (Index k = 0; k < r.image.size(); ++k) r.image.data()[k] = cfloat(r.image.data()[k].real(), 0.0f);
+    r.description = "unrolled reconstruction (" + e.model->architecture().describe() + ")";
+    r.text_attrs["model"] = model_file;
+    r.text_attrs["model_checksum"] = e.checksum;
+    r.text_attrs["model_architecture"] = e.model->architecture().to_json();
+    return r;
+  }
+
+  LearnedTrainingOutcome train(const LearnedTrainingRun& run) const override {
+    TrainingConfig tc = TrainingConfig::load(run.config_file);
+    if (run.steps > 0) tc.train.steps = run.steps;
+    TrainRun t;
+    t.out = run.out;
+    t.resume = run.resume || (run.resume_if_checkpoint && file_exists(checkpoint_path(run.out)));
+    t.progress = run.progress;
+    t.stop = run.stop;
+    t.command = run.command;
+    const TrainResult r = train_unrolled_model(tc, t);
+    LearnedTrainingOutcome out;
+    out.interrupted = r.interrupted;
+    out.steps_done = r.steps_done;
+    out.checkpoint = r.checkpoint;
+    out.metrics["val_psnr_db"] = r.val_psnr_db;
+    out.metrics["val_ssim"] = r.val_ssim;
+    out.metrics["val_psnr_baseline_db"] = r.val_psnr_baseline_db;
+    out.metrics["final_loss"] = r.final_loss;
+    out.metrics["seconds"] = r.seconds;
+    return out;
+  }
+
+ private:
+  struct Entry {
+    std::unique_ptr<UnrolledModel> model;
+    std::string checksum;
+    std::mutex mutex;  // one reconstruction of this model at a time
+  };
+
+  // The model of `path`, loaded on first use (InputError naming the file when it is no model file).
+  Entry& entry(const std::string& path) const {
+    std::lock_guard<std::mutex> lock(mutex_);
+    auto it = models_.find(path);
+    if (it == models_.end()) {
+      if (!file_exists(path)) throw InputError(path, "model", "model file not found");
+      auto e = std::make_unique<Entry>();
+      e->model = std::make_unique<UnrolledModel>(UnrolledModel::load(path));
+      e->checksum = file_checksum(path);
+      it = models_.emplace(path, std::move(e)).first;
+    }
+    return *it->second;
+  }
+
+  mutable std::mutex mutex_;
+  mutable std::map<std::string, std::unique_ptr<Entry>> models_;
+};
+
+}  // namespace
+
+std::unique_ptr<LearnedBackend> make_learn_backend() { return std::make_unique<LearnBackend>(); }
+
+}  // namespace recofold

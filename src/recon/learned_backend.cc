@@ -1,0 +1,41 @@
+// SPDX-License-Identifier: Apache-2.0
+// The registry of the learned-reconstruction backend.
+#include "recofold/recon/learned_backend.h"
+
+#include <mutex>
+
+namespace recofold {
+
+namespace {
+
+struct Registry {
+  std::mutex mutex;
+  std::unique_ptr<LearnedBackend> backend;
+};
+
+Registry& registry() {
+  static Registry r;
+  return r;
+}
+
+}  // namespace
+
+LearnedBackendLookup find_learned_backend() {
+  Registry& r = registry();
+  std::lock_guard<std::mutex> lock(r.mutex);
+  LearnedBackendLookup out;
+  out.backend = r.backend.get();
+  if (!out.backend)
+    out.reason =
+        "this recofold has no learn module (built with -DRECOFOLD_WITH_LIBTORCH=OFF); rebuild with libtorch-dev "
+        "installed and -DRECOFOLD_WITH_LIBTORCH=ON for learned methods";
+  return out;
+}
+
+void register_learned_backend(std::unique_ptr<LearnedBackend> backend) {
+  Registry& r = registry();
+  std::lock_guard<std::mutex> lock(r.mutex);
+  r.backend = std::move(backend);
+}
+
+}  // namespace recofold
