@@ -5,6 +5,8 @@
 #include <algorithm>
 #include <cmath>
 
+#include <Eigen/Dense>
+
 #include "recofold/core/error.h"
 #include "recofold/ops/fft.h"
 
@@ -70,6 +72,101 @@ NdArray<cfloat> synthetic_coil_maps(const CoilArrayOptions& options, Index ny, I
       const double x = -1.0 + (2.0 * static_cast<double>(ix) + 1.0) / static_cast<double>(nx);
       const auto s = coil_sensitivities_at(options, x, y);
       for (Index c = 0; c < c_count; ++c) maps.data[static_cast<size_t>(c * n + iy * nx + ix)] = s[static_cast<size_t>(c)];
+    }
+  }
+  return maps;
+}
+
+cdouble CoilFourierSeries::value(int coil, double x, double y) const {
+  RECOFOLD_CHECK(coil >= 0 && coil < coils) << "coil " << coil << " of " << coils;
+  const Index t_count = terms();
+  cdouble s(0.0, 0.0);
+  for (Index t = 0; t < t_count; ++t)
+    s += coeff[static_cast<size_t>(coil * t_count + t)] *
+         std::polar(1.0, 2.0 * kPi * (gx[static_cast<size_t>(t)] * x + gy[static_cast<size_t>(t)] * y));
+  return s;
+}
+
+CoilFourierSeries fit_coil_fourier_series(const CoilArrayOptions& options, int order) {
+  const auto errors = options.validate();
+  if (!errors.empty()) {
+    std::string all;
+    for (const auto& e : errors) all += (all.empty() ? "" : "; ") + e;
+    throw InputError("", "coils", all);
+  }
+  if (order < 0 || order > 6)
+    throw InputError("", "coil_series_order", "= " + std::to_string(order) + "; must be 0..6");
+  CoilFourierSeries s;
+  s.coils = options.coils;
+  if (options.coils == 1) {
+    s.order = 0;
+    s.gx = {0.0};
+    s.gy = {0.0};
+    s.coeff = {cdouble(1.0, 0.0)};
+    return s;
+  }
+  s.order = order;
+  const int side = 2 * order + 1;
+  for (int n = -order; n <= order; ++n)
+    for (int m = -order; m <= order; ++m) {
+      s.gx.push_back(m / kCoilSeriesPeriod);
+      s.gy.push_back(n / kCoilSeriesPeriod);
+    }
+  const Index t_count = static_cast<Index>(side) * side;
+  constexpr int kFit = 48;  // fit raster of the square
+  Eigen::MatrixXcd basis(kFit * kFit, t_count);
+  Eigen::MatrixXcd target(kFit * kFit, options.coils);
+  for (int iy = 0; iy < kFit; ++iy)
+    for (int ix = 0; ix < kFit; ++ix) {
+      const double x = -1.0 + (2.0 * ix + 1.0) / kFit, y = 1.0 - (2.0 * iy + 1.0) / kFit;
+      const Index r = iy * kFit + ix;
+      for (Index t = 0; t < t_count; ++t)
+        basis(r, t) = std::polar(1.0, 2.0 * kPi * (s.gx[static_cast<size_t>(t)] * x + s.gy[static_cast<size_t>(t)] * y));
+      const auto v = coil_sensitivities_at(options, x, y);
+      for (int c = 0; c < options.coils; ++c) target(r, c) = cdouble(v[static_cast<size_t>(c)]);
+    }
+  const Eigen::MatrixXcd a = basis.colPivHouseholderQr().solve(target);
+  s.coeff.resize(static_cast<size_t>(options.coils * t_count));
+  for (int c = 0; c < options.coils; ++c)
+    for (Index t = 0; t < t_count; ++t) s.coeff[static_cast<size_t>(c * t_count + t)] = a(t, c);
+  return s;
+}
+
+NdArray<cfloat> coil_series_maps(const CoilFourierSeries& s, Index ny, Index nx) {
+  RECOFOLD_CHECK(ny > 0 && nx > 0 && s.coils >= 1 && s.terms() >= 1);
+  const Index t_count = s.terms(), c_count = s.coils, n = ny * nx;
+  NdArray<cfloat> maps(Shape{c_count, ny, nx});
+  // The lattice is separable: exp(i2π gx x) per column and exp(i2π gy y) per row.
+  const int side = 2 * s.order + 1;
+  std::vector<cdouble> ex(static_cast<size_t>(side * nx)), ey(static_cast<size_t>(side * ny));
+  for (int m = 0; m < side; ++m) {
+    const double g = (m - s.order) / kCoilSeriesPeriod;
+    for (Index ix = 0; ix < nx; ++ix) {
+      const double x = -1.0 + (2.0 * static_cast<double>(ix) + 1.0) / static_cast<double>(nx);
+      ex[static_cast<size_t>(m * nx + ix)] = std::polar(1.0, 2.0 * kPi * g * x);
+    }
+    for (Index iy = 0; iy < ny; ++iy) {
+      const double y = 1.0 - (2.0 * static_cast<double>(iy) + 1.0) / static_cast<double>(ny);
+      ey[static_cast<size_t>(m * ny + iy)] = std::polar(1.0, 2.0 * kPi * g * y);
+    }
+  }
+#pragma omp parallel for schedule(static)
+  for (Index iy = 0; iy < ny; ++iy) {
+    std::vector<cdouble> b(static_cast<size_t>(side));
+    for (Index c = 0; c < c_count; ++c) {
+      // b_m = Σ_n a_{c,(n,m)} exp(i2π gy_n y)
+      for (int m = 0; m < side; ++m) {
+        cdouble v(0.0, 0.0);
+        for (int nn = 0; nn < side; ++nn)
+          v += s.coeff[static_cast<size_t>(c * t_count + nn * side + m)] * ey[static_cast<size_t>(nn * ny + iy)];
+        b[static_cast<size_t>(m)] = v;
+      }
+      cfloat* row = maps.ptr() + c * n + iy * nx;
+      for (Index ix = 0; ix < nx; ++ix) {
+        cdouble v(0.0, 0.0);
+        for (int m = 0; m < side; ++m) v += b[static_cast<size_t>(m)] * ex[static_cast<size_t>(m * nx + ix)];
+        row[ix] = cfloat(static_cast<float>(v.real()), static_cast<float>(v.imag()));
+      }
     }
   }
   return maps;

@@ -38,6 +38,39 @@ std::vector<cfloat> coil_sensitivities_at(const CoilArrayOptions& options, doubl
 // Invalid options throw InputError(file "", field "coils"/...).
 NdArray<cfloat> synthetic_coil_maps(const CoilArrayOptions& options, Index ny, Index nx);
 
+// Coil maps as a short Fourier series, so that coil map x object has an exact
+// transform (a sum of shifted closed-form transforms of the object):
+//   S_c(x, y) = Σ_t a_{c,t} exp(i 2π (gx_t x + gy_t y)),   (x, y) in units of the [-1,1] square,
+// with frequencies on the lattice g = (m, n) / kCoilSeriesPeriod, m, n in
+// -order..order, i.e. (2 order + 1)² terms, and
+//   FT[f S_c](k) = Σ_t a_{c,t} F(k - g_t)    (F the object's transform, phantom/fourier.h).
+// The coefficients are the least-squares fit of the normalised loop model
+// above (coil_sensitivities_at) at the pixel centres of a 48 x 48 raster of
+// the square. The period (4 units, twice the square) keeps the series from
+// having to be periodic across the square, so a low order follows the loop
+// model closely (order 3: within about 1% of the largest value; the sum of
+// squares stays within a few percent of 1 on the square). These are the maps
+// the MRI simulation uses. One coil gives the single term a = 1, g = 0 (S = 1).
+constexpr double kCoilSeriesPeriod = 4.0;
+
+struct CoilFourierSeries {
+  int coils = 1;
+  int order = 0;
+  std::vector<double> gx, gy;  // [T] frequencies, cycles per unit of the square
+  std::vector<cdouble> coeff;  // [coils][T], row-major
+
+  Index terms() const { return static_cast<Index>(gx.size()); }
+  // S_c at one point of the square.
+  cdouble value(int coil, double x, double y) const;
+};
+
+// The series fit for an array (options checked as in synthetic_coil_maps).
+// order: 0..6 (InputError "coil_series_order" otherwise).
+CoilFourierSeries fit_coil_fourier_series(const CoilArrayOptions& options, int order = 3);
+
+// The series evaluated at the pixel centres of an ny x nx raster: [C, ny, nx].
+NdArray<cfloat> coil_series_maps(const CoilFourierSeries& series, Index ny, Index nx);
+
 // The largest centred rectangle of a mask [ny, nx] that is fully sampled
 // (the calibration or "auto-calibration" region): rows [row0, row0+rows),
 // columns [col0, col0+cols). Empty (rows = cols = 0) when the centre sample
