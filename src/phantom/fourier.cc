@@ -143,6 +143,24 @@ Eigen::VectorXcd fourier_transform(const Phantom& p, const VecD& kx, const VecD&
   return out;
 }
 
+Eigen::MatrixXcd shifted_fourier_transforms(const Phantom& p, const VecD& kx, const VecD& ky, const VecD& gx,
+                                            const VecD& gy) {
+  RECOFOLD_CHECK(kx.size() == ky.size()) << "kx has " << kx.size() << " points, ky " << ky.size();
+  RECOFOLD_CHECK(gx.size() == gy.size()) << "gx has " << gx.size() << " shifts, gy " << gy.size();
+  const std::vector<internal::ComponentFrame> frames = internal::make_frames(p);
+  const cdouble global = std::polar(1.0, p.phase0_rad);
+  const Index m = kx.size(), t_count = gx.size();
+  Eigen::MatrixXcd out(t_count, m);
+#pragma omp parallel for schedule(static)
+  for (Index j = 0; j < m; ++j)
+    for (Index t = 0; t < t_count; ++t) {
+      double re, im;
+      sum_components(frames, kx[j] - gx[t] - p.phase_gx, ky[j] - gy[t] - p.phase_gy, &re, &im);
+      out(t, j) = cdouble(re, im) * global;
+    }
+  return out;
+}
+
 ImageC kspace_on_grid(const Phantom& p, int ny, int nx) {
   RECOFOLD_CHECK(ny >= 1 && nx >= 1) << "grid " << ny << " x " << nx;
   const std::vector<internal::ComponentFrame> frames = internal::make_frames(p);

@@ -38,6 +38,15 @@ cdouble fourier_transform(const Phantom& p, double kx, double ky);
 // kx and ky must have the same length (checked).
 Eigen::VectorXcd fourier_transform(const Phantom& p, const VecD& kx, const VecD& ky);
 
+// The transform of the phantom times T plane waves, at many points:
+//   out(t, j) = F(kx[j] - gx[t], ky[j] - gy[t])   (global phase included),
+// i.e. FT[f(x) exp(i 2π g_t·x)](k_j): with a coil map written as a Fourier
+// series S(x) = Σ_t a_t exp(i 2π g_t·x) (ops/coil_maps.h), FT[f S](k) =
+// Σ_t a_t out(t, ·) exactly. Returns [T, M] (row t, column j). kx/ky and
+// gx/gy must have matching lengths (checked). Parallel over points.
+Eigen::MatrixXcd shifted_fourier_transforms(const Phantom& p, const VecD& kx, const VecD& ky, const VecD& gx,
+                                            const VecD& gy);
+
 // k-space on the Cartesian grid of an ny x nx raster of the square, scaled and
 // phased so that it is the exact counterpart of the centred orthonormal DFT of
 // that raster, numpy's
