@@ -523,16 +523,26 @@ void ToeplitzNormal::apply(const cfloat* x, cfloat* out) const {
   const Index ly = 2 * ny_, lx = 2 * nx_;
   const int threads = threads_here();
   cfloat* grid = grid_buffer(static_cast<size_t>(ly * lx), 1);
-  for (Index r = 0; r < ny_; ++r) {
-    std::memcpy(grid + r * lx, x + r * nx_, sizeof(cfloat) * static_cast<size_t>(nx_));
-    std::fill(grid + r * lx + nx_, grid + (r + 1) * lx, cfloat(0.0f, 0.0f));
+  // The pointwise passes run on the FFT's threads too (rows are independent).
+#pragma omp parallel for schedule(static) num_threads(threads) if (threads > 1)
+  for (Index r = 0; r < ly; ++r) {
+    if (r < ny_) {
+      std::memcpy(grid + r * lx, x + r * nx_, sizeof(cfloat) * static_cast<size_t>(nx_));
+      std::fill(grid + r * lx + nx_, grid + (r + 1) * lx, cfloat(0.0f, 0.0f));
+    } else {
+      std::fill(grid + r * lx, grid + (r + 1) * lx, cfloat(0.0f, 0.0f));
+    }
   }
-  std::fill(grid + ny_ * lx, grid + ly * lx, cfloat(0.0f, 0.0f));
   internal::fft_execute_inplace(grid, ly, lx, FftDirection::kForward, threads);
   const float* s = spectrum_.data();
-  const Index n = ly * lx;
-  for (Index i = 0; i < n; ++i) grid[i] *= s[i];
+#pragma omp parallel for schedule(static) num_threads(threads) if (threads > 1)
+  for (Index r = 0; r < ly; ++r) {
+    cfloat* g = grid + r * lx;
+    const float* sr = s + r * lx;
+    for (Index i = 0; i < lx; ++i) g[i] *= sr[i];
+  }
   internal::fft_execute_inplace(grid, ly, lx, FftDirection::kInverse, threads);
+#pragma omp parallel for schedule(static) num_threads(threads) if (threads > 1)
   for (Index r = 0; r < ny_; ++r) std::memcpy(out + r * nx_, grid + r * lx, sizeof(cfloat) * static_cast<size_t>(nx_));
 }
 
