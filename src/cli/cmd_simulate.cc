@@ -10,6 +10,7 @@
 #include "output_checks_cli.h"
 #include "ct_cli.h"
 #include "mri_cli.h"
+#include "recofold/acquire/image_problem.h"
 #include "recofold/acquire/mri.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
@@ -23,9 +24,13 @@ namespace recofold::cli {
 namespace {
 
 const char* kMriGroup = "MRI (--modality mri)";
+const char* kImageGroup = "Inpainting (--modality inpaint)";
+const char* kNoiseGroup = "Noise (--modality mri | denoise | inpaint)";
 
 struct SimulateFlags {
-  std::string phantom, modality, truth, out, mask;
+  std::string phantom, modality, truth, out, mask, pattern = "random", pixel_mask;
+  double keep = 0.5;
+  int block_size = 8;
   int index = 0;
   uint64_t seed = 0;
   int coils = 1;
@@ -41,8 +46,9 @@ void refuse_other_modality_flags(const CLI::App& sub, Modality modality) {
   for (const CLI::Option* opt : sub.get_options()) {
     if (opt->count() == 0) continue;
     const std::string& g = opt->get_group();
-    const bool is_mri = g == kMriGroup, is_ct = g.rfind("CT", 0) == 0;
-    if ((modality != Modality::kMri && is_mri) || (modality != Modality::kCt && is_ct))
+    const bool is_mri = g == kMriGroup, is_ct = g.rfind("CT", 0) == 0, is_inpaint = g == kImageGroup;
+    if ((modality != Modality::kMri && is_mri) || (modality != Modality::kCt && is_ct) ||
+        (modality != Modality::kInpaint && is_inpaint) || (modality == Modality::kCt && g == kNoiseGroup))
       throw InputError("", opt->get_name(), "does not apply to --modality " + std::string(to_string(modality)));
   }
 }
@@ -63,16 +69,64 @@ const std::vector<FieldFlag>& mri_simulate_flags() {
   return map;
 }
 
+// Library field paths of the image problems and their flags.
+const std::vector<FieldFlag>& image_simulate_flags() {
+  static const std::vector<FieldFlag> map = {
+      {"denoise.noise_sigma", "--noise"}, {"inpaint.noise_sigma", "--noise"},   {"inpaint.keep", "--keep"},
+      {"inpaint.block_size", "--block-size"}, {"inpaint.pixel_mask", "--pixel-mask"},
+  };
+  return map;
+}
+
+// denoise / inpaint: the measurement of the raster (checked before any work).
+Measurement simulate_image_cli(const SimulateFlags& f, const CLI::App& sub, Modality modality, const ImageC& raster,
+                               double spacing, Provenance& prov) {
+  ImageProblemOptions o;
+  o.noise_sigma = f.noise;
+  o.keep = f.keep;
+  o.block_size = f.block_size;
+  o.seed = f.seed;
+  if (!f.pixel_mask.empty()) {
+    if (sub.get_option("--pattern")->count() > 0)
+      throw InputError("", "--pattern", "give either --pattern or --pixel-mask, not both");
+    if (sub.get_option("--keep")->count() > 0)
+      throw InputError("", "--keep", "the kept pixels of --pixel-mask are given; do not give --keep");
+    if (!file_exists(f.pixel_mask)) throw InputError(f.pixel_mask, "--pixel-mask", not_a_file_reason(f.pixel_mask));
+    const SamplingMask pm = read_mask_any(f.pixel_mask, "--pixel-mask");
+    const Shape image_shape{raster.rows(), raster.cols()};
+    if (pm.mask.shape != image_shape)
+      throw InputError(f.pixel_mask, "--pixel-mask",
+                       "mask shape " + pm.mask.shape.to_string() + " differs from the image shape " +
+                           image_shape.to_string() + " of " + f.phantom);
+    o.pattern = PixelPattern::kFile;
+    o.pixel_mask = pm.mask;
+    prov.extra["pixel_mask_file"] = f.pixel_mask;
+    prov.extra["pixel_mask_checksum_fnv1a64"] = file_checksum(f.pixel_mask);
+  } else {
+    const std::optional<PixelPattern> p = parse_pixel_pattern(f.pattern);
+    if (!p) throw InputError("", "--pattern", "'" + f.pattern + "'; expected random or blocks");
+    o.pattern = *p;
+  }
+  try {
+    return simulate_image_problem(modality, raster, spacing, o);
+  } catch (const InputError& e) {
+    throw_with_flags(e, image_simulate_flags());
+  }
+}
+
 void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
   // Every check before any work: bad input leaves no output.
   require_output_path(f.out, "--out", {".h5"});
   require_distinct_output(f.out, "--out", {f.phantom, f.mask});
   const std::optional<Modality> modality = parse_modality(f.modality);
-  if (!modality || (*modality != Modality::kMri && *modality != Modality::kCt))
-    throw InputError("", "--modality", "'" + f.modality + "'; expected mri or ct");
+  if (!modality) throw InputError("", "--modality", "'" + f.modality + "'; expected " + accepted_modalities());
+  const bool image_problem = *modality == Modality::kDenoise || *modality == Modality::kInpaint;
   refuse_other_modality_flags(sub, *modality);
   if (!f.truth.empty() && f.truth != "analytic" && f.truth != "discrete")
     throw InputError("", "--truth", "'" + f.truth + "'; expected analytic or discrete");
+  if (image_problem && f.truth == "analytic")
+    throw InputError("", "--truth", "analytic does not apply to --modality " + f.modality +
+                                        ": the observed image is the object's pixels (its truth is discrete)");
   if (f.index < 0) throw InputError("", "--index", "must be >= 0");
   if (!file_exists(f.phantom)) throw InputError(f.phantom, "--phantom", not_a_file_reason(f.phantom));
 
@@ -88,7 +142,7 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
   std::unique_ptr<Phantom> analytic;
   const auto table = rec.tables.find(kPhantomTablePath);
   if (table != rec.tables.end()) analytic = std::make_unique<Phantom>(phantom_from_table(table->second, f.phantom, f.index));
-  bool analytic_truth = f.truth.empty() ? analytic != nullptr : f.truth == "analytic";
+  bool analytic_truth = !image_problem && (f.truth.empty() ? analytic != nullptr : f.truth == "analytic");
   if (analytic_truth && !analytic)
     throw InputError(f.phantom, "--truth",
                      "analytic needs a phantom file with a component table (/phantom/components); this file has "
@@ -107,7 +161,16 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
   set_fft_measure(false);
   Measurement m;
   std::string summary;
-  if (*modality == Modality::kCt) {
+  if (image_problem) {
+    m = simulate_image_cli(f, sub, *modality, raster, spacing, prov);
+    m.pixel_spacing_mm[0] = rec.pixel_spacing_mm[0];
+    m.pixel_spacing_mm[1] = rec.pixel_spacing_mm[1];
+    char buf[256];
+    std::snprintf(buf, sizeof buf, "%s image [%lld, %lld], %s, kept %.3f, noise sigma %.4g", f.modality.c_str(),
+                  static_cast<long long>(ny), static_cast<long long>(nx), m.image->pattern.c_str(),
+                  m.image->kept_fraction, m.image->noise_sigma);
+    summary = buf;
+  } else if (*modality == Modality::kCt) {
     NdArray<cfloat> pix(Shape{ny, nx});
     std::copy(raster.data(), raster.data() + n, pix.data.begin());
     m = simulate_ct_measurement(f.ct, analytic.get(), pix, spacing, analytic_truth, f.seed);
@@ -161,10 +224,10 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
 
 void register_cmd_simulate(CLI::App& app, Context& ctx) {
   auto f = std::make_shared<SimulateFlags>();
-  CLI::App* sub = app.add_subcommand("simulate", "Simulate an MRI or CT measurement of a phantom");
+  CLI::App* sub = app.add_subcommand("simulate", "Simulate an MRI, CT, denoising or inpainting measurement of a phantom");
   sub->add_option("--phantom", f->phantom, "Object: a phantom file from `recofold phantom`, or any image file")->required();
   sub->add_option("--index", f->index, "Object I of a phantom file holding a stack (default 0)");
-  sub->add_option("--modality", f->modality, "mri | ct")->required();
+  sub->add_option("--modality", f->modality, "mri | ct | denoise (y = x + n) | inpaint (y = M x + n)")->required();
   sub->add_option("--truth", f->truth,
                   "analytic (exact transform/line integrals of the component table; the default when the file has "
                   "one) | discrete (from the pixels: the 'inverse crime'; the default for pixel-only objects)");
@@ -175,8 +238,20 @@ void register_cmd_simulate(CLI::App& app, Context& ctx) {
   sub->add_option("--coils", f->coils, "MRI: receive coils around the field of view, 1..32 (default 1)")->group(kMriGroup);
   sub->add_option("--noise", f->noise,
                   "MRI: noise std of the real and of the imaginary part of each k-space sample (default 0); "
-                  "equals the image-domain std (orthonormal FFT)")
-      ->group(kMriGroup);
+                  "equals the image-domain std (orthonormal FFT). denoise, inpaint: Gaussian noise std per "
+                  "observed pixel, in the object's intensity units (default 0)")
+      ->group(kNoiseGroup);
+  sub->add_option("--keep", f->keep, "inpaint: fraction of pixels kept, in (0, 1] (default 0.5)")->group(kImageGroup);
+  sub->add_option("--pattern", f->pattern,
+                  "inpaint: random (each pixel kept with probability --keep) | blocks (random square blocks "
+                  "removed; default random)")
+      ->group(kImageGroup);
+  sub->add_option("--block-size", f->block_size, "inpaint --pattern blocks: block side in pixels (default 8)")
+      ->group(kImageGroup);
+  sub->add_option("--pixel-mask", f->pixel_mask,
+                  "inpaint: the kept pixels from a mask file (.h5 from `recofold mask`, or .png; 1 = kept) "
+                  "instead of --pattern")
+      ->group(kImageGroup);
   sub->add_option("--snr-db", f->snr_db,
                   "MRI: noise from an SNR instead: 10 log10(mean |clean sample|^2 / (2 sigma^2))")
       ->group(kMriGroup);

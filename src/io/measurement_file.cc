@@ -91,13 +91,42 @@ class Checked {
   const H5Reader& r_;
 };
 
+// The /observed group of a denoise or inpaint file.
+ImageProblemData read_observed(const H5Reader& r, const Checked& c, const Shape& image_shape, Modality modality) {
+  const std::string& path = r.file();
+  if (!r.has("/observed")) c.bad("/observed", "group is missing (modality is " + std::string(to_string(modality)) + ")");
+  ImageProblemData d;
+  require_shape(r.shape("/observed/image"), image_shape, path, "/observed/image");
+  if (r.is_complex("/observed/image")) c.bad("/observed/image", "is complex, expected float32");
+  d.observed = r.read_float("/observed/image");
+  require_finite(d.observed.ptr(), d.observed.size(), path, "/observed/image");
+  require_shape(r.shape("/observed/pixel_mask"), image_shape, path, "/observed/pixel_mask");
+  d.pixel_mask = r.read_u8("/observed/pixel_mask");
+  Index kept = 0;
+  for (Index i = 0; i < d.pixel_mask.size(); ++i) {
+    const uint8_t v = d.pixel_mask.data[static_cast<size_t>(i)];
+    if (v > 1)
+      c.bad("/observed/pixel_mask", "value " + std::to_string(v) + " at flat index " + std::to_string(i) +
+                                        "; the mask holds only 0 and 1");
+    kept += v;
+  }
+  if (kept == 0) c.bad("/observed/pixel_mask", "keeps no pixel; expected at least one value 1");
+  if (modality == Modality::kDenoise && kept != d.pixel_mask.size())
+    c.bad("/observed/pixel_mask", "a denoise measurement observes every pixel; this mask keeps " +
+                                      std::to_string(kept) + " of " + std::to_string(d.pixel_mask.size()));
+  d.noise_sigma = c.number("/observed", "noise_sigma", true, 0.0, 0.0);
+  d.pattern = c.text("/observed", "pattern", false, modality == Modality::kDenoise ? "all" : "file");
+  d.kept_fraction = static_cast<double>(kept) / static_cast<double>(d.pixel_mask.size());
+  return d;
+}
+
 }  // namespace
 
 void write_measurement_file(const std::string& path, const Measurement& m) {
   const std::string modality(to_string(m.modality));
-  if (m.modality != Modality::kMri && m.modality != Modality::kCt)
-    throw WorkError("cannot write " + path + ": modality '" + modality + "' is not mri or ct");
-  if ((m.modality == Modality::kMri) != m.mri.has_value() || (m.modality == Modality::kCt) != m.ct.has_value())
+  const bool image_problem = m.modality == Modality::kDenoise || m.modality == Modality::kInpaint;
+  if ((m.modality == Modality::kMri) != m.mri.has_value() || (m.modality == Modality::kCt) != m.ct.has_value() ||
+      image_problem != m.image.has_value())
     throw WorkError("cannot write " + path + ": modality '" + modality + "' does not match the data present");
   H5Writer w(path);
   w.write_attr("/", "modality", modality);
@@ -131,6 +160,14 @@ void write_measurement_file(const std::string& path, const Measurement& m) {
     w.write_attr("/ct", "mu_per_mm", d.mu_per_mm);
     internal::write_attr_maps(w, "/ct", d.numbers, d.texts);
   }
+  if (m.image) {
+    const ImageProblemData& d = *m.image;
+    w.write("/observed/image", d.observed);
+    w.write("/observed/pixel_mask", d.pixel_mask);
+    w.write_attr("/observed", "noise_sigma", d.noise_sigma);
+    w.write_attr("/observed", "pattern", d.pattern);
+    w.write_attr("/observed", "kept_fraction", d.kept_fraction);
+  }
   if (m.truth) {
     if (m.truth_is_complex) {
       w.write("/truth/image", *m.truth);
@@ -149,7 +186,7 @@ Measurement read_measurement_file(const std::string& path) {
   H5Reader r(path);
   Checked c(r);
   Measurement m;
-  m.modality = *parse_modality(c.text("/", "modality", true, "", {"mri", "ct"}));
+  m.modality = *parse_modality(c.text("/", "modality", true, "", {"mri", "ct", "denoise", "inpaint"}));
   if (!r.has_attr("/", "image_shape")) c.bad("/", "attribute 'image_shape' is missing (expected [ny, nx])");
   const auto shape = r.attr_doubles("/", "image_shape");
   if (shape.size() != 2 || !(shape[0] >= 1) || !(shape[1] >= 1) || std::floor(shape[0]) != shape[0] ||
@@ -200,6 +237,8 @@ Measurement read_measurement_file(const std::string& path) {
     d.coil_maps_source = c.text("/mri", "coil_maps_source", false, "synthetic");
     c.extras("/mri", kMriAttrs, d.numbers, d.texts);
     m.mri = std::move(d);
+  } else if (m.modality == Modality::kDenoise || m.modality == Modality::kInpaint) {
+    m.image = read_observed(r, c, image_shape, m.modality);
   } else {
     if (!r.has("/ct")) c.bad("/ct", "group is missing (modality is ct)");
     CtData d;

@@ -5,6 +5,7 @@
 #include "recofold/core/error.h"
 #include "recofold/ops/fourier.h"
 #include "recofold/ops/joseph_projector.h"
+#include "recofold/ops/pixel_mask.h"
 
 namespace recofold {
 
@@ -32,10 +33,23 @@ ForwardModel make_forward_model(const Measurement& m, const std::string& file) {
       return f;
     }
     case Modality::kDenoise:
-    case Modality::kInpaint:
-      break;
+    case Modality::kInpaint: {
+      if (!m.image) throw InputError(file, "/observed", "a " + std::string(to_string(m.modality)) +
+                                                            " measurement without an observed image");
+      const ImageProblemData& d = *m.image;
+      auto op = std::make_unique<PixelMaskOperator>(d.pixel_mask);
+      f.measured_values = op->kept();
+      f.op = std::move(op);
+      f.y = VecC(d.observed.size());
+      for (Index p = 0; p < d.observed.size(); ++p)
+        f.y[p] = cfloat(d.pixel_mask.data[static_cast<size_t>(p)] ? d.observed.data[static_cast<size_t>(p)] : 0.0f, 0.0f);
+      f.noise_sigma = d.noise_sigma;
+      f.complex_noise = false;
+      f.real_object = true;
+      return f;
+    }
   }
-  throw InputError(file, "modality", "'" + std::string(to_string(m.modality)) + "' has no forward model yet");
+  throw InputError(file, "modality", "'" + std::string(to_string(m.modality)) + "' has no forward model");
 }
 
 }  // namespace recofold

@@ -134,9 +134,18 @@ std::string spec_summary(const ReconSpec& r, const LambdaRecord& l, int iteratio
 
 void run_zero_filled(const Measurement& m, Reconstruction& out, const std::string& file) {
   const ReconSpec& r = out.spec;
+  if (m.modality == Modality::kDenoise || m.modality == Modality::kInpaint) {
+    // The observed image itself (0 at unobserved pixels).
+    const ForwardModel fm = make_forward_model(m, file);
+    out.image = ImageC(m.ny, m.nx);
+    for (Index k = 0; k < m.ny * m.nx; ++k) out.image.data()[k] = fm.y[k];
+    out.operator_name = fm.op->name();
+    out.description = "observed image (" + out.operator_name + ")";
+    return;
+  }
   if (m.modality != Modality::kMri)
-    throw InputError(file, "modality", "zero-filled of a " + std::string(to_string(m.modality)) +
-                                           " measurement is not available in this build");
+    throw InputError(file, "method", "zero-filled does not run on " + std::string(to_string(m.modality)) +
+                                         " measurements");
   if (!m.mri) throw InputError(file, "/mri", "an mri measurement without MRI data");
   MriData mri = *m.mri;
   const CoilCombine combine = *r.zero_filled.combine;

@@ -63,12 +63,25 @@ struct CtData {
   std::map<std::string, std::string> texts;
 };
 
+// denoise / inpaint: the observed image y = M x + n on the reconstruction grid
+// (image units = the object's intensity units). denoise: M = identity (every
+// pixel kept); inpaint: M keeps the pixels where pixel_mask = 1. The noise n
+// is white Gaussian with std noise_sigma per kept pixel (real images).
+struct ImageProblemData {
+  NdArray<float> observed;      // [ny, nx]; 0 where pixel_mask = 0
+  NdArray<uint8_t> pixel_mask;  // [ny, nx]; 1 = observed (denoise: all 1)
+  double noise_sigma = 0.0;     // std per observed pixel, >= 0
+  std::string pattern;          // "all" (denoise), "random", "blocks" or "file" (inpaint)
+  double kept_fraction = 1.0;   // observed pixels / (ny nx), in (0, 1]
+};
+
 struct Measurement {
   Modality modality = Modality::kMri;
   Index ny = 0, nx = 0;  // reconstruction grid
   double pixel_spacing_mm[2] = {1.0, 1.0};
   std::optional<MriData> mri;
   std::optional<CtData> ct;
+  std::optional<ImageProblemData> image;  // denoise and inpaint
   std::optional<NdArray<cfloat>> truth;  // [ny, nx]
   bool truth_is_complex = false;
   std::string truth_kind;  // "analytic" | "discrete" | "fully sampled" (retrospective undersampling)

@@ -2,7 +2,7 @@
 // The measurement file: everything a reconstruction needs in one HDF5 file.
 //
 // Layout (HDF5):
-//   /                        attrs research_use_only = 1, producer, modality ("mri"|"ct"),
+//   /                        attrs research_use_only = 1, producer, modality ("mri"|"ct"|"denoise"|"inpaint"),
 //                            image_shape int64[2] (ny, nx), pixel_spacing_mm float64[2]
 //   /mri/kspace              complex64 [coils, ny, nx]; zero where not sampled
 //   /mri/mask                uint8 [ny, nx]; 1 = sampled
@@ -20,6 +20,11 @@
 //                            source_to_isocenter_mm, source_to_detector_mm,
 //                            photons_per_ray (0: noiseless), electronic_sigma, mu_per_mm,
 //                            plus numbers/texts
+//   /observed/image          float32 [ny, nx] (denoise, inpaint): the observed image in the
+//                            object's intensity units; 0 where not observed
+//   /observed/pixel_mask     uint8 [ny, nx]; 1 = observed (denoise: all 1; at least one 1)
+//   /observed                attrs noise_sigma (std of the Gaussian noise per observed pixel),
+//                            pattern ("all"|"random"|"blocks"|"file"), kept_fraction
 //   /truth/image             float32 or complex64 [ny, nx] (when known)
 //   /truth                   attr kind ("analytic"|"discrete"|"fully sampled": the coil-combined
 //                            image of fully sampled data, retrospective undersampling)

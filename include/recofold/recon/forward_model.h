@@ -19,7 +19,11 @@ namespace recofold {
 //        scale mu, y = the sinogram [views, detectors] (real); the image is in
 //        phantom intensity units; Poisson noise with photons_per_ray
 //        (noise_sigma 0: the variance differs per ray, see
-//        transmission_noise_energy in recon/lambda_discrepancy.h).
+//        transmission_noise_energy in recon/lambda_discrepancy.h);
+//   denoise, inpaint  A = the pixel mask of ops/pixel_mask.h (denoise: every
+//        pixel kept, the identity), y = the observed image [ny, nx] (0 where
+//        not observed); real Gaussian noise of std noise_sigma on the kept
+//        pixels (measured_values = kept pixels); the object is real.
 struct ForwardModel {
   std::unique_ptr<LinearOperator> op;  // image [ny, nx] -> data
   VecC y;                              // the measured data, op's range

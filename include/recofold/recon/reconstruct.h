@@ -56,7 +56,8 @@ struct Reconstruction {
 };
 
 // Reconstructs `m` as `spec` says, after spec.with_defaults(m.modality):
-//   zero-filled  zero_filled() with zero_filled.combine / maps (recon/zero_filled.h)
+//   zero-filled  mri: zero_filled() with zero_filled.combine / maps (recon/zero_filled.h);
+//                denoise, inpaint: the observed image (0 at unobserved pixels)
 //   fbp          fbp() with fbp.filter, in intensity units (recon/fbp.h)
 //   cg .. pdhg   the forward model of make_forward_model (recon/forward_model.h),
 //                the prior of spec.prior_spec (with the box for nonneg), the solver
