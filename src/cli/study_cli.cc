@@ -75,8 +75,10 @@ std::string run_study_command(const Context& ctx, const std::string& config_path
   std::signal(SIGTERM, SIG_DFL);
   say(ctx, "study " + config.name + ": " + std::to_string(s.cases_in_shard) + " cases" +
                (shard.count > 1 ? " in shard " + shard.to_string() + " of " + std::to_string(s.cases_total) : "") +
-               ", " + std::to_string(s.cases_run) + " run, " + std::to_string(s.cases_skipped) +
-               " already done, " + std::to_string(s.cases_failed) + " failed");
+               ", " + std::to_string(s.cases_run) + " run" +
+               (s.cases_retried ? " (" + std::to_string(s.cases_retried) + " again after output failures)" : "") + ", " +
+               std::to_string(s.cases_skipped) + " already done, " + std::to_string(s.cases_failed_all) + " failed" +
+               (s.cases_failed_all != s.cases_failed ? " (" + std::to_string(s.cases_failed) + " in this run)" : ""));
   // Overhead: the share of the cases' wall time (without model loading and
   // training) that the job slots did not spend reconstructing.
   const double cases_wall = std::max(1e-9, s.wall_seconds - s.training_seconds);

@@ -100,6 +100,14 @@ ResultsTable read_results(const std::string& path) {
   return t;
 }
 
+namespace {
+const char kOutputFailed[] = "output failed: ";
+}
+
+std::string output_failure(const std::string& what) { return kOutputFailed + what; }
+
+bool is_output_failure(const std::string& error) { return error.rfind(kOutputFailed, 0) == 0; }
+
 std::string results_text(const ResultsTable& t) {
   std::string s;
   for (size_t i = 0; i < t.columns.size(); ++i) s += (i ? "," : "") + csv_field(t.columns[i]);

@@ -8,9 +8,12 @@
 #include <omp.h>
 
 #include <algorithm>
+#include <cerrno>
 #include <chrono>
+#include <cstring>
 #include <map>
 #include <mutex>
+#include <optional>
 #include <set>
 #include <thread>
 
@@ -20,6 +23,7 @@
 #include "recofold/io/image_file.h"
 #include "recofold/ops/fft.h"
 #include "recofold/study/case_runner.h"
+#include "recofold/study/folder_lock.h"
 #include "recofold/study/learned_models.h"
 #include "recofold/study/report.h"
 #include "recofold/study/results_table.h"
@@ -94,6 +98,26 @@ void write_manifest(const std::string& dir, const StudyConfig& c, const std::str
   write_text_atomic(dir + "/manifest.json", j);
 }
 
+// Appends one row; a write cut short (disk full) is cut back off, so the
+// file never ends in a partial row. False (errno set) on failure.
+bool append_row(int fd, const std::string& line) {
+  const off_t end = ::lseek(fd, 0, SEEK_END);
+  size_t done = 0;
+  while (done < line.size()) {
+    const ssize_t n = ::write(fd, line.data() + done, line.size() - done);
+    if (n < 0 && errno == EINTR) continue;
+    if (n <= 0) {
+      const int err = n < 0 ? errno : ENOSPC;
+      const int cut = end >= 0 ? ::ftruncate(fd, end) : 0;  // a failed cut: the next run drops the row
+      (void)cut;
+      errno = err;
+      return false;
+    }
+    done += size_t(n);
+  }
+  return true;
+}
+
 ImageRecord record_of(const ImageF& img, const std::string& description) {
   ImageRecord r;
   r.pixels = NdArray<cfloat>(Shape{img.rows(), img.cols()});
@@ -159,29 +183,49 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
   s.cases_in_shard = int(mine.size());
   if (grid.cases.empty()) throw InputError(config.file, "method", "empty grid: no case to run");
 
-  // An existing folder must hold this config and this shard.
+  // The folder is created here and held (folder_lock.h) for the whole run, so
+  // two runs into one folder cannot both write it. A folder this run created
+  // is removed again when the run refuses its input.
+  const bool created_dir = !is_dir(dir);
+  make_dir(dir);
+  std::optional<StudyFolderLock> folder_lock;
   const std::string manifest = dir + "/manifest.json";
-  if (file_exists(manifest)) {
-    const std::string text = read_text_file(manifest);
-    const std::string hash = json_value(text, "config_hash");
-    if (hash != config.hash)
-      throw InputError(manifest, "config_hash",
-                       "the folder holds results of a different config (" + hash + ", this config " + config.hash +
-                           "); choose another --out");
-    const std::string shard = json_value(text, "shard");
-    if (shard != options.shard.to_string())
-      throw InputError(manifest, "shard",
-                       "the folder holds shard " + shard + ", not " + options.shard.to_string() +
-                           "; choose another --out");
+  LearnedModelSet learned;
+  try {
+    if (options.lock) folder_lock.emplace(dir, options.command);
+    // An existing folder must hold this config and this shard (a merged
+    // folder holds the whole study, like shard 1/1).
+    if (file_exists(manifest)) {
+      const std::string text = read_text_file(manifest);
+      const std::string hash = json_value(text, "config_hash");
+      const std::string shard = json_value(text, "shard");
+      if (text.find('{') == std::string::npos || text.find('}') == std::string::npos || hash.empty() ||
+          shard.empty())
+        throw InputError(manifest, "",
+                         "is corrupt (expected a JSON object with config_hash and shard); remove the folder or "
+                         "choose another output folder");
+      if (hash != config.hash)
+        throw InputError(manifest, "config_hash",
+                         "the folder holds results of a different config (" + hash + ", this config " +
+                             config.hash + "); choose another --out");
+      const bool whole = options.shard.count == 1;
+      if (shard != options.shard.to_string() && !(whole && shard == "merged"))
+        throw InputError(manifest, "shard",
+                         "the folder holds shard " + shard + ", not " + options.shard.to_string() +
+                             "; choose another --out");
+    }
+    const auto train_start = std::chrono::steady_clock::now();
+    ProgressSink* training = options.training_progress ? options.training_progress : options.progress;
+    learned.prepare(config, dir, training, options.stop);
+    s.training_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - train_start).count();
+  } catch (const InputError&) {
+    if (created_dir) {
+      folder_lock.reset();
+      ::rmdir(dir.c_str());  // only when still empty
+    }
+    throw;
   }
 
-  LearnedModelSet learned;
-  const auto train_start = std::chrono::steady_clock::now();
-  ProgressSink* training = options.training_progress ? options.training_progress : options.progress;
-  learned.prepare(config, dir, training, options.stop);
-  s.training_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - train_start).count();
-
-  make_dir(dir);
   make_dir(dir + "/images");
   write_text_atomic(dir + "/study.toml", config.text);
   if (!file_exists(manifest))
@@ -192,8 +236,17 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
   s.results_path = results_path;
   std::set<std::string> done;
   if (file_exists(results_path)) {
+    // A cut-off last row is dropped, and cases whose outputs could not be
+    // written (disk full, permission) are run again: only their input decides
+    // a case's failure for good.
     ResultsTable t = read_results(results_path);
-    if (t.had_partial_line) write_text_atomic(results_path, results_text(t));
+    const size_t before = t.rows.size();
+    const int ke = t.column("error");
+    t.rows.erase(std::remove_if(t.rows.begin(), t.rows.end(),
+                                [&](const auto& r) { return is_output_failure(r[size_t(ke)]); }),
+                 t.rows.end());
+    s.cases_retried = int(before - t.rows.size());
+    if (t.had_partial_line || s.cases_retried > 0) write_text_atomic(results_path, results_text(t));
     const int kc = t.column("case");
     for (const auto& r : t.rows) done.insert(r[size_t(kc)]);
   } else {
@@ -240,11 +293,16 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
         data = simulate_case_measurement(config, config.phantoms[size_t(first.phantom)],
                                          grid.acquisitions[size_t(first.acquisition)], first.mask_seed,
                                          first.noise_seed);
-        if (keep_images)
-          write_image_file(study_image_path(dir, "truth|" + first.measurement_key),
-                           record_of(data.truth, "truth of " + first.measurement_key), Provenance{});
       } catch (const std::exception& e) {
         sim_error = std::string("simulation failed: ") + e.what();
+      }
+      if (sim_error.empty() && keep_images) {
+        try {
+          write_image_file(study_image_path(dir, "truth|" + first.measurement_key),
+                           record_of(data.truth, "truth of " + first.measurement_key), Provenance{});
+        } catch (const std::exception& e) {
+          sim_error = output_failure("writing the truth image: " + std::string(e.what()));
+        }
       }
       for (const StudyCase* c : task) {
         {
@@ -260,7 +318,7 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
                                Provenance{});
             } catch (const std::exception& e) {
               o.ok = false;
-              o.error = std::string("writing the montage image failed: ") + e.what();
+              o.error = output_failure("writing the montage image: " + std::string(e.what()));
             }
           }
         } else {
@@ -268,8 +326,8 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
         }
         const std::string line = format_result_row(config, grid, *c, o) + "\n";
         std::lock_guard<std::mutex> lock(mutex);
-        if (::write(fd, line.data(), line.size()) != ssize_t(line.size())) {
-          write_error = "writing '" + results_path + "' failed";
+        if (!append_row(fd, line)) {
+          write_error = "writing '" + results_path + "' failed: " + std::strerror(errno);
           return;
         }
         ++s.cases_run;
@@ -288,10 +346,16 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
   if (!write_error.empty()) throw WorkError(write_error);
 
   ResultsTable table = read_results(results_path);
-  std::set<std::string> have;
-  for (const auto& r : table.rows) have.insert(r[size_t(table.column("case"))]);
+  std::set<std::string> have, failed;
+  for (const auto& r : table.rows) {
+    have.insert(r[size_t(table.column("case"))]);
+    if (!r[size_t(table.column("error"))].empty()) failed.insert(r[size_t(table.column("case"))]);
+  }
   s.complete = true;
-  for (const StudyCase* c : mine) s.complete = s.complete && have.count(c->key) > 0;
+  for (const StudyCase* c : mine) {
+    s.complete = s.complete && have.count(c->key) > 0;
+    s.cases_failed_all += failed.count(c->key) > 0 ? 1 : 0;
+  }
   if (s.complete && options.write_report) finish_outputs(dir, config, grid, table, &learned, s);
   if (options.progress) options.progress->finish(s.complete ? "study complete" : "study incomplete");
   s.wall_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
@@ -342,8 +406,15 @@ StudyRunSummary merge_studies(const std::vector<std::string>& dirs, const std::s
                      "the config or a file it names changed since the shards ran (" + config.hash + " now, " + hash +
                          " then)");
   const CaseGrid grid = expand_grid(config);
+  for (const std::string& d : dirs)
+    if (StudyFolderLock::held_by_other(d))
+      throw InputError(d + "/" + study_lock_file_name(), "",
+                       "the shard is still being run by " + StudyFolderLock::describe_holder(
+                                                                 d + "/" + study_lock_file_name()) +
+                           "; merge when it has finished");
 
   make_dir(out_dir);
+  const StudyFolderLock out_lock(out_dir, command);
   make_dir(out_dir + "/images");
   write_text_atomic(out_dir + "/study.toml", config_text);
   StudyRunSummary s;

@@ -11,6 +11,8 @@
 //   iterations              solver iterations (0 for direct methods)
 //   in_training_conditions  learned methods: yes | no; blank otherwise
 //   error                   empty for a successful case, else the error message
+//                           ("output failed: ..." when an output could not be
+//                           written; such cases run again on resume)
 #pragma once
 
 #include <string>
@@ -43,6 +45,12 @@ struct ResultsTable {
 // kill) is dropped. InputError naming the file when the header differs from
 // result_columns() or a row has the wrong number of cells.
 ResultsTable read_results(const std::string& path);
+
+// Error text of a case whose outputs could not be written (disk full,
+// permission): such a case did not fail because of its input, and a resumed
+// run runs it again. output_failure(what) = "output failed: " + what.
+std::string output_failure(const std::string& what);
+bool is_output_failure(const std::string& error);
 
 // The CSV text of a table (header + rows, each line ending in a newline).
 std::string results_text(const ResultsTable& table);

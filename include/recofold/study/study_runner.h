@@ -4,6 +4,7 @@
 // Output folder layout:
 //   study.toml      the config text
 //   manifest.json   name, config hash, shard, case counts, producer, command
+//   study.lock      present while a run holds the folder (folder_lock.h)
 //   results.csv     one row per case (results_table.h), appended as each case
 //                   finishes; rewritten in canonical case order when the run
 //                   (or shard) is complete
@@ -36,6 +37,9 @@ struct StudyRunOptions {
   const std::atomic<bool>* stop = nullptr;  // set: finish cases in flight, start no new ones
   std::string command;          // for provenance (manifest)
   bool write_report = true;     // summary.csv and report.html when complete
+  // Hold the folder's lock (folder_lock.h) for the run; false only when the
+  // caller holds the StudyFolderLock of out_dir itself.
+  bool lock = true;
   std::vector<std::string> validate() const;  // "jobs = 0; must be >= 1"
 };
 
@@ -45,6 +49,8 @@ struct StudyRunSummary {
   int cases_skipped = 0;   // already in results.csv (resume)
   int cases_run = 0;
   int cases_failed = 0;    // run here and failed (error in their rows)
+  int cases_failed_all = 0;  // cases of the shard whose rows hold an error, earlier runs included
+  int cases_retried = 0;   // rows of earlier runs whose outputs failed (disk full...), dropped to run again
   bool complete = false;   // every case of the shard has a row
   double wall_seconds = 0.0;
   double case_seconds = 0.0;  // sum of the reconstruction times of the cases run here
@@ -54,8 +60,10 @@ struct StudyRunSummary {
 
 // Runs the (shard of the) study into options.out_dir, skipping cases whose
 // rows are already there. Refuses (InputError, nothing written) an output
-// folder that holds a different config or another shard. Failing cases are
-// recorded in their rows and do not stop the study.
+// folder that holds a different config or another shard, whose manifest is
+// corrupt, or that another run holds (folder_lock.h). Failing cases are
+// recorded in their rows and do not stop the study; rows of cases whose
+// outputs could not be written (is_output_failure) are run again on resume.
 StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& options);
 
 // Combines shard folders into `out_dir`: every folder must hold the same
