@@ -37,8 +37,9 @@ bool exists(const std::string& p) {
   return ::stat(p.c_str(), &st) == 0;
 }
 
-// 1 phantom x (1 MRI + 1 CT acquisition) x 2 methods; "bad-wavelet" fails on
-// both modalities (6 wavelet levels need sides divisible by 64; the grid is 32).
+// 1 phantom x (1 MRI + 1 CT acquisition) x 2 methods; "bad-auto" fails on
+// both modalities when it runs (the discrepancy rule needs the noise level;
+// the data are noiseless), which the config cannot know at load time.
 StudyConfig tiny() {
   const std::string text = R"(
 name = "safety"
@@ -49,7 +50,7 @@ family = "ellipses"
 count = 1
 [mri]
 accel = 2
-noise = 0.01
+noise = 0
 [ct]
 views = 16
 photons = 0
@@ -61,11 +62,11 @@ levels = 2
 lambda = 0.01
 iters = 5
 [[method]]
-name = "bad-wavelet"
+name = "bad-auto"
 method = "fista"
-prior = "wavelet"
-levels = 6
-lambda = 0.01
+prior = "tv"
+lambda = "auto"
+lambda_rule = "discrepancy"
 iters = 5
 )";
   return StudyConfig::parse(text, "safety.toml", source_dir());
