@@ -4,8 +4,17 @@
 BUILD ?= build
 JOBS ?= $(shell nproc 2>/dev/null || echo 2)
 DEMO_OUT ?= demo-out
+# check-sanitize: AddressSanitizer + UndefinedBehaviorSanitizer build without
+# the learn module (RECOFOLD_WITH_LIBTORCH=OFF). It doubles as CI's build
+# without libtorch: everything except `train`, learned methods and their
+# tests must build and pass there.
+SAN_BUILD ?= build-sanitize
+# fuzz: libFuzzer targets (tests/fuzz) built with clang-14, ASan and UBSan,
+# each run FUZZ_SECONDS from its seed corpus tests/fuzz/corpus/<name>/.
+FUZZ_BUILD ?= build-fuzz
+FUZZ_SECONDS ?= 60
 
-.PHONY: all deps configure build check demo bench clean
+.PHONY: all deps configure build check check-sanitize fuzz demo bench clean
 
 all: build
 
@@ -21,8 +30,21 @@ build: configure
 check: build
 	@cd $(BUILD) && ctest --output-on-failure -j$(JOBS)
 
+check-sanitize: deps
+	@cmake -S . -B $(SAN_BUILD) -DCMAKE_BUILD_TYPE=Release -DRECOFOLD_WITH_LIBTORCH=OFF \
+	  -DRECOFOLD_SANITIZE=address,undefined
+	@cmake --build $(SAN_BUILD) -j$(JOBS)
+	@bash scripts/check-sanitize.sh $(SAN_BUILD) $(JOBS)
+
+fuzz: deps
+	@CC=clang-14 CXX=clang++-14 cmake -S . -B $(FUZZ_BUILD) -DCMAKE_BUILD_TYPE=Release \
+	  -DRECOFOLD_WITH_LIBTORCH=OFF -DRECOFOLD_BUILD_TESTS=OFF -DRECOFOLD_FUZZ=ON \
+	  -DRECOFOLD_SANITIZE=address,undefined
+	@cmake --build $(FUZZ_BUILD) -j$(JOBS) --target fuzz_targets
+	@bash scripts/run-fuzz.sh $(FUZZ_BUILD) $(FUZZ_SECONDS)
+
 demo: build
 	@bash scripts/demo.sh $(BUILD)/recofold $(DEMO_OUT)
 
 clean:
-	rm -rf $(BUILD) $(DEMO_OUT)
+	rm -rf $(BUILD) $(SAN_BUILD) $(FUZZ_BUILD) $(DEMO_OUT)

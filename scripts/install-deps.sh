@@ -22,6 +22,9 @@ PACKAGES=(
   # independent reference checks (tests/reference), run with /usr/bin/python3
   python3 python3-numpy python3-scipy python3-skimage python3-pywt
   python3-h5py python3-nibabel python3-torch
+  # fuzz targets (make fuzz): clang with libFuzzer and the sanitizer runtimes,
+  # and clang's OpenMP runtime
+  clang-14 libclang-rt-14-dev libomp-14-dev
   # headless browser for the report rendering check (tests/cli/study_report_browser.py)
   chromium
 )

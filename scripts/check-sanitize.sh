@@ -1,0 +1,33 @@
+#!/usr/bin/env bash
+# SPDX-License-Identifier: Apache-2.0
+# Runs the test suite of a sanitizer build (make check-sanitize) and fails on
+# any finding. AddressSanitizer (with its leak checker) and
+# UndefinedBehaviorSanitizer write their reports to files under
+# <build>/sanitizer-logs instead of standard error, so the CLI tests (which
+# compare messages and exit codes) see the program as it is, and every report
+# of every process a test starts is counted here afterwards.
+# Usage: scripts/check-sanitize.sh BUILD_DIR [JOBS]
+set -euo pipefail
+build=$(cd "$1" && pwd)
+jobs=${2:-2}
+logs="$build/sanitizer-logs"
+rm -rf "$logs"
+mkdir -p "$logs"
+export ASAN_OPTIONS="log_path=$logs/asan:detect_leaks=1:check_initialization_order=1:strict_init_order=1:detect_stack_use_after_return=1"
+export UBSAN_OPTIONS="log_path=$logs/ubsan:print_stacktrace=1:halt_on_error=1"
+status=0
+(cd "$build" && ctest --output-on-failure -j"$jobs") || status=$?
+reports=$(find "$logs" -type f | sort)
+if [ -n "$reports" ]; then
+  echo "check-sanitize: $(echo "$reports" | wc -l) sanitizer report(s):"
+  for f in $reports; do
+    echo "---- $f"
+    head -n 60 "$f"
+  done
+  exit 1
+fi
+if [ "$status" -ne 0 ]; then
+  echo "check-sanitize: tests failed (no sanitizer report)"
+  exit "$status"
+fi
+echo "check-sanitize: all tests passed, zero sanitizer findings"
