@@ -40,6 +40,7 @@ struct PhantomFlags {
   std::string texture;  // "", "on", "off"
   int texture_blobs = FamilyOptions{}.texture_blobs;
   double texture_contrast = FamilyOptions{}.texture_contrast;
+  std::string contrast = "mri";  // anatomy: mri | ct
 };
 
 const std::vector<std::string> kImageExtensions = {".h5", ".nii.gz", ".nii", ".mha", ".nrrd", ".png"};
@@ -69,14 +70,19 @@ std::string family_flag(const std::string& message) {
 FamilyOptions family_from_flags(const PhantomFlags& f, const CLI::App& sub) {
   const std::optional<Family> fam = parse_family(f.family);
   if (!fam) throw InputError("", "--family", "unknown family '" + f.family + "' (known: " + family_names() + ")");
-  FamilyOptions o = family_options(*fam);
-  o.components = f.components;
-  o.intensity_min = f.intensity_min;
-  o.intensity_max = f.intensity_max;
-  o.size_min = f.size_min;
-  o.size_max = f.size_max;
-  o.texture_blobs = f.texture_blobs;
-  o.texture_contrast = f.texture_contrast;
+  const std::optional<TissueContrast> contrast = parse_tissue_contrast(f.contrast);
+  if (!contrast) throw InputError("", "--contrast", "'" + f.contrast + "'; expected mri or ct");
+  if (sub.count("--contrast") > 0 && *fam != Family::kAnatomy)
+    throw InputError("", "--contrast", "only applies to the anatomy family");
+  FamilyOptions o = family_options(*fam, *contrast);
+  // Only flags given on the command line replace the family's defaults.
+  if (sub.count("--components") > 0) o.components = f.components;
+  if (sub.count("--intensity-min") > 0) o.intensity_min = f.intensity_min;
+  if (sub.count("--intensity-max") > 0) o.intensity_max = f.intensity_max;
+  if (sub.count("--size-min") > 0) o.size_min = f.size_min;
+  if (sub.count("--size-max") > 0) o.size_max = f.size_max;
+  if (sub.count("--texture-blobs") > 0) o.texture_blobs = f.texture_blobs;
+  if (sub.count("--texture-contrast") > 0) o.texture_contrast = f.texture_contrast;
   if (sub.count("--texture") > 0) o.texture = f.texture == "on";
   if (sub.count("--fov") > 0) o.fov_mm = f.fov_mm;
   const std::vector<std::string> errors = o.validate();
@@ -99,7 +105,7 @@ void run_phantom(const PhantomFlags& f, const CLI::App& sub, const Context& ctx)
     throw InputError("", "--fov", "= " + format_number(f.fov_mm) + "; must be > 0 (mm)");
   if (use_table) {
     for (const char* flag : {"--count", "--seed", "--components", "--intensity-min", "--intensity-max", "--size-min",
-                             "--size-max", "--texture", "--texture-blobs", "--texture-contrast"})
+                             "--size-max", "--texture", "--texture-blobs", "--texture-contrast", "--contrast"})
       if (sub.count(flag) > 0) throw InputError("", flag, "only applies with --family");
   }
   if (f.count < 1) throw InputError("", "--count", "= " + std::to_string(f.count) + "; must be >= 1");
@@ -172,20 +178,27 @@ void register_cmd_phantom(CLI::App& app, Context& ctx) {
   sub->add_option("--out", flags->out, "Output: .h5 (with the component table), .nii.gz, .nii, .mha, .nrrd or .png")
       ->required();
   sub->add_option("--png", flags->png, "Also write a quick-look PNG (object 0 of a stack)");
-  sub->add_option("--fov", flags->fov_mm, "Field of view in mm (default: the table's, 256 for families)");
+  sub->add_option("--fov", flags->fov_mm, "Field of view in mm (default: the table's; families 256, anatomy 360)");
   sub->add_option("--supersample", flags->edge_supersample,
                   "Sub-rows per edge pixel for anti-aliasing, 0 = none (default 16)");
   sub->add_option("--components", flags->components, "Family: random ellipses per object (default 10)");
-  sub->add_option("--intensity-min", flags->intensity_min, "Family: lowest intensity (default 0.1)");
-  sub->add_option("--intensity-max", flags->intensity_max, "Family: highest intensity (default 1.0)");
+  sub->add_option("--intensity-min", flags->intensity_min, "Family: lowest region value, >= 0 (default 0.1)");
+  sub->add_option("--intensity-max", flags->intensity_max,
+                  "Family: highest region value, <= 1 (default 1.0 ellipses, 0.8 textured)");
   sub->add_option("--size-min", flags->size_min, "Family: smallest semi-axis, units of the [-1,1] square (default 0.03)");
   sub->add_option("--size-max", flags->size_max, "Family: largest semi-axis (default 0.3, at most 0.5)");
-  sub->add_option("--texture", flags->texture, "Family: multi-scale blob texture on|off (default: on for textured)")
+  sub->add_option("--texture", flags->texture, "Family: multi-scale blob texture on|off (default: on for textured and anatomy)")
       ->check(CLI::IsMember({"on", "off"}));
   sub->add_option("--texture-blobs", flags->texture_blobs, "Family: fine-scale texture blobs (default 300)");
   sub->add_option("--texture-contrast", flags->texture_contrast,
-                  "Family: texture amplitude relative to --intensity-max (default 0.12)");
-  sub->footer("Tables: phantoms/shepp-logan.toml, shepp-logan-modified.toml, qc-disk.toml, organ-section.toml.\n" +
+                  "Family: texture amplitude relative to --intensity-max, or to the tissue for anatomy (default 0.12; "
+                  "anatomy 0.05)");
+  sub->add_option("--contrast", flags->contrast,
+                  "Anatomy: tissue values mri (relative proton density, max 1) or ct (attenuation relative to water, "
+                  "max 2) (default mri)");
+  sub->footer("Tables: phantoms/shepp-logan.toml, shepp-logan-modified.toml, qc-disk.toml, organ-section.toml.\n"
+              "Every object is non-negative; values are relative to water (MRI: proton density; CT: attenuation\n"
+              "mu/mu_water, mu_water = 0.02/mm near 65 keV). Maxima: ellipses and textured 1, anatomy 1 (mri) or 2 (ct).\n" +
               std::string(kResearchUseLine));
   sub->callback([flags, sub, &ctx] { run_phantom(*flags, *sub, ctx); });
 }
