@@ -57,7 +57,10 @@ void register_cmd_study(CLI::App& app, Context& ctx) {
   sub->add_option("--jobs", flags->jobs, "Cases run in parallel (default 0: all cores)");
   sub->add_option("--shard", flags->shard, "Run shard I of N (I/N) of the cases, e.g. 2/4");
   sub->add_option("--merge", flags->merge, "Merge these shard folders into --out")->expected(1, -1);
-  sub->footer("Writes results.csv (one row per case, as cases finish), summary.csv and report.html.\n" +
+  sub->footer("Writes results.csv (one row per case, as cases finish; lambda_rule says how each weight was chosen:\n"
+              "auto, fixed, or oracle = best PSNR against the truth, which no real scan allows), summary.csv\n"
+              "(n, mean, std, 95 % t interval), comparisons.csv (paired differences with intervals and Wilcoxon\n"
+              "p-values) and report.html (findings first).\n" +
               std::string(kResearchUseLine));
   sub->callback([flags, &ctx] { run(*flags, ctx); });
 }

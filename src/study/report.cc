@@ -5,9 +5,12 @@
 #include <sys/stat.h>
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <cstdlib>
+#include <limits>
 #include <map>
+#include <cstdio>
 #include <set>
 
 #include "recofold/core/atomic_file.h"
@@ -15,7 +18,9 @@
 #include "recofold/core/provenance.h"
 #include "recofold/io/image_export.h"
 #include "recofold/io/image_file.h"
+#include "recofold/study/comparisons.h"
 #include "recofold/study/learned_models.h"
+#include "recofold/study/statistics.h"
 #include "study_util.h"
 #include "png_plot.h"
 #include "svg_plot.h"
@@ -33,6 +38,8 @@ const char* kStyle = R"(body{font-family:sans-serif;max-width:1150px;margin:24px
 table{border-collapse:collapse;margin:8px 0 16px 0}td,th{border:1px solid #ccc;padding:4px 8px;font-size:13px;text-align:left}
 th{background:#f2f2f2}td.in{background:#e8f4ea}td.fail{background:#fbe3e3}
 figure{display:inline-block;margin:8px 12px 16px 0;vertical-align:top}figcaption{font-size:12px;color:#444;max-width:900px}
+section#findings{border:2px solid #4c7be0;background:#f4f7ff;padding:4px 14px;margin:12px 0}
+section#findings li{margin:4px 0}td b{color:#000}span.oracle{color:#a33;font-weight:bold}
 pre{background:#f7f7f7;padding:8px;font-size:12px;overflow-x:auto}img.montage{image-rendering:pixelated}
 )";
 
@@ -65,18 +72,72 @@ size_t metric_index(const std::string& m) {
 
 struct Lookup {
   std::map<std::string, const SummaryRow*> rows;
-  static std::string id(const std::string& modality, const std::string& method, const std::vector<std::string>& axes) {
-    std::string s = modality + "|" + method;
+  static std::string id(const std::string& set, const std::string& modality, const std::string& method,
+                        const std::vector<std::string>& axes) {
+    std::string s = set + "|" + modality + "|" + method;
     for (const auto& a : axes) s += "|" + a;
     return s;
   }
-  const SummaryRow* find(const Acquisition& a, const std::string& method) const {
+  const SummaryRow* find(const std::string& set, const Acquisition& a, const std::string& method) const {
     std::vector<std::string> axes;
     for (const auto& n : acquisition_axes()) axes.push_back(axis_value(a, n));
-    const auto it = rows.find(id(std::string(to_string(a.modality)), method, axes));
+    const auto it = rows.find(id(set, std::string(to_string(a.modality)), method, axes));
     return it == rows.end() ? nullptr : it->second;
   }
 };
+
+// Fixed-point text of a metric value or difference (PSNR 2 decimals, SSIM 3, others 4 significant).
+std::string val(const std::string& metric, double v) {
+  if (std::isnan(v)) return "n/a";
+  char buf[48];
+  if (metric == "psnr") std::snprintf(buf, sizeof buf, "%.2f", v);
+  else if (metric == "ssim") std::snprintf(buf, sizeof buf, "%.3f", v);
+  else return format_sig(v, 4);
+  return buf;
+}
+
+std::string unit(const std::string& metric) { return metric == "psnr" ? " dB" : ""; }
+
+std::string interval(const std::string& metric, double lo, double hi) {
+  if (std::isnan(lo) || std::isnan(hi)) return "95 % CI n/a (n &lt; 2)";
+  return "95 % CI [" + val(metric, lo) + ", " + val(metric, hi) + "]";
+}
+
+std::string pval(double p) {
+  if (std::isnan(p)) return "n/a";
+  if (p < 1e-4) return "&lt; 0.0001";
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%.4f", p);
+  return buf;
+}
+
+// Method name for HTML, with the oracle mark.
+std::string method_html(const SummaryRow& r) {
+  std::string s = "<b>" + html_escape(r.method) + "</b>";
+  if (r.oracle()) s += " <span class=\"oracle\">[" + std::string(kOracleMark) + "]</span>";
+  return s;
+}
+
+// A small inline SVG of the per-repetition values of a cell on the row's common range.
+std::string strip_svg(const std::vector<double>& v, double lo, double hi, double mean) {
+  const double w = 90;
+  const double span = hi > lo ? hi - lo : 1.0;
+  auto X = [&](double x) { return 4.0 + (w - 8.0) * (x - lo) / span; };
+  std::string o = "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"90\" height=\"12\" viewBox=\"0 0 90 12\">";
+  o += "<line x1=\"4\" x2=\"86\" y1=\"6\" y2=\"6\" stroke=\"#bbb\"/>";
+  char buf[96];
+  for (double x : v) {
+    if (!std::isfinite(x)) continue;
+    std::snprintf(buf, sizeof buf, "<circle cx=\"%.1f\" cy=\"6\" r=\"2\" fill=\"#0072B2\" fill-opacity=\"0.6\"/>", X(x));
+    o += buf;
+  }
+  if (std::isfinite(mean)) {
+    std::snprintf(buf, sizeof buf, "<line x1=\"%.1f\" x2=\"%.1f\" y1=\"1\" y2=\"11\" stroke=\"#000\" stroke-width=\"1.5\"/>",
+                  X(mean), X(mean));
+    o += buf;
+  }
+  return o + "</svg>";
+}
 
 ImageF read_image(const std::string& path) {
   const ImageRecord r = read_image_file(path);
@@ -91,6 +152,196 @@ std::string embed_png(const std::string& path, const std::string& alt, const std
          base64(read_text_file(path)) + "\"/>";
 }
 
+
+// Robustness of a learned method: the drop of `metric` from its training
+// condition `train` to a shifted condition `shift`, paired by object and
+// repetition, next to the same drop of the best classical method of the
+// training condition (classical rows of the same two conditions).
+struct Drop {
+  PairedComparison learned, classical, difference;  // difference: learned drop - classical drop
+};
+
+Drop drops(const SummaryRow& lt, const SummaryRow& ls, const SummaryRow& ct, const SummaryRow& cs, size_t k) {
+  std::map<std::string, std::array<double, 4>> by_key;
+  std::map<std::string, int> seen;
+  const SummaryRow* rows[4] = {&lt, &ls, &ct, &cs};
+  for (int j = 0; j < 4; ++j)
+    for (size_t i = 0; i < rows[j]->sample_keys.size(); ++i) {
+      by_key[rows[j]->sample_keys[i]][size_t(j)] = rows[j]->samples[k][i];
+      seen[rows[j]->sample_keys[i]] |= 1 << j;
+    }
+  std::vector<double> a, b, c, d;
+  for (const auto& [key, v] : by_key)
+    if (seen[key] == 15) {
+      a.push_back(v[0]);
+      b.push_back(v[1]);
+      c.push_back(v[2]);
+      d.push_back(v[3]);
+    }
+  Drop r;
+  r.learned = compare_paired(a, b);
+  r.classical = compare_paired(c, d);
+  std::vector<double> dl(a.size()), dc(a.size());
+  for (size_t i = 0; i < a.size(); ++i) {
+    dl[i] = a[i] - b[i];
+    dc[i] = c[i] - d[i];
+  }
+  r.difference = compare_paired(dl, dc);
+  return r;
+}
+
+bool excludes_zero(const PairedComparison& p) {
+  return p.n >= 2 && !std::isnan(p.ci_low) && (p.ci_low > 0.0 || p.ci_high < 0.0);
+}
+
+// What differs between two conditions ("accel 4 -> 6, object set textured -> anatomy").
+std::string shift_text(const SummaryRow& from, const SummaryRow& to) {
+  std::string s;
+  if (from.object_set != to.object_set) s = "objects " + from.object_set + " &rarr; " + to.object_set;
+  const auto& names = acquisition_axes();
+  for (size_t i = 0; i < names.size(); ++i)
+    if (from.axes[i] != to.axes[i]) s += (s.empty() ? "" : ", ") + names[i] + " " + from.axes[i] + " &rarr; " + to.axes[i];
+  return s.empty() ? "same condition" : s;
+}
+
+struct RobustnessLine {
+  const SummaryRow* learned_train = nullptr;
+  const SummaryRow* learned_shift = nullptr;
+  const SummaryRow* classical_train = nullptr;
+  const SummaryRow* classical_shift = nullptr;
+  Drop drop;
+};
+
+// For every learned method inside its training condition (in_training "yes"),
+// each condition of the same modality where it also ran.
+std::vector<RobustnessLine> robustness(const std::vector<SummaryRow>& summary, const std::string& metric) {
+  const size_t k = size_t(std::find(study_metric_names().begin(), study_metric_names().end(), metric) -
+                          study_metric_names().begin());
+  std::map<std::string, std::vector<const SummaryRow*>> by_condition;
+  for (const SummaryRow& r : summary) by_condition[r.condition_id()].push_back(&r);
+  std::vector<RobustnessLine> out;
+  for (const SummaryRow& lt : summary) {
+    if (!lt.learned() || lt.in_training != "yes") continue;
+    const SummaryRow* ct = best_row(by_condition[lt.condition_id()], metric, true);
+    if (ct == nullptr) continue;
+    for (const SummaryRow& ls : summary) {
+      if (&ls == &lt || ls.method != lt.method || ls.modality != lt.modality) continue;
+      const SummaryRow* cs = nullptr;
+      for (const SummaryRow* r : by_condition[ls.condition_id()])
+        if (r->method == ct->method) cs = r;
+      if (cs == nullptr) continue;
+      RobustnessLine line;
+      line.learned_train = &lt;
+      line.learned_shift = &ls;
+      line.classical_train = ct;
+      line.classical_shift = cs;
+      line.drop = drops(lt, ls, *ct, *cs, k);
+      out.push_back(line);
+    }
+  }
+  return out;
+}
+
+std::string findings_html(const std::vector<SummaryRow>& summary, const std::vector<ComparisonRow>& comparisons,
+                          const std::string& metric) {
+  std::string h = "<section id=\"findings\">\n<h2>Findings</h2>\n";
+  h += "<p>From the numbers of this run, metric " + html_escape(metric_label(metric)) +
+       ". A difference is called significant when the 95 % confidence interval (Student's t) of the mean paired "
+       "difference (same object and repetition) excludes 0; the two-sided Wilcoxon signed-rank p-value is given "
+       "beside it (with n = 5 pairs its smallest possible value is 0.0625). Methods marked " +
+       std::string("<span class=\"oracle\">[") + kOracleMark +
+       "]</span> chose their weight by comparing with the truth, which no real scan allows; they are never named "
+       "best while a method that does not use the truth is there.</p>\n<ul>\n";
+  std::vector<std::string> order;
+  std::map<std::string, std::vector<const ComparisonRow*>> best_rows, learned_rows;
+  for (const ComparisonRow& c : comparisons) {
+    if (c.metric != metric) continue;
+    const std::string id = c.a->condition_id();
+    if (best_rows.count(id) == 0 && learned_rows.count(id) == 0) order.push_back(id);
+    (c.kind == "best" ? best_rows : learned_rows)[id].push_back(&c);
+  }
+  const size_t k = size_t(std::find(study_metric_names().begin(), study_metric_names().end(), metric) -
+                          study_metric_names().begin());
+  for (const std::string& id : order) {
+    const auto& rows = best_rows[id];
+    const SummaryRow* best = rows.empty() ? nullptr : rows.front()->a;
+    if (best == nullptr) {
+      for (const SummaryRow& r : summary)
+        if (r.condition_id() == id) best = &r;
+      if (best == nullptr) continue;
+    }
+    h += "<li><b>" + html_escape(best->condition()) + "</b>: best " + method_html(*best) + ", " + metric + " " +
+         val(metric, best->mean[k]) + unit(metric) + " (" + interval(metric, best->ci_low[k], best->ci_high[k]) +
+         ", n " + std::to_string(best->n) + ")";
+    // Runner-up: the comparison with the smallest mean difference.
+    const ComparisonRow* runner = nullptr;
+    for (const ComparisonRow* c : rows)
+      if (!std::isnan(c->result.mean_diff) &&
+          (runner == nullptr || std::fabs(c->result.mean_diff) < std::fabs(runner->result.mean_diff)))
+        runner = c;
+    if (runner != nullptr) {
+      const PairedComparison& r = runner->result;
+      if (runner->significant())
+        h += "; ahead of the runner-up " + method_html(*runner->b) + " by " + val(metric, r.mean_diff) + unit(metric) +
+             " (" + interval(metric, r.ci_low, r.ci_high) + ", Wilcoxon p " + pval(r.p_value) + ", n " +
+             std::to_string(r.n) + ")";
+      else
+        h += "; <b>no significant difference</b> from the runner-up " + method_html(*runner->b) + " (difference " +
+             val(metric, r.mean_diff) + unit(metric) + ", " + interval(metric, r.ci_low, r.ci_high) +
+             ", Wilcoxon p " + pval(r.p_value) + ", n " + std::to_string(r.n) + ")";
+      std::string tied;
+      for (const ComparisonRow* c : rows)
+        if (c != runner && !c->significant() && c->result.n >= 2) tied += (tied.empty() ? "" : ", ") + method_html(*c->b);
+      if (!tied.empty()) h += "; also not significantly different: " + tied;
+    }
+    for (const ComparisonRow* c : learned_rows[id]) {
+      const PairedComparison& r = c->result;
+      const bool up = higher_is_better(metric);
+      const std::string verdict = !c->significant() ? "no significant difference from"
+                                  : ((r.mean_diff > 0) == up ? "significantly better than" : "significantly worse than");
+      h += ". Learned " + method_html(*c->a) + " (" +
+           (c->a->in_training == "yes" ? std::string("inside its training conditions")
+                                       : c->a->in_training == "no" ? std::string("outside its training conditions")
+                                                                   : std::string("training conditions partly met")) +
+           "): " + verdict + " the best classical method " + method_html(*c->b) + " (difference " +
+           val(metric, r.mean_diff) + unit(metric) + ", " + interval(metric, r.ci_low, r.ci_high) + ", Wilcoxon p " +
+           pval(r.p_value) + ", n " + std::to_string(r.n) + ")";
+    }
+    h += ".</li>\n";
+  }
+  h += "</ul>\n";
+  const std::vector<RobustnessLine> rob = robustness(summary, metric);
+  if (!rob.empty()) {
+    h += "<p>Robustness of the learned methods: drop of " + html_escape(metric_label(metric)) +
+         " from the training condition to each shifted condition (training minus shifted, paired by object and "
+         "repetition), next to the drop of the best classical method of the training condition.</p>\n<ul>\n";
+    for (const RobustnessLine& l : rob) {
+      const Drop& d = l.drop;
+      const bool up = higher_is_better(metric);
+      std::string verdict;
+      if (!excludes_zero(d.difference)) verdict = "degrades no differently from";
+      else if ((d.difference.mean_diff > 0) == up) verdict = "degrades significantly more than";
+      else verdict = "degrades significantly less than";
+      h += "<li>" + method_html(*l.learned_train) + ", " + shift_text(*l.learned_train, *l.learned_shift) +
+           ": drop " + val(metric, d.learned.mean_diff) + unit(metric) + " (" +
+           interval(metric, d.learned.ci_low, d.learned.ci_high) + ") vs " + method_html(*l.classical_train) + " " +
+           val(metric, d.classical.mean_diff) + unit(metric) + " (" +
+           interval(metric, d.classical.ci_low, d.classical.ci_high) + "): " + verdict + " classical (difference " +
+           val(metric, d.difference.mean_diff) + unit(metric) + ", " +
+           interval(metric, d.difference.ci_low, d.difference.ci_high) + ", Wilcoxon p " + pval(d.difference.p_value) +
+           ", n " + std::to_string(d.difference.n) + ").</li>\n";
+    }
+    h += "</ul>\n";
+  } else {
+    bool any_learned = false;
+    for (const SummaryRow& r : summary) any_learned = any_learned || r.learned();
+    if (any_learned)
+      h += "<p>Robustness: no learned method ran inside its training conditions in this study, so no drop from the "
+           "training condition can be computed.</p>\n";
+  }
+  return h + "</section>\n";
+}
+
 }  // namespace
 
 std::string write_study_report(const ReportInputs& in) {
@@ -101,7 +352,12 @@ std::string write_study_report(const ReportInputs& in) {
   ::mkdir(fig_dir.c_str(), 0777);
 
   Lookup lookup;
-  for (const SummaryRow& r : *in.summary) lookup.rows[Lookup::id(r.modality, r.method, r.axes)] = &r;
+  for (const SummaryRow& r : *in.summary) lookup.rows[Lookup::id(r.object_set, r.modality, r.method, r.axes)] = &r;
+  std::vector<std::string> sets;  // object sets in config order
+  for (const StudyPhantom& p : c.phantoms)
+    if (std::find(sets.begin(), sets.end(), object_set(p)) == sets.end()) sets.push_back(object_set(p));
+  const std::string main_metric =
+      std::find(c.metrics.begin(), c.metrics.end(), "psnr") != c.metrics.end() ? "psnr" : c.metrics.front();
   std::map<std::string, size_t> row_of_case;
   for (size_t r = 0; r < results.rows.size(); ++r) row_of_case[results.cell(r, "case")] = r;
   int failed = 0;
@@ -112,13 +368,33 @@ std::string write_study_report(const ReportInputs& in) {
   h += "<p class=\"ruo\">" + html_escape(kResearchUseLine) + "</p>\n";
   h += "<h1>recofold study: " + html_escape(c.name) + "</h1>\n";
   if (!c.description.empty()) h += "<p>" + html_escape(c.description) + "</p>\n";
+  if (in.comparisons != nullptr) h += findings_html(*in.summary, *in.comparisons, main_metric);
   h += "<table>\n<tr><th>producer</th><td>" + html_escape(producer_string()) + "</td></tr>\n";
   h += "<tr><th>created (UTC)</th><td>" + Provenance::utc_timestamp() + "</td></tr>\n";
   h += "<tr><th>config</th><td>" + html_escape(c.file) + " (hash " + c.hash + ")</td></tr>\n";
-  h += "<tr><th>grid</th><td>" + std::to_string(c.phantoms.size()) + " phantoms &times; " +
-       std::to_string(grid.acquisitions.size()) + " acquisitions &times; " + std::to_string(c.methods.size()) +
-       " methods &times; " + std::to_string(c.repetitions) + " repetitions = " + std::to_string(grid.cases.size()) +
-       " cases (" + std::to_string(results.rows.size()) + " rows, " + std::to_string(failed) + " failed)</td></tr>\n";
+  {
+    // Cases per modality: acquisitions x methods that run there; times objects and repetitions.
+    std::string terms;
+    long long per_object = 0;
+    for (const Modality mod : {Modality::kMri, Modality::kCt}) {
+      long long na = 0, nm = 0;
+      for (const Acquisition& a : grid.acquisitions) na += a.modality == mod ? 1 : 0;
+      for (const StudyMethod& m : c.methods) nm += m.applies_to(mod) ? 1 : 0;
+      if (na == 0 || nm == 0) continue;
+      terms += std::string(terms.empty() ? "" : " + ") + (mod == Modality::kMri ? "MRI " : "CT ") +
+               std::to_string(na) + " acquisition" + (na == 1 ? "" : "s") + " &times; " + std::to_string(nm) +
+               " method" + (nm == 1 ? "" : "s");
+      per_object += na * nm;
+    }
+    const long long expected = per_object * (long long)c.phantoms.size() * c.repetitions;
+    h += "<tr><th>grid</th><td>" + std::to_string(c.phantoms.size()) + " object" +
+         (c.phantoms.size() == 1 ? "" : "s") + " &times; (" + terms + ") &times; " + std::to_string(c.repetitions) +
+         " repetition" + (c.repetitions == 1 ? "" : "s") + " = " + std::to_string(expected) + " cases";
+    if (expected != (long long)grid.cases.size())
+      h += " (" + std::to_string(grid.cases.size()) + " in the grid: methods left out of this build)";
+    h += "; results.csv holds " + std::to_string(results.rows.size()) + " rows, " + std::to_string(failed) +
+         " failed</td></tr>\n";
+  }
   h += "<tr><th>image grid</th><td>" + std::to_string(c.ny) + " &times; " + std::to_string(c.nx) + "</td></tr>\n";
   std::string ph;
   for (const auto& p : c.phantoms) ph += (ph.empty() ? "" : ", ") + p.label;
@@ -126,7 +402,8 @@ std::string write_study_report(const ReportInputs& in) {
   if (c.region_radius > 0)
     h += "<tr><th>metric region</th><td>centred disc, radius " + format_number(c.region_radius) +
          " of the half-width</td></tr>\n";
-  h += "<tr><th>files</th><td>results.csv (one row per case), summary.csv (mean &plusmn; std), figures/ (SVG plots, "
+  h += "<tr><th>files</th><td>results.csv (one row per case), summary.csv (n, mean, std, 95 % interval per method "
+       "and condition), comparisons.csv (paired differences, intervals, Wilcoxon p-values), figures/ (SVG plots, "
        "PNG montages), images/ (montage reconstructions)</td></tr>\n</table>\n";
   for (const StudyMethod& m : c.methods)
     if (m.learned() && in.learned != nullptr) {
@@ -152,32 +429,59 @@ std::string write_study_report(const ReportInputs& in) {
     if (acqs.empty() || methods.empty()) continue;
     h += std::string("<h2>") + (modality == "mri" ? "MRI" : "CT") + " protocols</h2>\n";
 
-    // Table of methods x conditions.
+    // Table of methods x conditions (object set x acquisition).
+    h += "<p>Each cell: per metric the mean, its 95 % confidence interval (Student's t over objects and "
+         "repetitions) and the per-repetition values (dots; the bar is the mean; one common range per row and "
+         "metric); the best mean of each row and metric is bold. Shaded green: inside a learned method's "
+         "training conditions.</p>\n";
     h += "<table>\n<tr><th>condition</th>";
-    for (const StudyMethod* m : methods) h += "<th>" + html_escape(m->name) + "</th>";
-    h += "</tr>\n";
-    for (const Acquisition* a : acqs) {
-      std::string cond;
-      for (const auto& ax : acquisition_axes())
-        if (!axis_value(*a, ax).empty()) cond += (cond.empty() ? "" : ", ") + ax + " " + axis_value(*a, ax);
-      h += "<tr><td>" + html_escape(cond) + "</td>";
-      for (const StudyMethod* m : methods) {
-        const SummaryRow* r = lookup.find(*a, m->name);
-        if (r == nullptr) {
-          h += "<td>&ndash;</td>";
-          continue;
-        }
-        std::string cls = r->failed > 0 ? " class=\"fail\"" : (r->in_training == "yes" ? " class=\"in\"" : "");
-        h += "<td" + cls + ">";
-        for (const auto& metric : c.metrics) {
-          const size_t k = metric_index(metric);
-          h += metric + " " + format_sig(r->mean[k], metric == "psnr" ? 4 : 3) + " &plusmn; " +
-               format_sig(r->std_dev[k], 2) + "<br>";
-        }
-        h += "n " + std::to_string(r->n) + (r->failed ? ", failed " + std::to_string(r->failed) : "") + "</td>";
-      }
-      h += "</tr>\n";
+    for (const StudyMethod* m : methods) {
+      h += "<th>" + html_escape(m->name);
+      if (lambda_rule(*m, *parse_modality(modality)) == "oracle") h += "<br><span class=\"oracle\">[" + std::string(kOracleMark) + "]</span>";
+      else h += "<br><small>&lambda; " + html_escape(lambda_rule(*m, *parse_modality(modality))) + "</small>";
+      h += "</th>";
     }
+    h += "</tr>\n";
+    for (const std::string& set : sets)
+      for (const Acquisition* a : acqs) {
+        std::vector<const SummaryRow*> row_rows;
+        for (const StudyMethod* m : methods) row_rows.push_back(lookup.find(set, *a, m->name));
+        bool any = false;
+        for (const SummaryRow* r : row_rows) any = any || r != nullptr;
+        if (!any) continue;
+        std::string cond = sets.size() > 1 ? "objects " + set : "";
+        for (const auto& ax : acquisition_axes())
+          if (!axis_value(*a, ax).empty()) cond += (cond.empty() ? "" : ", ") + ax + " " + axis_value(*a, ax);
+        h += "<tr><td>" + html_escape(cond) + "</td>";
+        std::vector<const SummaryRow*> present;
+        for (const SummaryRow* r : row_rows)
+          if (r != nullptr) present.push_back(r);
+        for (const SummaryRow* r : row_rows) {
+          if (r == nullptr) {
+            h += "<td>&ndash;</td>";
+            continue;
+          }
+          std::string cls = r->failed > 0 ? " class=\"fail\"" : (r->in_training == "yes" ? " class=\"in\"" : "");
+          h += "<td" + cls + ">";
+          for (const auto& metric : c.metrics) {
+            const size_t k = metric_index(metric);
+            const SummaryRow* best = best_row(present, metric, false);
+            double lo = std::numeric_limits<double>::infinity(), hi = -lo;
+            for (const SummaryRow* q : present)
+              for (double v : q->samples[k])
+                if (std::isfinite(v)) {
+                  lo = std::min(lo, v);
+                  hi = std::max(hi, v);
+                }
+            std::string v = val(metric, r->mean[k]);
+            if (best == r) v = "<b>" + v + "</b>";
+            h += metric + " " + v + " <small>[" + val(metric, r->ci_low[k]) + ", " + val(metric, r->ci_high[k]) +
+                 "]</small><br>" + strip_svg(r->samples[k], lo, hi, r->mean[k]) + "<br>";
+          }
+          h += "n " + std::to_string(r->n) + (r->failed ? ", failed " + std::to_string(r->failed) : "") + "</td>";
+        }
+        h += "</tr>\n";
+      }
     h += "</table>\n";
     for (size_t r = 0; r < results.rows.size(); ++r)
       if (results.cell(r, "modality") == modality && !results.cell(r, "error").empty()) {
@@ -185,12 +489,19 @@ std::string write_study_report(const ReportInputs& in) {
              "</p>\n";
       }
 
+    // Reference object set for the plots: the first one with a row inside a learned method's training conditions.
+    std::string ref_set = sets.front();
+    for (const SummaryRow& r : *in.summary)
+      if (r.modality == modality && r.in_training == "yes") {
+        ref_set = r.object_set;
+        break;
+      }
     // Reference acquisition: one inside a learned method's training conditions, else the first.
     const Acquisition* ref = acqs.front();
     for (const Acquisition* a : acqs) {
       bool inside = false;
       for (const StudyMethod* m : methods) {
-        const SummaryRow* r = lookup.find(*a, m->name);
+        const SummaryRow* r = lookup.find(ref_set, *a, m->name);
         inside = inside || (r != nullptr && r->in_training == "yes");
       }
       if (inside) {
@@ -222,10 +533,10 @@ std::string write_study_report(const ReportInputs& in) {
         plot.y_label = metric_label(metric);
         for (const StudyMethod* m : methods) {
           PlotSeries s;
-          s.name = m->name;
+          s.name = lambda_rule(*m, *parse_modality(modality)) == "oracle" ? m->name + " [" + kOracleMark + "]" : m->name;
           s.dashed = m->learned();
           for (const Acquisition* a : line) {
-            const SummaryRow* r = lookup.find(*a, m->name);
+            const SummaryRow* r = lookup.find(ref_set, *a, m->name);
             s.x.push_back(std::strtod(axis_value(*a, axis).c_str(), nullptr));
             s.y.push_back(r ? r->mean[metric_index(metric)] : std::nan(""));
             s.marked.push_back(r != nullptr && r->in_training == "yes");
@@ -239,10 +550,10 @@ std::string write_study_report(const ReportInputs& in) {
         write_png_plot(fig_dir + "/" + png, plot);
         std::string legend;
         for (size_t k = 0; k < methods.size(); ++k)
-          legend += (k ? ", " : "") + std::to_string(k + 1) + " " + methods[k]->name;
+          legend += (k ? ", " : "") + std::to_string(k + 1) + " " + plot.series[k].name;
         ++figure;
         h += "<figure>" + svg + "<figcaption>Figure " + std::to_string(figure) + ": " + html_escape(plot.title) +
-             "; mean over phantoms and repetitions; other axes: " + html_escape(fixed) + " (figures/" + name +
+             "; objects " + html_escape(ref_set) + ", mean over objects and repetitions; other axes: " + html_escape(fixed) + " (figures/" + name +
              "; PNG copy figures/" + png + " with numbered legend: " + html_escape(legend) +
              ").</figcaption></figure>\n";
       }
@@ -263,7 +574,11 @@ std::string write_study_report(const ReportInputs& in) {
       const Index up = std::max<Index>(1, std::min<Index>(4, 160 / std::max(ny, nx)));
       const Index th = ny * up, tw = nx * up, gap = 4;
       const Index cols = Index(methods.size()) + 1;
-      ImageF mont = ImageF::Ones(2 * th + gap, cols * tw + (cols - 1) * gap);
+      const Index bar_w = 14;  // error colour bar right of the error row
+      ImageF mont = ImageF::Ones(2 * th + gap, cols * tw + (cols - 1) * gap + 2 * gap + bar_w);
+      for (Index y = 0; y < th; ++y)
+        for (Index x = 0; x < bar_w; ++x)
+          mont(th + gap + y, cols * tw + (cols - 1) * gap + 2 * gap + x) = float(1.0 - double(y) / double(th - 1));
       auto put = [&](const ImageF& img, Index row, Index col, bool error) {
         for (Index y = 0; y < th; ++y)
           for (Index x = 0; x < tw; ++x) {
@@ -275,6 +590,12 @@ std::string write_study_report(const ReportInputs& in) {
       put(truth, 0, 0, false);
       put(truth, 1, 0, true);  // zero error: a black reference tile
       std::string caption = "columns: truth";
+      auto tile_label = [&](const std::string& text) {
+        return "<span style=\"display:inline-block;vertical-align:bottom;width:" + std::to_string(tw) +
+               "px;margin-right:" + std::to_string(gap) + "px;font-size:11px;overflow-wrap:anywhere\">" + text +
+               "</span>";
+      };
+      std::string labels = tile_label("truth");
       for (size_t k = 0; k < methods.size(); ++k) {
         const std::string key = c.phantoms.front().label + "|" + a->key() + "|" + methods[k]->name + "|r0";
         const std::string path = study_image_path(in.dir, key);
@@ -284,10 +605,15 @@ std::string write_study_report(const ReportInputs& in) {
           const ImageF img = read_image(path);
           put(img, 0, Index(k) + 1, false);
           put(img, 1, Index(k) + 1, true);
-          caption += " (PSNR " + format_sig(std::strtod(results.cell(it->second, "psnr").c_str(), nullptr), 4) +
-                     " dB, SSIM " + format_sig(std::strtod(results.cell(it->second, "ssim").c_str(), nullptr), 3) + ")";
+          const double tp = std::strtod(results.cell(it->second, "psnr").c_str(), nullptr);
+          caption += " (PSNR " + format_sig(tp, 4) + " dB, SSIM " +
+                     format_sig(std::strtod(results.cell(it->second, "ssim").c_str(), nullptr), 3) + ")";
+          labels += tile_label("<b>" + html_escape(methods[k]->name) + "</b>" +
+                               (lambda_rule(*methods[k], *parse_modality(modality)) == "oracle" ? " <span class=\"oracle\">[" + std::string(kOracleMark) + "]</span>" : std::string()) +
+                               "<br>PSNR " + val("psnr", tp) + " dB");
         } else {
           caption += " (failed or missing)";
+          labels += tile_label("<b>" + html_escape(methods[k]->name) + "</b><br>failed or missing");
         }
       }
       const std::string name = "montage-" + modality + "-" + std::to_string(mi++) + ".png";
@@ -297,10 +623,13 @@ std::string write_study_report(const ReportInputs& in) {
       w.hi = 1.0;
       write_png(fig_dir + "/" + name, mont, w);
       ++figure;
-      h += "<figure>" + embed_png(fig_dir + "/" + name, "montage " + a->key(), "montage") + "<figcaption>Figure " +
+      h += "<figure><div>" + labels + "</div>" + embed_png(fig_dir + "/" + name, "montage " + a->key(), "montage") +
+           "<div style=\"font-size:11px\">error colour bar (right of the bottom row): black 0, white &ge; " +
+           format_sig(err_hi, 3) + "</div><figcaption>Figure " +
            std::to_string(figure) + ": " + html_escape(a->key()) + ". Top: " + html_escape(caption) +
            "; window [" + format_sig(lo, 3) + ", " + format_sig(hi, 3) + "]. Bottom: |reconstruction - truth| at the "
-           "common window [0, " + format_sig(err_hi, 3) + "] (figures/" + name + ").</figcaption></figure>\n";
+           "common window [0, " + format_sig(err_hi, 3) + "], colour bar at the right (figures/" + name +
+           ").</figcaption></figure>\n";
     }
   }
 

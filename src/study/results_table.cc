@@ -12,9 +12,9 @@ namespace recofold {
 
 const std::vector<std::string>& result_columns() {
   static const std::vector<std::string> cols = [] {
-    std::vector<std::string> c = {"case", "phantom", "modality", "method", "prior"};
+    std::vector<std::string> c = {"case", "phantom", "object_set", "modality", "method", "prior"};
     for (const auto& a : acquisition_axes()) c.push_back(a);
-    for (const char* k : {"repetition", "lambda", "psnr", "ssim", "nrmse", "hfen", "time", "iterations",
+    for (const char* k : {"repetition", "lambda", "lambda_rule", "psnr", "ssim", "nrmse", "hfen", "time", "iterations",
                           "in_training_conditions", "error"})
       c.push_back(k);
     return c;
@@ -28,15 +28,28 @@ std::string result_header() {
   return s;
 }
 
+std::string lambda_rule(const StudyMethod& m, Modality modality) {
+  if (m.learned()) return "learned";
+  if (m.prior_name(modality) == "none") return "none";
+  const ReconSpec d = m.spec.with_defaults(modality);
+  if (d.lambda.rule == LambdaRule::kOracle) return "oracle";
+  if (d.lambda.mode == LambdaMode::kValue) return "fixed";
+  return "auto";
+}
+
+std::string object_set(const StudyPhantom& p) { return p.family.empty() ? p.label : p.family; }
+
 std::string format_result_row(const StudyConfig& config, const CaseGrid& grid, const StudyCase& c,
                               const CaseOutcome& o) {
   const Acquisition& a = grid.acquisitions[size_t(c.acquisition)];
   const StudyMethod& m = config.methods[size_t(c.method)];
-  std::vector<std::string> cells = {c.key, config.phantoms[size_t(c.phantom)].label,
-                                    std::string(to_string(a.modality)), m.name, m.prior_name(a.modality)};
+  const StudyPhantom& p = config.phantoms[size_t(c.phantom)];
+  std::vector<std::string> cells = {c.key, p.label, object_set(p), std::string(to_string(a.modality)), m.name,
+                                    m.prior_name(a.modality)};
   for (const auto& axis : acquisition_axes()) cells.push_back(axis_value(a, axis));
   cells.push_back(std::to_string(c.repetition));
   cells.push_back(std::isnan(o.lambda) ? "" : format_sig(o.lambda, 6));
+  cells.push_back(lambda_rule(m, a.modality));
   if (o.ok) {
     cells.push_back(format_sig(o.scores.psnr, 8));
     cells.push_back(format_sig(o.scores.ssim, 8));

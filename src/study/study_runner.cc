@@ -25,6 +25,7 @@
 #include "recofold/study/case_runner.h"
 #include "recofold/study/folder_lock.h"
 #include "recofold/study/learned_models.h"
+#include "recofold/study/comparisons.h"
 #include "recofold/study/report.h"
 #include "recofold/study/results_table.h"
 #include "recofold/study/summary.h"
@@ -146,12 +147,15 @@ void finish_outputs(const std::string& dir, const StudyConfig& config, const Cas
   const std::vector<SummaryRow> summary = summarize(table);
   write_text_atomic(dir + "/summary.csv", summary_csv(summary));
   s.summary_path = dir + "/summary.csv";
+  const std::vector<ComparisonRow> comparisons = compare_methods(summary, config.metrics);
+  write_text_atomic(dir + "/comparisons.csv", comparisons_csv(comparisons));
   ReportInputs in;
   in.dir = dir;
   in.config = &config;
   in.grid = &grid;
   in.results = &table;
   in.summary = &summary;
+  in.comparisons = &comparisons;
   in.learned = learned;
   s.report_path = write_study_report(in);
 }

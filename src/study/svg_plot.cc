@@ -45,8 +45,15 @@ std::string series_colour(size_t i) {
 }
 
 std::string svg_line_plot(const LinePlot& p) {
-  const double left = 64, right = 170, top = 34, bottom = 48;
-  const double w = p.width, h = p.height, pw = w - left - right, ph = h - top - bottom;
+  // The legend column is as wide as its longest label (about 0.62 em per
+  // character at the 13 px default font, 11 px for the ring label), so no
+  // legend text is clipped; the plot area keeps its width.
+  size_t longest = 0;
+  for (const auto& s : p.series) longest = std::max(longest, s.name.size());
+  const double legend_w = std::max(40.0 + 8.1 * double(longest), 40.0 + 6.9 * double(p.marked_label.size())) + 12.0;
+  const double left = 64, right = std::max(170.0, legend_w), top = 34, bottom = 48;
+  const double w = double(p.width) - 170.0 + right, h = p.height, pw = w - left - right, ph = h - top - bottom;
+  const int width_px = int(std::ceil(w));
   double xmin = std::numeric_limits<double>::infinity(), xmax = -xmin, ymin = xmin, ymax = -xmin;
   std::vector<double> xs;
   for (const auto& s : p.series)
@@ -58,8 +65,8 @@ std::string svg_line_plot(const LinePlot& p) {
       ymax = std::max(ymax, s.y[i]);
       xs.push_back(s.x[i]);
     }
-  std::string o = "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"" + std::to_string(p.width) + "\" height=\"" +
-                  std::to_string(p.height) + "\" viewBox=\"0 0 " + std::to_string(p.width) + " " +
+  std::string o = "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"" + std::to_string(width_px) + "\" height=\"" +
+                  std::to_string(p.height) + "\" viewBox=\"0 0 " + std::to_string(width_px) + " " +
                   std::to_string(p.height) + "\" font-family=\"sans-serif\" font-size=\"12\">\n";
   o += "<rect x=\"0\" y=\"0\" width=\"" + num(w) + "\" height=\"" + num(h) + "\" fill=\"white\"/>\n";
   o += "<text x=\"" + num(left + pw / 2) + "\" y=\"20\" text-anchor=\"middle\" font-size=\"14\">" +

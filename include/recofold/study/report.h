@@ -2,8 +2,13 @@
 // The study report: one self-contained HTML page with tables, SVG plots and PNG montages.
 //
 // report.html holds, in order: the research-use line (SAFETY.md), the study
-// name and provenance, notes, a table of methods x conditions (mean +- std
-// of the config's metrics), plots of PSNR and SSIM against every acquisition
+// name, <section id="findings"> (per condition the best method and its
+// margin over the runner-up with the 95 % interval of the paired difference
+// and the Wilcoxon p-value, or "no significant difference"; each learned
+// method against the best classical one), provenance, notes, a table of
+// methods x conditions (mean, 95 % interval, per-repetition points; best
+// mean per metric and row in bold; oracle-tuned methods marked "oracle (uses
+// the ground truth)"), plots of PSNR and SSIM against every acquisition
 // axis with more than one value (one line per method; the other axes held at
 // a reference value, points inside a learned method's training conditions
 // ringed), a montage per condition (truth, each method's reconstruction and
@@ -25,6 +30,7 @@
 namespace recofold {
 
 class LearnedModelSet;
+struct ComparisonRow;
 
 struct ReportInputs {
   std::string dir;                                // study folder (images/ are read from it)
@@ -32,6 +38,7 @@ struct ReportInputs {
   const CaseGrid* grid = nullptr;
   const ResultsTable* results = nullptr;
   const std::vector<SummaryRow>* summary = nullptr;
+  const std::vector<ComparisonRow>* comparisons = nullptr;  // may be null (no findings then)
   const LearnedModelSet* learned = nullptr;       // may be null (merged folders)
 };
 

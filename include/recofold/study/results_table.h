@@ -3,9 +3,16 @@
 //
 // Columns, in order:
 //   case                    unique case key (case_grid.h)
-//   phantom, modality, method, prior
+//   phantom                 object label ("qc-disk", "textured-7-3")
+//   object_set              what the summary pools over: the table label, or the family name
+//   modality, method, prior
 //   pattern, accel, coils, noise, views, arc, photons   acquisition axes (blank for the other modality)
 //   repetition, lambda      lambda: the prior weight used (blank when none)
+//   lambda_rule             how lambda was chosen: auto (from the data alone: discrepancy
+//                           principle, CT held-out views), fixed (the config's value),
+//                           oracle (best PSNR against the truth over the config's list:
+//                           uses the ground truth, no real scan allows it), none (no
+//                           prior), learned (weights of a trained model)
 //   psnr, ssim, nrmse, hfen the metrics under the names `score --json` uses
 //   time                    reconstruction wall time of the case, seconds
 //   iterations              solver iterations (0 for direct methods)
@@ -25,6 +32,11 @@
 namespace recofold {
 
 const std::vector<std::string>& result_columns();
+// The lambda_rule of a method on a modality (auto, fixed, oracle, none,
+// learned; after the spec's defaults) and the
+// object_set of a phantom (table label or family name).
+std::string lambda_rule(const StudyMethod& method, Modality modality);
+std::string object_set(const StudyPhantom& phantom);
 // The header line (no newline).
 std::string result_header();
 // One row (no newline) for a case and its outcome.
