@@ -46,5 +46,9 @@ fuzz: deps
 demo: build
 	@bash scripts/demo.sh $(BUILD)/recofold $(DEMO_OUT)
 
+# Every side-by-side benchmark -> bench/results.json + bench/results.md (idle machine; see bench/README.md).
+bench: build
+	@/usr/bin/python3 bench/run_all.py $(BUILD)
+
 clean:
 	rm -rf $(BUILD) $(SAN_BUILD) $(FUZZ_BUILD) $(DEMO_OUT)

@@ -30,6 +30,26 @@ std::string FiniteDifference::name() const {
          std::to_string(shape_[1]);
 }
 
+bool FiniteDifference::absolute_sums(VecF& row_sums, VecF& column_sums) const {
+  const Index ny = shape_[0], nx = shape_[1];
+  const bool periodic = boundary_ == DiffBoundary::kPeriodic;
+  // Along an axis of length n, position i: its own difference has entries
+  // (+1 at i+1, -1 at i) unless it is the Neumann last row or n == 1 (the
+  // periodic self-difference is 0); position i is the +1 of the difference
+  // at i-1 (or, periodic, at n-1 for i = 0).
+  auto own = [periodic](Index i, Index n) { return n > 1 && (i < n - 1 || periodic); };
+  auto received = [periodic](Index i, Index n) { return n > 1 && (i > 0 || periodic); };
+  row_sums.resize(2 * ny * nx);
+  column_sums.resize(ny * nx);
+  for (Index r = 0; r < ny; ++r)
+    for (Index c = 0; c < nx; ++c) {
+      row_sums[r * nx + c] = own(r, ny) ? 2.0f : 0.0f;
+      row_sums[ny * nx + r * nx + c] = own(c, nx) ? 2.0f : 0.0f;
+      column_sums[r * nx + c] = float(int(own(r, ny)) + int(received(r, ny)) + int(own(c, nx)) + int(received(c, nx)));
+    }
+  return true;
+}
+
 namespace {
 
 constexpr Index kParallelPixels = 65536;  // OpenMP from 256^2 up

@@ -376,6 +376,18 @@ void JosephProjector::back_project_rays(const float* sinogram, float* rows, floa
   }
 }
 
+bool JosephProjector::absolute_sums(VecF& row_sums, VecF& column_sums) const {
+  row_sums.resize(range_size());
+  column_sums.resize(domain_size());
+  const std::vector<float> ones_image(static_cast<size_t>(domain_size()), 1.0f);
+  const std::vector<float> ones_sinogram(static_cast<size_t>(range_size()), 1.0f);
+  project(ones_image.data(), row_sums.data());
+  back_project(ones_sinogram.data(), column_sums.data());
+  row_sums = row_sums.cwiseAbs();
+  column_sums = column_sums.cwiseAbs();
+  return true;
+}
+
 void JosephProjector::apply(const VecC& x, VecC& y) const {
   RECOFOLD_CHECK(x.size() == domain_size()) << "Joseph apply: input size " << x.size() << ", domain " << domain_size();
   const Index n = x.size(), m = range_size();

@@ -143,6 +143,11 @@ class IdentityOperator final : public LinearOperator {
   Index domain_size() const override { return shape_.size(); }
   Index range_size() const override { return shape_.size(); }
   std::string name() const override { return "identity " + shape_.to_string(); }
+  bool absolute_sums(VecF& row_sums, VecF& column_sums) const override {
+    row_sums.setOnes(shape_.size());
+    column_sums.setOnes(shape_.size());
+    return true;
+  }
 
  private:
   Shape shape_;

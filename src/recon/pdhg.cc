@@ -21,6 +21,8 @@ std::vector<std::string> PdhgOptions::validate() const {
                 "; set both > 0 or neither");
   if (!(balance > 0.0) || !std::isfinite(balance))
     e.push_back("pdhg.balance = " + std::to_string(balance) + "; must be finite and > 0");
+  if (!(diagonal_balance > 0.0) || !std::isfinite(diagonal_balance))
+    e.push_back("pdhg.diagonal_balance = " + std::to_string(diagonal_balance) + "; must be finite and > 0");
   if (power_iterations < 1)
     e.push_back("pdhg.power_iterations = " + std::to_string(power_iterations) + "; must be >= 1");
   if (!(relative_tolerance >= 0.0) || !std::isfinite(relative_tolerance))
@@ -44,25 +46,64 @@ SolverSummary solve_pdhg(const PdhgOptions& options, const LinearOperator& a, co
   summary.solver = "pdhg";
   internal::Stopwatch total, lap;
 
-  const double na = std::max(estimate_norm_squared(a, options.power_iterations, 1), 1e-30);
-  const double nk = k_op ? std::max(estimate_norm_squared(*k_op, options.power_iterations, 2), 1e-30) : 0.0;
-  double tau, sa, sk;
-  if (options.tau > 0.0) {
-    tau = options.tau;
-    sa = sk = options.sigma;
-    // The power iteration under-estimates; keep a small margin.
-    if (!(tau * options.sigma * 1.01 * (na + nk) < 1.0))
-      throw InputError("", "pdhg.tau",
-                       "tau * sigma * ||K||^2 = " + std::to_string(tau * options.sigma * (na + nk)) +
-                           " (with a 1 % margin for the norm estimate) must be < 1");
-  } else {
-    const double b = options.balance;
-    sa = b / (1.01 * na);
-    sk = k_op ? b / (1.01 * nk) : 0.0;
-    tau = 0.99 / ((k_op ? 2.0 : 1.0) * b);
+  // Diagonal steps when asked for (or automatic) and both operators know
+  // the sums of their absolute entries.
+  VecF sig_a_diag, tau_diag, sig_a_inv1, k_rows, k_cols;
+  bool diagonal = false;
+  if (options.tau <= 0.0 && options.preconditioning != PdhgPreconditioning::kScalar) {
+    diagonal = a.absolute_sums(sig_a_diag, tau_diag) && (!k_op || k_op->absolute_sums(k_rows, k_cols));
+    if (!diagonal && options.preconditioning == PdhgPreconditioning::kDiagonal)
+      throw InputError("", "pdhg.preconditioning",
+                       "diagonal steps need the sums of absolute entries, which '" + a.name() + "'" +
+                           (k_op ? " or '" + k_op->name() + "'" : std::string()) + " cannot report");
   }
+  double na = 0.0, nk = 0.0, tau = 0.0, sa = 0.0, sk = 0.0, tau_min = 0.0, sa_min = 0.0;
+  if (diagonal) {
+    // Block weights: each block scaled by b over a bound of its norm.
+    const double b = options.diagonal_balance;
+    const double a_rows = sig_a_diag.size() ? double(sig_a_diag.maxCoeff()) : 0.0;
+    const double a_cols = tau_diag.size() ? double(tau_diag.maxCoeff()) : 0.0;
+    const double bound_a = std::sqrt(a_rows * a_cols);  // Schur's bound on ||A||
+    const double k_max_row = k_op && k_rows.size() ? double(k_rows.maxCoeff()) : 0.0;
+    const double k_max_col = k_op && k_cols.size() ? double(k_cols.maxCoeff()) : 0.0;
+    const double bound_k = std::sqrt(k_max_row * k_max_col);
+    const float wa = static_cast<float>(bound_a > 0.0 ? b / bound_a : b);
+    const float wk = static_cast<float>(bound_k > 0.0 ? b / bound_k : b);
+    tau_diag *= wa;
+    if (k_op) tau_diag += wk * k_cols;
+    for (Index j = 0; j < tau_diag.size(); ++j) tau_diag[j] = tau_diag[j] > 0.f ? 0.99f / tau_diag[j] : 0.99f / float(b);
+    for (Index i = 0; i < sig_a_diag.size(); ++i) sig_a_diag[i] = sig_a_diag[i] > 0.f ? wa / sig_a_diag[i] : wa;
+    sig_a_inv1 = (1.f + sig_a_diag.array()).inverse().matrix();
+    sk = k_op ? (k_max_row > 0.0 ? wk / k_max_row : double(wk)) : 0.0;
+    tau = tau_diag.size() ? tau_diag.maxCoeff() : 0.0;
+    tau_min = tau_diag.size() ? tau_diag.minCoeff() : 0.0;
+    sa = sig_a_diag.size() ? sig_a_diag.maxCoeff() : 0.0;
+    sa_min = sig_a_diag.size() ? sig_a_diag.minCoeff() : 0.0;
+  } else {
+    na = std::max(estimate_norm_squared(a, options.power_iterations, 1), 1e-30);
+    nk = k_op ? std::max(estimate_norm_squared(*k_op, options.power_iterations, 2), 1e-30) : 0.0;
+    if (options.tau > 0.0) {
+      tau = options.tau;
+      sa = sk = options.sigma;
+      // The power iteration under-estimates; keep a small margin.
+      if (!(tau * options.sigma * 1.01 * (na + nk) < 1.0))
+        throw InputError("", "pdhg.tau",
+                         "tau * sigma * ||K||^2 = " + std::to_string(tau * options.sigma * (na + nk)) +
+                             " (with a 1 % margin for the norm estimate) must be < 1");
+    } else {
+      const double b = options.balance;
+      sa = b / (1.01 * na);
+      sk = k_op ? b / (1.01 * nk) : 0.0;
+      tau = 0.99 / ((k_op ? 2.0 : 1.0) * b);
+    }
+    tau_min = tau;
+    sa_min = sa;
+  }
+  summary.values["diagonal"] = diagonal ? 1.0 : 0.0;
   summary.values["tau"] = tau;
+  summary.values["tau_min"] = tau_min;
   summary.values["sigma_a"] = sa;
+  summary.values["sigma_a_min"] = sa_min;
   summary.values["sigma_k"] = sk;
   summary.values["norm_a_squared"] = na;
   summary.values["norm_k_squared"] = nk;
@@ -82,7 +123,11 @@ SolverSummary solve_pdhg(const PdhgOptions& options, const LinearOperator& a, co
   for (int k = 1; k <= options.max_iterations; ++k) {
     // Dual steps at xbar.
     a.apply(xbar, ax);
-    p = (p + fsa * (ax - y)) / (1.f + fsa);
+    if (diagonal)
+      p = ((p.array() + sig_a_diag.array().cast<cfloat>() * (ax - y).array()) * sig_a_inv1.array().cast<cfloat>())
+              .matrix();
+    else
+      p = (p + fsa * (ax - y)) / (1.f + fsa);
     if (k_op) {
       k_op->apply(xbar, kx);
       w = q + fsk * kx;
@@ -96,7 +141,10 @@ SolverSummary solve_pdhg(const PdhgOptions& options, const LinearOperator& a, co
       k_op->adjoint(q, khq);
       s += khq;
     }
-    x_new = x - ftau * s;
+    if (diagonal)
+      x_new = (x.array() - tau_diag.array().cast<cfloat>() * s.array()).matrix();
+    else
+      x_new = x - ftau * s;
     if (box) box->project(x_new, x_new);
     xbar = 2.f * x_new - x;
     IterationRecord rec;

@@ -60,6 +60,9 @@ class JosephProjector final : public LinearOperator {
   Index domain_size() const override { return geometry_.ny * geometry_.nx; }
   Index range_size() const override { return geometry_.view_count() * geometry_.detector_count; }
   std::string name() const override;
+  // Every entry is a non-negative interpolation weight times |scale|, so the
+  // sums are |scale| P 1 and |scale| P^T 1 (one projection and one back-projection).
+  bool absolute_sums(VecF& row_sums, VecF& column_sums) const override;
 
   // Real-valued forms without complex copies: sinogram = scale * P image,
   // image = scale * P^T sinogram (outputs overwritten; sizes as the shapes).

@@ -34,6 +34,16 @@ class LinearOperator {
   // a Shape holds a heap-allocated vector).
   virtual Index domain_size() const { return domain_shape().size(); }
   virtual Index range_size() const { return range_shape().size(); }
+
+  // Sums of the absolute matrix entries, when the operator knows them cheaply:
+  // row_sums[i] = sum_j |A_ij| (range_size values) and column_sums[j] =
+  // sum_i |A_ij| (domain_size values). Returns false (outputs untouched) when
+  // it does not. Used for diagonal preconditioning (PDHG).
+  virtual bool absolute_sums(VecF& row_sums, VecF& column_sums) const {
+    (void)row_sums;
+    (void)column_sums;
+    return false;
+  }
 };
 
 // Result of check_adjoint: |<Ax, y> - <x, A^H y>| / (|<Ax,y>|) for random x, y.
