@@ -54,11 +54,11 @@ void run_train(const TrainFlags& f, const Context& ctx) {
   run.progress = progress.get();
   run.stop = &g_stop_training;
   run.command = ctx.command_line;
-  say(ctx, "training " + cfg.architecture.describe() + " on " + std::string(to_string(cfg.data.modality)) + " data from " + cfg.file);
+  say(ctx, "training " + (cfg.kind == "flow" ? cfg.flow.describe() : cfg.architecture.describe()) + " on " + std::string(to_string(cfg.data.modality)) + " data from " + cfg.file);
   std::cout.flush();  // the line tells a supervising process that SIGINT now checkpoints
   TrainResult r;
   try {
-    r = train_unrolled_model(cfg, run);
+    r = train_model(cfg, run);
   } catch (...) {
     sigaction(SIGINT, &old_int, nullptr);
     sigaction(SIGTERM, &old_term, nullptr);
@@ -70,9 +70,14 @@ void run_train(const TrainFlags& f, const Context& ctx) {
     throw WorkError("training interrupted after step " + std::to_string(r.steps_done) + "; checkpoint " +
                     r.checkpoint + " (continue with --resume)");
   char buf[256];
-  std::snprintf(buf, sizeof buf, "%s: %lld steps in %.1f s, validation PSNR %.2f dB (A^H y %.2f dB), SSIM %.4f%s",
-                f.out.c_str(), static_cast<long long>(r.steps_done), r.seconds, r.val_psnr_db,
-                r.val_psnr_baseline_db, r.val_ssim, r.time_limit_reached ? " (time limit reached)" : "");
+  if (cfg.kind == "flow")
+    std::snprintf(buf, sizeof buf, "%s: %lld steps in %.1f s, validation %.4f bits/dim (training batch %.4f)%s",
+                  f.out.c_str(), static_cast<long long>(r.steps_done), r.seconds, r.val_bits_per_dim,
+                  r.train_bits_per_dim, r.time_limit_reached ? " (time limit reached)" : "");
+  else
+    std::snprintf(buf, sizeof buf, "%s: %lld steps in %.1f s, validation PSNR %.2f dB (A^H y %.2f dB), SSIM %.4f%s",
+                  f.out.c_str(), static_cast<long long>(r.steps_done), r.seconds, r.val_psnr_db,
+                  r.val_psnr_baseline_db, r.val_ssim, r.time_limit_reached ? " (time limit reached)" : "");
   say(ctx, buf);
 }
 

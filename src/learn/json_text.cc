@@ -178,6 +178,27 @@ std::string json_number(double v) {
   return buf;
 }
 
+std::string write_json(const JsonValue& v) {
+  switch (v.kind) {
+    case JsonValue::Kind::kNull: return "null";
+    case JsonValue::Kind::kBool: return v.boolean ? "true" : "false";
+    case JsonValue::Kind::kNumber: return json_number(v.number);
+    case JsonValue::Kind::kString: return json_quote(v.text);
+    case JsonValue::Kind::kArray: {
+      std::string out = "[";
+      for (size_t i = 0; i < v.items.size(); ++i) out += (i ? ", " : "") + write_json(v.items[i]);
+      return out + "]";
+    }
+    case JsonValue::Kind::kObject: {
+      std::string out = "{";
+      for (size_t i = 0; i < v.members.size(); ++i)
+        out += (i ? ", " : "") + json_quote(v.members[i].first) + ": " + write_json(v.members[i].second);
+      return out + "}";
+    }
+  }
+  return "null";
+}
+
 void JsonObjectWriter::key(const std::string& k) {
   if (!body_.empty()) body_ += ", ";
   body_ += json_quote(k) + ": ";

@@ -46,6 +46,9 @@ class JsonObjectWriter {
   std::string body_;
 };
 
+// JSON text of a parsed value (compact; numbers as json_number).
+std::string write_json(const JsonValue& v);
+
 // JSON string literal of `s` (quotes and escapes).
 std::string json_quote(const std::string& s);
 // Shortest text that reads back to the same double ("%.17g", trimmed).

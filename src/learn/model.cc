@@ -57,46 +57,65 @@ void read_tensors(const H5Reader& r, const std::string& group,
   }
 }
 
-void write_model_groups(H5Writer& w, const ModelState& s) {
-  const ModelInfo& info = s.info;
-  w.write_attr("/model", "format", int64_t{1});
-  w.write_attr("/model", "architecture", s.net->architecture().to_json());
+void write_info(H5Writer& w, const ModelInfo& info) {
   w.write_attr("/model", "trained_on", info.trained_on ? info.trained_on->to_json() : std::string("{}"));
   JsonObjectWriter m;
   for (const auto& [k, v] : info.metrics) m.add(k, v);
   w.write_attr("/model", "metrics", m.str());
   w.write_attr("/model", "config", info.config_text);
-  write_tensors(w, "/model/parameters", named_parameters(s));
   w.write_attr("/provenance", "producer", info.provenance.producer);
   w.write_attr("/provenance", "command", info.provenance.command);
   w.write_attr("/provenance", "created_utc", info.provenance.created_utc);
   for (const auto& [k, v] : info.provenance.extra) w.write_attr("/provenance", k, v);
 }
 
-std::unique_ptr<ModelState> read_model_groups(const H5Reader& r) {
-  if (!r.is_group("/model") || !r.has_attr("/model", "architecture"))
-    throw InputError(r.file(), "/model", "not a recofold model file (no /model group with an architecture)");
-  auto arch = UnrolledArchitecture::from_json(r.attr_string("/model", "architecture"), r.file());
-  auto s = std::make_unique<ModelState>(arch);
+void read_info(const H5Reader& r, ModelInfo& info) {
   if (r.has_attr("/model", "trained_on")) {
     const std::string t = r.attr_string("/model", "trained_on");
-    if (t != "{}") s->info.trained_on = TrainingConditions::from_json(t, r.file());
+    if (t != "{}") info.trained_on = TrainingConditions::from_json(t, r.file());
   }
   if (r.has_attr("/model", "metrics")) {
     JsonValue v = parse_json(r.attr_string("/model", "metrics"), r.file(), "/model@metrics");
     for (const auto& [k, x] : v.members)
-      if (x.kind == JsonValue::Kind::kNumber) s->info.metrics[k] = x.number;
+      if (x.kind == JsonValue::Kind::kNumber) info.metrics[k] = x.number;
   }
-  if (r.has_attr("/model", "config")) s->info.config_text = r.attr_string("/model", "config");
+  if (r.has_attr("/model", "config")) info.config_text = r.attr_string("/model", "config");
   if (r.is_group("/provenance")) {
     for (const auto& name : r.attr_names("/provenance")) {
       const std::string v = r.attr_as_text("/provenance", name);
-      if (name == "producer") s->info.provenance.producer = v;
-      else if (name == "command") s->info.provenance.command = v;
-      else if (name == "created_utc") s->info.provenance.created_utc = v;
-      else s->info.provenance.extra[name] = v;
+      if (name == "producer") info.provenance.producer = v;
+      else if (name == "command") info.provenance.command = v;
+      else if (name == "created_utc") info.provenance.created_utc = v;
+      else info.provenance.extra[name] = v;
     }
   }
+}
+
+std::string read_model_kind(const H5Reader& r) {
+  if (!r.is_group("/model") || !r.has_attr("/model", "architecture"))
+    throw InputError(r.file(), "/model", "not a recofold model file (no /model group with an architecture)");
+  if (!r.has_attr("/model", "kind")) return "unrolled";
+  const std::string kind = r.attr_string("/model", "kind");
+  if (kind != "unrolled" && kind != "flow")
+    throw InputError(r.file(), "/model@kind", "'" + kind + "' is not one of unrolled, flow");
+  return kind;
+}
+
+void write_model_groups(H5Writer& w, const ModelState& s) {
+  w.write_attr("/model", "format", int64_t{1});
+  w.write_attr("/model", "kind", std::string("unrolled"));
+  w.write_attr("/model", "architecture", s.net->architecture().to_json());
+  write_info(w, s.info);
+  write_tensors(w, "/model/parameters", named_parameters(s));
+}
+
+std::unique_ptr<ModelState> read_model_groups(const H5Reader& r) {
+  if (read_model_kind(r) != "unrolled")
+    throw InputError(r.file(), "/model@kind",
+                     "a flow model (an image density) cannot reconstruct by itself; use it as a prior or to score images");
+  auto arch = UnrolledArchitecture::from_json(r.attr_string("/model", "architecture"), r.file());
+  auto s = std::make_unique<ModelState>(arch);
+  read_info(r, s->info);
   read_tensors(r, "/model/parameters", named_parameters(*s));
   return s;
 }
@@ -119,6 +138,11 @@ UnrolledModel::UnrolledModel(std::unique_ptr<internal::ModelState> state) : stat
 UnrolledModel::~UnrolledModel() = default;
 UnrolledModel::UnrolledModel(UnrolledModel&&) noexcept = default;
 UnrolledModel& UnrolledModel::operator=(UnrolledModel&&) noexcept = default;
+
+std::string model_file_kind(const std::string& path) {
+  H5Reader r(path);
+  return internal::read_model_kind(r);
+}
 
 UnrolledModel UnrolledModel::load(const std::string& path) {
   H5Reader r(path);

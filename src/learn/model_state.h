@@ -26,6 +26,13 @@ void write_tensors(H5Writer& w, const std::string& group,
 // match exactly; InputError(file, dataset, ...) otherwise, also for extra datasets).
 void read_tensors(const H5Reader& r, const std::string& group,
                   const std::vector<std::pair<std::string, torch::Tensor>>& tensors);
+// The model-file attributes every kind shares: /model@trained_on, @metrics,
+// @config and /provenance.
+void write_info(H5Writer& w, const ModelInfo& info);
+void read_info(const H5Reader& r, ModelInfo& info);
+// "unrolled" (also for files without /model@kind) or "flow"; InputError when
+// the file has no /model group with an architecture or an unknown kind.
+std::string read_model_kind(const H5Reader& r);
 // The /model group and /provenance of a model (used by save and by checkpoints).
 void write_model_groups(H5Writer& w, const ModelState& s);
 // Reads /model of a file into a new state (architecture, info, weights).

@@ -11,8 +11,10 @@
 #include <vector>
 
 #include "model_state.h"
+#include "train_support.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/provenance.h"
 #include "recofold/learn/model.h"
 #include "recofold/learn/training_data.h"
 #include "recofold/ops/fft.h"
@@ -25,18 +27,7 @@ using internal::PreparedBatch;
 
 constexpr uint64_t kValidationStream = 0x9E3779B97F4A7C15ull;  // validation seed = seed + this
 
-double learning_rate(const TrainOptions& o, int64_t step) {
-  double lr = o.learning_rate;
-  if (o.schedule == "cosine") {
-    const double t = double(step) / double(std::max<int64_t>(1, o.steps));
-    const double f = o.lr_final_fraction;
-    lr *= f + (1 - f) * 0.5 * (1 + std::cos(3.14159265358979323846 * t));
-  } else if (o.schedule == "step") {
-    lr *= std::pow(0.5, double(step / o.step_every));
-  }
-  if (o.warmup_steps > 0 && step < o.warmup_steps) lr *= double(step + 1) / double(o.warmup_steps);
-  return lr;
-}
+double learning_rate(const TrainOptions& o, int64_t step) { return internal::scheduled_learning_rate(o, step); }
 
 // SSIM of magnitude images [B, ny, nx] with a Gaussian window (11, sigma 1.5)
 // and peak `range` [B] (Wang et al., IEEE TIP 13, 2004); mean over valid windows.
@@ -126,7 +117,39 @@ std::string fmt(const char* f, double v) {
 
 }  // namespace
 
-uint64_t validation_seed(uint64_t seed) { return seed + kValidationStream; }
+namespace internal {
+
+double scheduled_learning_rate(const TrainOptions& o, int64_t step) {
+  double lr = o.learning_rate;
+  if (o.schedule == "cosine") {
+    const double t = double(step) / double(std::max<int64_t>(1, o.steps));
+    const double f = o.lr_final_fraction;
+    lr *= f + (1 - f) * 0.5 * (1 + std::cos(3.14159265358979323846 * t));
+  } else if (o.schedule == "step") {
+    lr *= std::pow(0.5, double(step / o.step_every));
+  }
+  if (o.warmup_steps > 0 && step < o.warmup_steps) lr *= double(step + 1) / double(o.warmup_steps);
+  return lr;
+}
+
+std::vector<SeedRange> training_seed_ranges(const TrainingConfig& cfg, int64_t steps_done) {
+  std::vector<SeedRange> out;
+  if (steps_done > 0)
+    out.push_back({"train", cfg.data.families, cfg.train.seed, 0, static_cast<uint64_t>(steps_done * cfg.train.batch - 1)});
+  out.push_back({"validation", cfg.data.families, validation_seed(cfg.train.seed), 0,
+                 static_cast<uint64_t>(cfg.train.validation_count - 1)});
+  return out;
+}
+
+std::string format_number(const char* f, double v) {
+  char b[64];
+  std::snprintf(b, sizeof b, f, v);
+  return b;
+}
+
+}  // namespace internal
+
+uint64_t validation_seed(uint64_t seed) { return (seed + kValidationStream) & ((uint64_t{1} << 53) - 1); }
 
 std::string checkpoint_path(const std::string& out) {
   std::string base = out;
@@ -153,6 +176,13 @@ TrainResult train_unrolled_model(const TrainingConfig& cfg, const TrainRun& run)
   internal::AdamState adam = internal::make_adam_state(params);
   int64_t step = 0;
   double elapsed_before = 0;
+  if (arch.prior == LearnedPriorKind::kFlow && !run.resume) {
+    // The flow prior starts from the trained flow named by model.flow_model.
+    H5Reader fr(cfg.flow_model);
+    std::vector<std::pair<std::string, torch::Tensor>> flow_params;
+    for (const auto& item : state.net->flow()->named_parameters()) flow_params.emplace_back(item.key(), item.value());
+    internal::read_tensors(fr, "/model/parameters", flow_params);
+  }
   if (run.resume) {
     if (!file_exists(result.checkpoint))
       throw InputError(result.checkpoint, "--resume", "no checkpoint to resume from");
@@ -247,6 +277,11 @@ TrainResult train_unrolled_model(const TrainingConfig& cfg, const TrainRun& run)
 
   ModelInfo& info = state.info;
   info.trained_on = cfg.data;
+  info.trained_on->seeds = internal::training_seed_ranges(cfg, step);
+  if (!cfg.flow_model.empty()) {
+    info.provenance.extra["flow_model"] = cfg.flow_model;
+    info.provenance.extra["flow_model_checksum"] = file_checksum(cfg.flow_model);
+  }
   info.config_text = cfg.text;
   info.metrics["val_psnr_db"] = result.val_psnr_db;
   info.metrics["val_ssim"] = result.val_ssim;

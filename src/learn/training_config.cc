@@ -9,6 +9,7 @@
 #include "json_text.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/io/h5_file.h"
 #include "recofold/phantom/family.h"
 #include "recofold/sampling/mask.h"
 
@@ -132,6 +133,19 @@ std::string TrainingConditions::to_json() const {
   }
   w.add("fov_mm", fov_mm);
   w.add("truth", truth);
+  if (!seeds.empty()) {
+    std::string list = "[";
+    for (size_t i = 0; i < seeds.size(); ++i) {
+      internal::JsonObjectWriter r;
+      r.add("use", seeds[i].use);
+      r.add("families", seeds[i].families);
+      r.add_raw("seed", std::to_string(seeds[i].seed));
+      r.add_raw("first", std::to_string(seeds[i].first));
+      r.add_raw("last", std::to_string(seeds[i].last));
+      list += (i ? ", " : "") + r.str();
+    }
+    w.add_raw("seeds", list + "]");
+  }
   return w.str();
 }
 
@@ -200,6 +214,30 @@ TrainingConditions TrainingConditions::from_json(const std::string& json, const 
     } else if (k == "truth") {
       if (v.kind != JsonValue::Kind::kString) throw InputError(file, field, "key 'truth' must be a string");
       c.truth = v.text;
+    } else if (k == "seeds") {
+      if (v.kind != JsonValue::Kind::kArray) throw InputError(file, field, "key 'seeds' must be a list");
+      for (const auto& item : v.items) {
+        if (item.kind != JsonValue::Kind::kObject) throw InputError(file, field, "'seeds' must list objects");
+        SeedRange r;
+        auto whole = [&](const char* key) {
+          const JsonValue* x = item.find(key);
+          if (!x || x->kind != JsonValue::Kind::kNumber || x->number < 0 || x->number != std::floor(x->number) ||
+              x->number > 9007199254740991.0)
+            throw InputError(file, field, std::string("seeds: '") + key + "' must be a whole number in 0..2^53-1");
+          return static_cast<uint64_t>(x->number);
+        };
+        const JsonValue* use = item.find("use");
+        if (!use || use->kind != JsonValue::Kind::kString) throw InputError(file, field, "seeds: 'use' must be a string");
+        r.use = use->text;
+        const JsonValue* fam = item.find("families");
+        if (!fam) throw InputError(file, field, "seeds: 'families' is missing");
+        r.families = names("seeds.families", *fam);
+        r.seed = whole("seed");
+        r.first = whole("first");
+        r.last = whole("last");
+        if (r.last < r.first) throw InputError(file, field, "seeds: 'last' must not be below 'first'");
+        c.seeds.push_back(std::move(r));
+      }
     } else {
       throw InputError(file, field, "unknown key '" + k + "'");
     }
@@ -312,7 +350,8 @@ TrainOptions TrainOptions::from_config(const Config& t) {
   o.validation_every = t.get_int_or("validation_every", o.validation_every);
   o.checkpoint_every = t.get_int_or("checkpoint_every", o.checkpoint_every);
   const int64_t seed = t.get_int_or("seed", static_cast<int64_t>(o.seed));
-  if (seed < 0) throw t.error("seed", std::to_string(seed) + "; must be >= 0");
+  if (seed < 0 || seed > (int64_t{1} << 53) - 1)
+    throw t.error("seed", std::to_string(seed) + "; must be in 0..2^53-1 (written exactly into trained_on)");
   o.seed = static_cast<uint64_t>(seed);
   o.threads = static_cast<int>(t.get_int_or("threads", o.threads));
   o.max_minutes = t.get_double_or("max_minutes", o.max_minutes);
@@ -327,13 +366,42 @@ TrainingConfig TrainingConfig::parse(const std::string& text, const std::string&
   c.file = name;
   c.text = text;
   c.data = TrainingConditions::from_config(root.table("data"));
-  c.architecture = root.has("model") ? UnrolledArchitecture::from_config(root.table("model")) : UnrolledArchitecture{};
-  c.architecture.modality = c.data.modality;
-  c.architecture.ny = c.data.ny;
-  c.architecture.nx = c.data.nx;
-  throw_all(name, "model", c.architecture.validate());
-  if (c.architecture.dc == LearnedDc::kReplace && c.data.coils_max > 1)
-    throw InputError(name, "model.dc", "replace needs single-coil data (data.coils = 1)");
+  const bool has_model = root.has("model");
+  if (has_model) {
+    const Config model = root.table("model");
+    c.kind = model.get_string_or("kind", "unrolled");
+    if (c.kind != "unrolled" && c.kind != "flow")
+      throw model.error("kind", "'" + c.kind + "' is not one of unrolled, flow");
+  }
+  if (c.kind == "flow") {
+    const Config model = root.table("model");
+    std::vector<std::string> keys = FlowArchitecture::config_keys();
+    keys.push_back("kind");
+    model.expect_only(keys);
+    c.flow = FlowArchitecture::from_config(model);
+    c.flow.ny = c.data.ny;
+    c.flow.nx = c.data.nx;
+    throw_all(name, "model", c.flow.validate());
+  } else {
+    c.architecture = has_model ? UnrolledArchitecture::from_config(root.table("model"), &c.flow_model)
+                               : UnrolledArchitecture{};
+    c.architecture.modality = c.data.modality;
+    c.architecture.ny = c.data.ny;
+    c.architecture.nx = c.data.nx;
+    if (!c.flow_model.empty()) {
+      try {
+        H5Reader r(c.flow_model);
+        if (!r.is_group("/model") || !r.has_attr("/model", "kind") || r.attr_string("/model", "kind") != "flow")
+          throw InputError(c.flow_model, "/model@kind", "not a flow model file");
+        c.architecture.flow = FlowArchitecture::from_json(r.attr_string("/model", "architecture"), c.flow_model);
+      } catch (const InputError& e) {
+        throw InputError(name, "model.flow_model", std::string("cannot use '") + c.flow_model + "': " + e.what());
+      }
+    }
+    throw_all(name, "model", c.architecture.validate());
+    if (c.architecture.dc == LearnedDc::kReplace && c.data.coils_max > 1)
+      throw InputError(name, "model.dc", "replace needs single-coil data (data.coils = 1)");
+  }
   c.train = root.has("train") ? TrainOptions::from_config(root.table("train")) : TrainOptions{};
   return c;
 }

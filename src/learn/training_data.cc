@@ -27,14 +27,42 @@ int pick_int(int lo, int hi, Rng& rng) { return lo + static_cast<int>(rng.below(
 
 }  // namespace
 
+namespace {
+
+// The example's family (first draw of the conditions stream) and object: object `index`
+// of that family with family seed `seed`, as `recofold phantom --family F
+// --seed S` and studies draw it.
+Phantom draw_object(const TrainingConditions& c, uint64_t seed, uint64_t index, Rng& rng, Family* family) {
+  *family = *parse_family(pick(c.families, rng));
+  FamilyOptions fo = family_options(*family);
+  fo.fov_mm = c.fov_mm;
+  return make_family_object(fo, seed, index);
+}
+
+// The example's own draws (family, mask, acceleration, coils, noise) come
+// from a stream apart from the object's: make_family_object draws the object
+// from Rng::for_stream(seed, index), and the same stream here would tie the
+// noise and mask seeds to the object's shape parameters.
+Rng conditions_stream(uint64_t seed, uint64_t index) {
+  constexpr uint64_t kConditionsStream = 0xD1B54A32D192ED03ull;  // any fixed odd constant
+  return Rng::for_stream(seed ^ kConditionsStream, index);
+}
+
+}  // namespace
+
+ImageF draw_training_object(const TrainingConditions& c, uint64_t seed, uint64_t index) {
+  RECOFOLD_CHECK(c.validate().empty()) << "draw_training_object with invalid conditions";
+  Rng rng = conditions_stream(seed, index);
+  Family family;
+  const ImageC image = rasterize(draw_object(c, seed, index, rng, &family), static_cast<int>(c.ny), static_cast<int>(c.nx));
+  return image.real();
+}
+
 Measurement draw_training_example(const TrainingConditions& c, uint64_t seed, uint64_t index) {
   RECOFOLD_CHECK(c.validate().empty()) << "draw_training_example with invalid conditions";
-  Rng rng = Rng::for_stream(seed, index);
-  const Family family = *parse_family(pick(c.families, rng));
-  FamilyOptions fo = family_options(family);
-  fo.fov_mm = c.fov_mm;
-  const uint64_t phantom_seed = rng.next_u64();
-  const Phantom object = make_family_object(fo, phantom_seed, index);
+  Rng rng = conditions_stream(seed, index);
+  Family family;
+  const Phantom object = draw_object(c, seed, index, rng, &family);
   const ImageC image = rasterize(object, static_cast<int>(c.ny), static_cast<int>(c.nx));
   const double pixel_mm = c.fov_mm / double(c.nx);
   const bool analytic = c.truth == "analytic";

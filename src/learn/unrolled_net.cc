@@ -4,6 +4,7 @@
 
 #include <cmath>
 
+#include "learned_tv.h"
 #include "recofold/core/error.h"
 #include "recofold/ops/fourier.h"
 #include "recofold/ops/joseph_projector.h"
@@ -94,6 +95,20 @@ UnrolledNetImpl::UnrolledNetImpl(const UnrolledArchitecture& arch) : arch_(arch)
       }
       cnn_.push_back(register_module("cnn" + std::to_string(k), seq));
     }
+  } else if (arch.prior == LearnedPriorKind::kUnet) {
+    const int nets = arch.shared_weights ? 1 : k_count;
+    for (int k = 0; k < nets; ++k)
+      unet_.push_back(register_module("unet" + std::to_string(k),
+                                      UNet(2, 2, arch.depth, arch.width, arch.skips, arch.zero_last_layer)));
+  } else if (arch.prior == LearnedPriorKind::kTv) {
+    tv_log_theta_ = register_parameter("tv_log_theta", torch::full({k_count}, std::log(arch.init_threshold)));
+  } else if (arch.prior == LearnedPriorKind::kFlow) {
+    RECOFOLD_CHECK(arch.flow.has_value()) << "prior flow without a flow architecture";
+    flow_ = register_module("flow", FlowNet(*arch.flow));
+    if (!arch.flow_finetune)
+      for (auto& p : flow_->parameters()) p.set_requires_grad(false);
+    flow_log_step_ = register_parameter("flow_log_step", torch::full({k_count}, std::log(arch.init_flow_step)));
+    flow_log_lambda_ = register_parameter("flow_log_lambda", torch::full({k_count}, std::log(arch.init_flow_lambda)));
   } else {
     auto w = std::make_shared<WaveletTransform>(Shape{arch.ny, arch.nx}, *parse_wavelet(arch.wavelet), arch.levels);
     const std::vector<int> bands = w->band_index();
@@ -112,14 +127,48 @@ UnrolledNetImpl::UnrolledNetImpl(const UnrolledArchitecture& arch) : arch_(arch)
 
 torch::Tensor UnrolledNetImpl::mu(int k) const { return torch::exp(dc_log_mu_.index({k})); }
 
+const OperatorBatch& UnrolledNetImpl::wavelet_batch(int64_t size) {
+  std::lock_guard<std::mutex> lock(wavelet_mutex_);
+  auto it = wavelet_batches_.find(size);
+  if (it != wavelet_batches_.end()) return it->second;
+  OperatorBatch wb = wavelet_;
+  wb.ops.assign(static_cast<size_t>(size), wavelet_.ops[0]);
+  wb.scale.assign(static_cast<size_t>(size), 1.0f);
+  return wavelet_batches_.emplace(size, std::move(wb)).first->second;
+}
+
+torch::Tensor UnrolledNetImpl::flow_prior_step(int k, const torch::Tensor& x) {
+  // Training (autograd on) keeps the graph of each gradient so the loss
+  // reaches eta, lambda (and the flow's weights when fine-tuned) through it;
+  // inference only needs the gradient values.
+  const bool keep_graph = torch::GradMode::is_enabled();
+  torch::AutoGradMode enable(true);
+  const torch::Tensor eta = torch::exp(flow_log_step_.index({k}));
+  const torch::Tensor lambda = torch::exp(flow_log_lambda_.index({k}));
+  const double inv_var = 1.0 / (arch_.flow->imag_sigma * arch_.flow->imag_sigma);
+  using torch::indexing::Slice;
+  torch::Tensor z = x;
+  for (int s = 0; s < arch_.flow_steps; ++s) {
+    torch::Tensor re = z.index({Slice(), Slice(0, 1)});
+    if (!re.requires_grad()) re = re.detach().requires_grad_(true);
+    torch::Tensor nll = -flow_->log_prob(re).sum();
+    torch::Tensor g_re = torch::autograd::grad({nll}, {re}, {}, keep_graph, keep_graph)[0];
+    torch::Tensor g = torch::cat({g_re, z.index({Slice(), Slice(1, 2)}) * inv_var}, 1);
+    z = z - eta * ((z - x) + lambda * g);
+    if (!keep_graph) z = z.detach();
+  }
+  return z;
+}
+
 torch::Tensor UnrolledNetImpl::prior_step(int k, const torch::Tensor& x) {
-  if (arch_.prior == LearnedPriorKind::kCnn) return x + cnn_[arch_.shared_weights ? 0 : static_cast<size_t>(k)]->forward(x);
+  const size_t net = arch_.shared_weights ? 0 : static_cast<size_t>(k);
+  if (arch_.prior == LearnedPriorKind::kCnn) return x + cnn_[net]->forward(x);
+  if (arch_.prior == LearnedPriorKind::kUnet) return x + unet_[net]->forward(x);
+  if (arch_.prior == LearnedPriorKind::kTv) return tv_prox(x, torch::exp(tv_log_theta_.index({k})), arch_.tv_iterations);
+  if (arch_.prior == LearnedPriorKind::kFlow) return flow_prior_step(k, x);
   // z = W^H soft(W x, theta[band]); the wavelet operator is shared by the
   // whole batch, so the batch is folded into the bridge's batch of one.
-  const int64_t nb = x.size(0);
-  OperatorBatch wb = wavelet_;
-  wb.ops.assign(static_cast<size_t>(nb), wavelet_.ops[0]);
-  wb.scale.assign(static_cast<size_t>(nb), 1.0f);
+  const OperatorBatch& wb = wavelet_batch(x.size(0));
   torch::Tensor c = op_apply(x, wb);  // [B, 2, n]
   torch::Tensor theta = torch::exp(log_threshold_.index({k})).index_select(0, band_index_);  // [n]
   torch::Tensor mag = torch::sqrt(c.pow(2).sum(1, true) + 1e-12f);

@@ -4,13 +4,17 @@
 
 #include <torch/torch.h>
 
+#include <map>
+#include <mutex>
 #include <string>
 #include <vector>
 
 #include "recofold/core/measurement.h"
 #include "recofold/learn/architecture.h"
+#include "flow_net.h"
 #include "recofold/ops/wavelet.h"
 #include "torch_bridge.h"
+#include "unet.h"
 
 namespace recofold::internal {
 
@@ -32,8 +36,10 @@ PreparedBatch prepare_batch(const std::vector<const Measurement*>& measurements,
 
 // K x (prior step, data-consistency step), architecture.h. Parameter names
 // (the model file's dataset names): cnn<k>.<layer>.weight / .bias (k = 0
-// when shared; layers are the Sequential's indices), dc_step [K] (gradient),
-// dc_log_mu [K] (cg: mu_k = exp), wavelet_log_threshold [K, bands].
+// when shared; layers are the Sequential's indices), unet<k>.<unet.h names>,
+// dc_step [K] (gradient), dc_log_mu [K + 1] (cg: mu_k = exp; the last entry
+// is the initial solve's), wavelet_log_threshold [K, bands], tv_log_theta [K],
+// flow_log_step [K], flow_log_lambda [K] and flow.<flow_net.h names>.
 class UnrolledNetImpl : public torch::nn::Module {
  public:
   explicit UnrolledNetImpl(const UnrolledArchitecture& arch);
@@ -42,15 +48,27 @@ class UnrolledNetImpl : public torch::nn::Module {
   torch::Tensor forward(const torch::Tensor& data, const OperatorBatch& ops);
 
   const UnrolledArchitecture& architecture() const { return arch_; }
+  // The flow of prior "flow" (null otherwise), e.g. to load a trained flow's weights.
+  FlowNet flow() const { return flow_; }
+
+  torch::Tensor prior_step(int k, const torch::Tensor& x);
 
  private:
-  torch::Tensor prior_step(int k, const torch::Tensor& x);
+  torch::Tensor flow_prior_step(int k, const torch::Tensor& x);
   torch::Tensor mu(int k) const;
 
   UnrolledArchitecture arch_;
   std::vector<torch::nn::Sequential> cnn_;
-  torch::Tensor dc_step_, dc_log_mu_, log_threshold_;
-  OperatorBatch wavelet_;          // the wavelet transform as a batch of one
+  std::vector<UNet> unet_;
+  FlowNet flow_{nullptr};
+  torch::Tensor dc_step_, dc_log_mu_, log_threshold_, tv_log_theta_, flow_log_step_, flow_log_lambda_;
+  // The wavelet transform as a batch of one, and as batches of B (the
+  // autograd graph keeps a pointer to the batch, so each lives as long as the
+  // module; map nodes do not move).
+  OperatorBatch wavelet_;
+  const OperatorBatch& wavelet_batch(int64_t size);
+  std::map<int64_t, OperatorBatch> wavelet_batches_;
+  std::mutex wavelet_mutex_;
   torch::Tensor band_index_;       // [ny*nx] int64: sub-band of each coefficient
 };
 TORCH_MODULE(UnrolledNet);

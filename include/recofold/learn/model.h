@@ -25,6 +25,10 @@ struct ModelInfo {
   Provenance provenance;
 };
 
+// The kind of a model file: "unrolled" or "flow". InputError(path, ...) when
+// the file is not a model file.
+std::string model_file_kind(const std::string& path);
+
 namespace internal {
 struct ModelState;  // the torch module (src/learn/model_state.h)
 }
@@ -32,7 +36,9 @@ struct ModelState;  // the torch module (src/learn/model_state.h)
 // Model file layout (HDF5, readable with h5py; ARCHITECTURE.md):
 //   /model                      group, attributes:
 //       format          int64  1
-//       architecture    string JSON of UnrolledArchitecture (architecture.h)
+//       kind            string "unrolled" (this class) or "flow" (flow_model.h);
+//                              files without it are "unrolled"
+//       architecture    string JSON of the kind's architecture (UnrolledArchitecture, architecture.h)
 //       trained_on      string JSON of TrainingConditions ("{}" when untrained)
 //       metrics         string JSON object of numbers
 //       config          string training config text ("" when none)

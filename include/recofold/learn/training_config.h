@@ -9,8 +9,21 @@
 #include "recofold/core/config.h"
 #include "recofold/core/measurement.h"
 #include "recofold/learn/architecture.h"
+#include "recofold/learn/flow_architecture.h"
 
 namespace recofold {
+
+// Objects a model has seen: objects first..last (inclusive) of the phantom
+// families `families` drawn with family seed `seed` (phantom/family.h,
+// make_family_object(options, seed, index)). Studies compare their family
+// phantoms (family, seed, index) against these ranges to keep test objects
+// held out. Seeds are below 2^53 so JSON numbers carry them exactly.
+struct SeedRange {
+  std::string use;                    // "train" | "validation"
+  std::vector<std::string> families;
+  uint64_t seed = 0;
+  uint64_t first = 0, last = 0;
+};
 
 // The conditions a model is trained on (the [data] table of a training
 // config, and the `trained_on` attribute of a model file). For every training
@@ -35,6 +48,10 @@ struct TrainingConditions {
   double mu_per_mm = 0.0;                            // "mu": attenuation per unit intensity, 1/mm; 0 = automatic
   std::string truth = "analytic";                    // "truth": "analytic" (exact data) | "discrete" (A x of the raster)
   double fov_mm = 256.0;                             // "fov_mm": field of view (> 0)
+  // Objects seen in training and validation (written by the trainers into
+  // trained_on as "seeds": [{"use", "families", "seed", "first", "last"}, ...];
+  // not a config key).
+  std::vector<SeedRange> seeds;
 
   // Every violation as "data.key = value; rule".
   std::vector<std::string> validate() const;
@@ -76,11 +93,17 @@ struct TrainOptions {
 };
 
 // A whole training config file:
-//   [model]  architecture keys (architecture.h)
+//   [model]  kind = "unrolled" (default: architecture keys of architecture.h)
+//            or kind = "flow" (flow keys of flow_architecture.h)
 //   [data]   TrainingConditions keys
 //   [train]  TrainOptions keys
 struct TrainingConfig {
-  UnrolledArchitecture architecture;
+  std::string kind = "unrolled";     // "unrolled" | "flow"
+  UnrolledArchitecture architecture;  // kind "unrolled"
+  FlowArchitecture flow;              // kind "flow"
+  // kind "unrolled" with prior "flow": the flow model file (model.flow_model)
+  // whose architecture fills architecture.flow and whose weights start training.
+  std::string flow_model;
   TrainingConditions data;
   TrainOptions train;
   std::string file;  // path it was read from

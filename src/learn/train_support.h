@@ -1,0 +1,24 @@
+// SPDX-License-Identifier: Apache-2.0
+// Pieces shared by the trainers of unrolled models and flows (private to learn).
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "recofold/learn/training_config.h"
+
+namespace recofold::internal {
+
+// Learning rate of the [train] schedule at `step` (0-based), warm-up included.
+double scheduled_learning_rate(const TrainOptions& o, int64_t step);
+
+// trained_on's seed ranges of a run: training objects 0 .. steps*batch-1 of
+// family seed train.seed and validation objects 0 .. validation_count-1 of
+// validation_seed(train.seed), for every configured family.
+std::vector<SeedRange> training_seed_ranges(const TrainingConfig& cfg, int64_t steps_done);
+
+// "12.3 ex/s"-style number formatting for status lines.
+std::string format_number(const char* format, double v);
+
+}  // namespace recofold::internal
