@@ -3,6 +3,7 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <cstdlib>
 #include <cstdio>
 #include <string>
 #include <unistd.h>
@@ -142,6 +143,27 @@ TEST(Trainer, FlowPriorModelStartsFromTheTrainedFlowAndKeepsItFrozen) {
   EXPECT_NE(m.parameter_values("flow_log_lambda"), std::vector<float>(2, float(std::log(1e-4))));
   std::remove(fr.out.c_str());
   std::remove(run.out.c_str());
+}
+
+// The shipped training configs load and describe what their comments say.
+TEST(TrainingConfig, ShippedConfigsLoadAsDescribed) {
+  const char* src = std::getenv("RECOFOLD_SOURCE_DIR");
+  ASSERT_NE(src, nullptr);
+  const std::string dir = std::string(src) + "/configs/";
+  const TrainingConfig unet = TrainingConfig::load(dir + "train-mri-unet.toml");
+  EXPECT_EQ(unet.kind, "unrolled");
+  EXPECT_EQ(unet.architecture.prior, LearnedPriorKind::kUnet);
+  EXPECT_TRUE(unet.architecture.skips);
+  EXPECT_EQ(unet.data.ny, 64);
+  const TrainingConfig tv = TrainingConfig::load(dir + "train-mri-tv-learned.toml");
+  EXPECT_EQ(tv.architecture.prior, LearnedPriorKind::kTv);
+  EXPECT_EQ(tv.architecture.iterations, 10);
+  const TrainingConfig flow = TrainingConfig::load(dir + "train-mri-flow.toml");
+  EXPECT_EQ(flow.kind, "flow");
+  EXPECT_EQ(flow.flow.ny, 64);
+  EXPECT_EQ(flow.flow.scales, 3);
+  EXPECT_EQ(flow.flow.mixing, FlowMixing::kInvConv);
+  for (const TrainingConfig* c : {&unet, &tv, &flow}) EXPECT_LE(c->train.max_minutes, 20.0) << c->file;
 }
 
 }  // namespace
