@@ -11,6 +11,7 @@
 #include "ct_cli.h"
 #include "mri_cli.h"
 #include "recofold/acquire/image_problem.h"
+#include "simulate_from_cli.h"
 #include "recofold/acquire/mri.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
@@ -28,7 +29,7 @@ const char* kImageGroup = "Inpainting (--modality inpaint)";
 const char* kNoiseGroup = "Noise (--modality mri | denoise | inpaint)";
 
 struct SimulateFlags {
-  std::string phantom, modality, truth, out, mask, pattern = "random", pixel_mask;
+  std::string phantom, modality, truth, out, mask, pattern = "random", pixel_mask, from;
   double keep = 0.5;
   int block_size = 8;
   int index = 0;
@@ -115,7 +116,13 @@ Measurement simulate_image_cli(const SimulateFlags& f, const CLI::App& sub, Moda
 }
 
 void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
+  if (!f.from.empty()) {
+    run_simulate_from(SimulateFromFlags{f.from, f.mask, f.out, f.noise, f.seed}, sub, ctx);
+    return;
+  }
   // Every check before any work: bad input leaves no output.
+  if (f.phantom.empty()) throw InputError("", "--phantom", "is required (or --from MEAS.h5 to undersample measured data)");
+  if (f.modality.empty()) throw InputError("", "--modality", "is required with --phantom (mri, ct, denoise or inpaint)");
   require_output_path(f.out, "--out", {".h5"});
   require_distinct_output(f.out, "--out", {f.phantom, f.mask});
   const std::optional<Modality> modality = parse_modality(f.modality);
@@ -224,16 +231,24 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
 
 void register_cmd_simulate(CLI::App& app, Context& ctx) {
   auto f = std::make_shared<SimulateFlags>();
-  CLI::App* sub = app.add_subcommand("simulate", "Simulate an MRI, CT, denoising or inpainting measurement of a phantom");
-  sub->add_option("--phantom", f->phantom, "Object: a phantom file from `recofold phantom`, or any image file")->required();
+  CLI::App* sub = app.add_subcommand(
+      "simulate",
+      "Simulate an MRI, CT, denoising or inpainting measurement of a phantom, or undersample measured k-space (--from)");
+  sub->add_option("--phantom", f->phantom, "Object: a phantom file from `recofold phantom`, or any image file");
+  sub->add_option("--from", f->from,
+                  "Instead of --phantom: a fully sampled MRI measurement (e.g. from `recofold import`) to undersample "
+                  "with --mask (.h5, image or sampling spec .toml, drawn on the data grid); --noise adds noise; the "
+                  "truth is the fully sampled coil-combined image (truth kind 'fully sampled')");
   sub->add_option("--index", f->index, "Object I of a phantom file holding a stack (default 0)");
-  sub->add_option("--modality", f->modality, "mri | ct | denoise (y = x + n) | inpaint (y = M x + n)")->required();
+  sub->add_option("--modality", f->modality,
+                  "mri | ct | denoise (y = x + n) | inpaint (y = M x + n) (required with --phantom)");
   sub->add_option("--truth", f->truth,
                   "analytic (exact transform/line integrals of the component table; the default when the file has "
                   "one) | discrete (from the pixels: the 'inverse crime'; the default for pixel-only objects)");
   sub->add_option("--seed", f->seed, "Seed of the noise (default 0)");
   sub->add_option("--out", f->out, "Measurement file (.h5)")->required();
-  sub->add_option("--mask", f->mask, "MRI: sampling mask (.h5 from `recofold mask`, or .png); default fully sampled")
+  sub->add_option("--mask", f->mask, "MRI: sampling mask (.h5 from `recofold mask`, or .png; with --from also a sampling spec .toml); default "
+                  "fully sampled")
       ->group(kMriGroup);
   sub->add_option("--coils", f->coils, "MRI: receive coils around the field of view, 1..32 (default 1)")->group(kMriGroup);
   sub->add_option("--noise", f->noise,
