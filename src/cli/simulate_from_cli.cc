@@ -22,7 +22,7 @@ namespace {
 
 // The mask of --mask on the data grid [ny, nx]; `note` says when a spec's size was replaced.
 SamplingMask mask_for_grid(const std::string& path, Index ny, Index nx, Provenance& prov, std::string& note) {
-  if (!file_exists(path)) throw InputError(path, "--mask", "file not found");
+  if (!file_exists(path)) throw InputError(path, "--mask", not_a_file_reason(path));
   if (file_extension(path) != ".toml") {
     SamplingMask m = read_mask_any(path, "--mask");
     if (m.mask.shape != (Shape{ny, nx}))
@@ -72,7 +72,7 @@ void run_simulate_from(const SimulateFromFlags& f, const CLI::App& sub, const Co
   if (f.mask.empty()) throw InputError("", "--mask", "--from needs --mask FILE (.h5, image or sampling spec .toml)");
   require_output_path(f.out, "--out", {".h5"});
   require_distinct_output(f.out, "--out", {f.from, f.mask});
-  if (!file_exists(f.from)) throw InputError(f.from, "--from", "file not found");
+  if (!file_exists(f.from)) throw InputError(f.from, "--from", not_a_file_reason(f.from));
   RetrospectiveOptions o;
   o.added_noise_sigma = f.noise;
   o.seed = f.seed;
