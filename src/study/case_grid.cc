@@ -72,14 +72,36 @@ uint64_t seed_of(uint64_t study_seed, const std::string& key) {
   // Keep seeds in the signed 63-bit range so they survive int64 config and file attributes.
   return rng.next_u64() >> 1;
 }
+
+// The acquisitions a measured object runs: the MRI ones, with the coils axis
+// replaced by the file's coil count (indices into g.acquisitions, appended when new).
+std::vector<size_t> measured_acquisitions(const StudyConfig& c, const StudyPhantom& p, CaseGrid& g,
+                                          size_t simulated) {
+  std::vector<size_t> out;
+  for (size_t a = 0; a < simulated; ++a) {
+    const Acquisition& acq = g.acquisitions[a];
+    if (acq.modality != Modality::kMri || acq.coils != c.mri->coils.front()) continue;
+    Acquisition m = acq;
+    m.coils = p.measured_coils;
+    size_t k = 0;
+    while (k < g.acquisitions.size() && g.acquisitions[k].key() != m.key()) ++k;
+    if (k == g.acquisitions.size()) g.acquisitions.push_back(m);
+    out.push_back(k);
+  }
+  return out;
+}
 }  // namespace
 
 CaseGrid expand_grid(const StudyConfig& c) {
   CaseGrid g;
   g.acquisitions = expand_acquisitions(c);
+  const size_t simulated = g.acquisitions.size();
+  std::vector<size_t> all(simulated);
+  for (size_t a = 0; a < simulated; ++a) all[a] = a;
   int group = 0;
-  for (size_t p = 0; p < c.phantoms.size(); ++p)
-    for (size_t a = 0; a < g.acquisitions.size(); ++a) {
+  for (size_t p = 0; p < c.phantoms.size(); ++p) {
+    const std::vector<size_t> acqs = c.phantoms[p].measured ? measured_acquisitions(c, c.phantoms[p], g, simulated) : all;
+    for (size_t a : acqs) {
       const Acquisition& acq = g.acquisitions[a];
       for (int r = 0; r < c.repetitions; ++r) {
         const std::string rep = "r" + std::to_string(r);
@@ -106,6 +128,7 @@ CaseGrid expand_grid(const StudyConfig& c) {
         if (any) ++group;
       }
     }
+  }
   g.groups = group;
   return g;
 }

@@ -6,9 +6,11 @@
 #include <cmath>
 #include <exception>
 #include <memory>
+#include <optional>
 
 #include "recofold/acquire/ct_simulation.h"
 #include "recofold/acquire/mri.h"
+#include "recofold/acquire/retrospective.h"
 #include "recofold/core/error.h"
 #include "recofold/phantom/family.h"
 #include "recofold/phantom/phantom_table.h"
@@ -49,10 +51,14 @@ ImageF image_of(const ImageC& x, bool magnitude) {
 
 CaseMeasurement simulate_case_measurement(const StudyConfig& config, const StudyPhantom& sp, const Acquisition& acq,
                                           uint64_t mask_seed, uint64_t noise_seed) {
-  const Phantom phantom = make_phantom(sp);
   const int ny = static_cast<int>(config.ny), nx = static_cast<int>(config.nx);
-  const ImageC raster = rasterize(phantom, ny, nx);
-  const double pixel = phantom.fov_mm / double(nx);
+  // Tables and families are analytic objects; an image object is its pixels
+  // (no analytic truth); a measured object is undersampled, not simulated.
+  std::optional<Phantom> phantom;
+  if (!sp.measured && !sp.pixels) phantom = make_phantom(sp);
+  const ImageC raster = phantom ? rasterize(*phantom, ny, nx) : sp.pixels ? *sp.pixels : ImageC();
+  const double pixel = phantom ? phantom->fov_mm / double(nx) : sp.pixel_spacing_mm;
+  const Phantom* analytic = phantom ? &*phantom : nullptr;
   CaseMeasurement out;
   if (acq.modality == Modality::kMri) {
     MaskOptions mo;
@@ -63,12 +69,21 @@ CaseMeasurement simulate_case_measurement(const StudyConfig& config, const Study
     mo.center_fraction = config.mri->center_fraction;
     mo.seed = mask_seed;
     const SamplingMask mask = make_mask(mo);
-    MriSimulationOptions so;
-    so.coil_array.coils = acq.coils;
-    so.noise_sigma = acq.noise;
-    so.seed = noise_seed;
-    out.measurement = simulate_mri(&phantom, raster, pixel, mask, so);
-    out.truth = image_of(raster, true);
+    if (sp.measured) {
+      RetrospectiveOptions ro;
+      ro.added_noise_sigma = acq.noise;
+      ro.seed = noise_seed;
+      out.measurement = undersample_retrospectively(*sp.measured, mask, ro, sp.measurement_path);
+      out.truth = image_of(ConstImageCMap(out.measurement.truth->ptr(), ny, nx), true);
+    } else {
+      MriSimulationOptions so;
+      so.coil_array.coils = acq.coils;
+      so.noise_sigma = acq.noise;
+      so.seed = noise_seed;
+      so.truth = analytic ? MriTruth::kAnalytic : MriTruth::kDiscrete;
+      out.measurement = simulate_mri(analytic, raster, pixel, mask, so);
+      out.truth = image_of(raster, true);
+    }
   } else {
     // Parallel beam, views equally spaced over the arc, acquire's automatic
     // detector (ct_simulation.h), as `recofold simulate` does.
@@ -77,11 +92,11 @@ CaseMeasurement simulate_case_measurement(const StudyConfig& config, const Study
     so.scan.views = acq.views;
     so.scan.arc_deg = acq.arc;
     so.mu_per_mm = config.ct->mu_per_mm;
-    so.analytic = true;
+    so.analytic = analytic != nullptr;
     so.noisy = acq.photons > 0.0;
     so.noise.photons_per_ray = acq.photons > 0.0 ? acq.photons : 1.0;
     so.seed = noise_seed;
-    out.measurement = simulate_ct(&phantom, raster, pixel, so);
+    out.measurement = simulate_ct(analytic, raster, pixel, so);
     out.truth = image_of(raster, false);
   }
   if (config.region_radius > 0.0) out.region = disc_region(ny, nx, config.region_radius);

@@ -9,7 +9,10 @@
 
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/hash.h"
 #include "recofold/core/provenance.h"
+#include "recofold/io/image_export.h"
+#include "recofold/io/measurement_file.h"
 #include "recofold/phantom/family.h"
 #include "recofold/priors/prior_spec.h"
 #include "recofold/core/field_error.h"
@@ -73,9 +76,94 @@ void check_range(const Config& t, const std::string& key, const std::vector<doub
 std::string resolve(const std::string& path, const std::string& base_dir) {
   if (path.empty() || path[0] == '/') return path;
   const std::string beside = base_dir + "/" + path;
-  if (file_exists(beside)) return beside;
+  if (file_exists(beside) || is_directory(beside)) return beside;
   return path;
 }
+
+std::string file_stem(const std::string& path) {
+  std::string stem = path;
+  while (stem.size() > 1 && stem.back() == '/') stem.pop_back();
+  stem = stem.substr(stem.find_last_of('/') + 1);
+  return stem.substr(0, stem.find('.'));
+}
+
+void check_label(const Config& t, const std::string& label) {
+  if (label.empty() || label.find_first_of(",|\"\n/") != std::string::npos)
+    throw t.error("name", "'" + label + "'; an object label must be non-empty without , | \" / or newlines");
+}
+
+// [[measurement]]: a fully sampled MRI measurement on the study grid.
+StudyPhantom measurement_object(const Config& t, const StudyConfig& c, const std::string& base_dir) {
+  t.expect_only({"file", "name"});
+  StudyPhantom sp;
+  sp.measurement_path = resolve(t.get_string("file"), base_dir);
+  const std::string& path = sp.measurement_path;
+  if (!file_exists(path)) throw t.error("file", "measurement file '" + path + "': " + not_a_file_reason(path));
+  auto m = std::make_shared<Measurement>();
+  try {
+    *m = read_measurement_file(path);
+  } catch (const InputError& e) {
+    throw t.error("file", std::string(e.what()));
+  }
+  if (m->modality != Modality::kMri || !m->mri)
+    throw t.error("file", "'" + path + "' is a " + std::string(to_string(m->modality)) +
+                              " measurement; [[measurement]] objects are fully sampled MRI k-space");
+  Index sampled = 0;
+  for (uint8_t v : m->mri->mask.data) sampled += v ? 1 : 0;
+  if (sampled != m->ny * m->nx)
+    throw t.error("file", "'" + path + "' samples " + std::to_string(sampled) + " of " +
+                              std::to_string(m->ny * m->nx) +
+                              " k-space points (/mri/mask); a [[measurement]] object must be fully sampled");
+  if (m->mri->coil_maps.shape != m->mri->kspace.shape)
+    throw t.error("file", "'" + path + "' has no coil maps (/mri/coil_maps) for the coil-combined truth");
+  if (m->ny != c.ny || m->nx != c.nx)
+    throw t.error("file", "'" + path + "' is on a " + std::to_string(m->ny) + "x" + std::to_string(m->nx) +
+                              " grid; the study size is " + std::to_string(c.ny) + "x" + std::to_string(c.nx) +
+                              " (set size = [" + std::to_string(m->ny) + ", " + std::to_string(m->nx) + "])");
+  sp.measured_coils = static_cast<int>(m->mri->kspace.shape[0]);
+  sp.label = t.get_string_or("name", file_stem(path));
+  check_label(t, sp.label);
+  sp.measured = std::move(m);
+  return sp;
+}
+
+// [[object]]: one slice of an image file on the study grid.
+StudyPhantom image_object(const Config& t, const StudyConfig& c, const std::string& base_dir) {
+  t.expect_only({"file", "slice", "name"});
+  StudyPhantom sp;
+  sp.image_path = resolve(t.get_string("file"), base_dir);
+  const std::string& path = sp.image_path;
+  if (!file_exists(path) && !is_directory(path))
+    throw t.error("file", "image file '" + path + "': " + not_a_file_reason(path));
+  const int64_t slice = t.get_int_or("slice", 0);
+  ImageRecord rec;
+  try {
+    rec = read_image_any(path);
+  } catch (const InputError& e) {
+    throw t.error("file", std::string(e.what()));
+  }
+  const Shape& s = rec.pixels.shape;
+  const Index slices = s.rank() == 3 ? s[0] : 1;
+  if (slice < 0 || slice >= slices)
+    throw t.error("slice", "= " + std::to_string(slice) + " is out of range; '" + path + "' holds " +
+                               std::to_string(slices) + " slice" + (slices == 1 ? "" : "s") + " (0.." +
+                               std::to_string(slices - 1) + ")");
+  const Index ny = s[s.rank() - 2], nx = s[s.rank() - 1];
+  if (ny != c.ny || nx != c.nx)
+    throw t.error("file", "'" + path + "' has " + std::to_string(ny) + "x" + std::to_string(nx) +
+                              " slices; the study size is " + std::to_string(c.ny) + "x" + std::to_string(c.nx) +
+                              " (set size = [" + std::to_string(ny) + ", " + std::to_string(nx) + "])");
+  auto px = std::make_shared<ImageC>(ny, nx);
+  const Index n = ny * nx;
+  for (Index k = 0; k < n; ++k) px->data()[k] = cfloat(std::abs(rec.pixels.data[static_cast<size_t>(slice * n + k)]), 0.0f);
+  sp.slice = static_cast<int>(slice);
+  sp.pixel_spacing_mm = rec.pixel_spacing_mm[1];
+  sp.label = t.get_string_or("name", file_stem(path) + "-s" + std::to_string(slice));
+  check_label(t, sp.label);
+  sp.pixels = std::move(px);
+  return sp;
+}
+
 
 // Spec field paths and the [[method]] keys that set them.
 const std::vector<std::pair<std::string, std::string>>& spec_keys() {
@@ -246,6 +334,12 @@ StudyMethod parse_method_table(const Config& t, int index, const std::string& ba
 
 }  // namespace
 
+std::string StudyPhantom::truth_kind() const {
+  if (measured) return "fully sampled";
+  if (pixels) return "discrete";
+  return "analytic";
+}
+
 bool StudyMethod::applies_to(Modality modality) const {
   return std::find(modalities.begin(), modalities.end(), modality) != modalities.end();
 }
@@ -274,8 +368,8 @@ StudyConfig StudyConfig::load(const std::string& path) {
 
 StudyConfig StudyConfig::parse(const std::string& text, const std::string& name, const std::string& base_dir) {
   const Config root = Config::parse(text, name);
-  root.expect_only({"name", "description", "size", "repetitions", "seed", "metrics", "region", "phantom", "mri", "ct",
-                    "method"});
+  root.expect_only({"name", "description", "size", "repetitions", "seed", "metrics", "region", "phantom",
+                    "measurement", "object", "mri", "ct", "method"});
   StudyConfig c;
   c.file = name;
   c.text = text;
@@ -314,7 +408,9 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
 
   // Phantoms.
   const std::vector<Config> phantoms = root.tables("phantom");
-  if (phantoms.empty()) throw root.error("phantom", "empty grid: no [[phantom]] table");
+  const std::vector<Config> measured = root.tables("measurement"), images = root.tables("object");
+  if (phantoms.empty() && measured.empty() && images.empty())
+    throw root.error("phantom", "empty grid: no [[phantom]], [[measurement]] or [[object]] table");
   for (const Config& p : phantoms) {
     p.expect_only({"table", "family", "count", "seed"});
     if (p.has("table") == p.has("family")) throw p.error("table", "give exactly one of table or family");
@@ -344,10 +440,25 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
       }
     }
   }
+  for (const Config& t : measured) c.phantoms.push_back(measurement_object(t, c, base_dir));
+  for (const Config& t : images) c.phantoms.push_back(image_object(t, c, base_dir));
   for (size_t i = 0; i < c.phantoms.size(); ++i)
     for (size_t j = 0; j < i; ++j)
       if (c.phantoms[i].label == c.phantoms[j].label)
-        throw root.error("phantom", "phantom '" + c.phantoms[i].label + "' is listed twice");
+        throw root.error(c.phantoms[i].measurement_path.empty() && c.phantoms[i].image_path.empty() ? "phantom" : "name",
+                         "object '" + c.phantoms[i].label + "' is listed twice; give distinct names");
+  for (const StudyPhantom& p : c.phantoms) {
+    if (!p.measurement_path.empty())
+      c.notes.push_back("Measurement '" + p.label + "' (" + p.measurement_path + ", " +
+                        std::to_string(p.measured_coils) +
+                        " coils): undersampled retrospectively with each MRI mask; truth = fully sampled (the "
+                        "sensitivity-weighted coil combination of the fully sampled data, which carries the scan's "
+                        "noise); the noise axis is noise added to the measured samples.");
+    if (!p.image_path.empty())
+      c.notes.push_back("Object '" + p.label + "' (" + p.image_path + ", slice " + std::to_string(p.slice) +
+                        "): no analytic truth: inverse crime possible (simulated from the same pixels it is "
+                        "scored against; truth discrete).");
+  }
 
   // Protocols.
   if (root.has("mri")) {
@@ -381,6 +492,8 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
     c.ct = a;
   }
   if (!c.mri && !c.ct) throw root.error("mri", "empty grid: give an [mri] or a [ct] protocol table");
+  if (!measured.empty() && !c.mri)
+    throw measured.front().error("file", "a [[measurement]] object needs an [mri] protocol table (its masks)");
 
   // Methods.
   const std::vector<Config> methods = root.tables("method");
@@ -417,6 +530,10 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
   std::string h = fnv1a_hex(text);
   for (const StudyPhantom& p : c.phantoms)
     if (!p.table_path.empty()) h += file_checksum(p.table_path);
+    else if (!p.measurement_path.empty()) h += file_checksum(p.measurement_path);
+    else if (p.pixels) h += fnv1a_hex(std::string(reinterpret_cast<const char*>(p.pixels->data()),
+                                                  sizeof(cfloat) * static_cast<size_t>(p.pixels->size()))) +
+                            std::to_string(p.slice);
   for (const StudyMethod& m : c.methods) {
     if (!m.model_path.empty()) h += file_checksum(m.model_path);
     if (!m.train_config.empty()) h += file_checksum(m.train_config);

@@ -50,6 +50,9 @@ struct StudyCase {
 };
 
 struct CaseGrid {
+  // expand_acquisitions(config), then the acquisitions of [[measurement]]
+  // objects: their MRI points with the coils axis replaced by the file's coil
+  // count (the points of the first coils value; CT points do not apply).
   std::vector<Acquisition> acquisitions;
   std::vector<StudyCase> cases;  // canonical order: phantom, acquisition, repetition, method
   int groups = 0;                // measurements (cases sharing one simulated measurement)

@@ -30,11 +30,15 @@ struct CaseMeasurement {
 
 // Simulates phantom x acquisition:
 //   MRI: mask make_mask(pattern, accel, center, mask_seed) on [ny, nx];
-//        simulate_mri with analytic truth, `coils` synthetic coils, noise sigma,
-//        seed noise_seed;
+//        simulate_mri with analytic truth (discrete for [[object]] images),
+//        `coils` synthetic coils, noise sigma, seed noise_seed; a
+//        [[measurement]] object is instead undersampled retrospectively with
+//        that mask (noise sigma added to its samples, seed noise_seed) and
+//        scored against its fully sampled coil-combined magnitude;
 //   CT:  parallel beam, `views` equally spaced over `arc`, detectors
 //        ceil(sqrt(2) max(ny, nx)), pixel fov_mm / nx, mu from [ct] (0: automatic), exact line
-//        integrals, Poisson noise with `photons` per ray (none when 0).
+//        integrals (from the pixels for [[object]] images), Poisson noise with
+//        `photons` per ray (none when 0).
 // InputError/WorkError from the library pass through.
 CaseMeasurement simulate_case_measurement(const StudyConfig& config, const StudyPhantom& phantom,
                                           const Acquisition& acquisition, uint64_t mask_seed, uint64_t noise_seed);

@@ -25,6 +25,25 @@
 //   count  = 2                      objects 0..count-1 (1..1000)
 //   seed   = 7                      family seed (default: the study seed)
 //
+//   [[measurement]]                 measured data as an object (MRI only): a fully
+//   file = "scan-full.h5"           sampled measurement file (e.g. from `recofold import`;
+//   name = "scan"                   grid = the study size, coil maps present); optional label
+//                                   (default the file name). Each MRI case undersamples it
+//                                   retrospectively with the case's mask (acquire/retrospective.h):
+//                                   the coils axis is replaced by the file's coil count, the
+//                                   noise axis is noise added to the measured samples, the
+//                                   truth is the fully sampled coil-combined image
+//                                   ("fully sampled"; it carries the scan's noise); CT
+//                                   protocols skip it.
+//
+//   [[object]]                      an image as the object: any image file recofold reads
+//   file  = "head.dcm"              (DICOM file or series folder, NIfTI, MHA, NRRD, PNG, HDF5)
+//   slice = 40                      slice of a stack (default 0); name = optional label
+//                                   (default file name + "-s" + slice). The slice must have the
+//                                   study size; its magnitude is the object. Simulated from
+//                                   its pixels (truth "discrete": no analytic truth, the
+//                                   inverse crime is possible; the report says so).
+//
 //   [mri]                           optional MRI protocol axes (lists or single values):
 //   pattern = ["lines-vd"]          mask patterns (sampling/mask.h)
 //   accel   = [2, 4, 8]             accelerations R (1..64)
@@ -77,6 +96,7 @@
 #pragma once
 
 #include <cstdint>
+#include <memory>
 #include <optional>
 #include <string>
 #include <vector>
@@ -88,13 +108,26 @@
 
 namespace recofold {
 
-// One object of the study (a table, or one member of a family).
+// One object of the study: a phantom table, a member of a family, a measured
+// fully sampled MRI data set or an image file.
 struct StudyPhantom {
-  std::string label;        // "qc-disk", "textured-7-0" (family, seed, index)
+  std::string label;        // "qc-disk", "textured-7-0" (family, seed, index), "scan", "head-s40"
   std::string table_path;   // set for table phantoms (resolved path)
   std::string family;       // set for family objects
   uint64_t family_seed = 0;
   int family_index = 0;
+  std::string measurement_path;  // [[measurement]]: fully sampled MRI measurement file (resolved)
+  int measured_coils = 0;        // its coil count
+  std::string image_path;        // [[object]]: image file or DICOM folder (resolved)
+  int slice = 0;                 // its slice
+  // The data read and checked at load time (shared by every case of the object).
+  std::shared_ptr<const Measurement> measured;  // [[measurement]]
+  std::shared_ptr<const ImageC> pixels;         // [[object]]: the slice [ny, nx]
+  double pixel_spacing_mm = 1.0;                // [[object]]: from the file
+
+  // The kind of truth the object's cases are scored against: "analytic"
+  // (tables, families), "fully sampled" (measurements) or "discrete" (images).
+  std::string truth_kind() const;
 };
 
 // MRI protocol axes; each list has at least one value.
