@@ -2,6 +2,7 @@
 // Study folder safety: one run per folder (lock, stale locks taken over), corrupt
 // manifests named, cases with failed outputs run again, failed counts over all runs,
 // a merged folder resumable.
+#include <algorithm>
 #include <gtest/gtest.h>
 #include <sys/stat.h>
 #include <sys/wait.h>
@@ -81,10 +82,13 @@ StudyRunOptions options(const std::string& dir) {
   return o;
 }
 
+// The rows of a results file without their run times, in case order: rows are
+// appended as cases finish, so a rerun case comes last.
 std::string without_time(const std::string& path) {
   ResultsTable t = read_results(path);
   const int tc = t.column("time");
   for (auto& r : t.rows) r[size_t(tc)] = "";
+  std::sort(t.rows.begin(), t.rows.end());
   return results_text(t);
 }
 
