@@ -13,10 +13,14 @@ function(recofold_warnings target)
 endfunction()
 
 # recofold_module(NAME core SOURCES a.cc b.cc DEPS recofold::x ... PRIVATE_DEPS ...)
-# Defines recofold_<NAME> and its alias recofold::<NAME>.
+# Defines recofold_<NAME> and its alias recofold::<NAME>: a shared library in
+# <build>/lib. Shared, so that the learn module (libtorch), which the program
+# loads at run time only when a learned model is used, runs on the same single
+# copy of every other module (one FFT planner lock, one backend registry).
 function(recofold_module)
   cmake_parse_arguments(M "" "NAME" "SOURCES;DEPS;PRIVATE_DEPS" ${ARGN})
-  add_library(recofold_${M_NAME} STATIC ${M_SOURCES})
+  add_library(recofold_${M_NAME} SHARED ${M_SOURCES})
+  set_target_properties(recofold_${M_NAME} PROPERTIES LIBRARY_OUTPUT_DIRECTORY ${PROJECT_BINARY_DIR}/lib)
   add_library(recofold::${M_NAME} ALIAS recofold_${M_NAME})
   target_include_directories(recofold_${M_NAME} PUBLIC ${PROJECT_SOURCE_DIR}/include)
   target_link_libraries(recofold_${M_NAME} PUBLIC ${M_DEPS} PRIVATE ${M_PRIVATE_DEPS})
@@ -98,14 +102,15 @@ function(recofold_glob_module)
   file(GLOB _tests CONFIGURE_DEPENDS ${PROJECT_SOURCE_DIR}/tests/unit/${M_NAME}_*test.cc)
   foreach(t IN LISTS _tests)
     get_filename_component(_n ${t} NAME_WE)
-    recofold_unit_test(NAME ${_n} SOURCES ${t} LIBS recofold::${M_NAME} ${M_TEST_LIBS})
+    # A module's tests and tools may use its private libraries directly (FFTW in ops tests, ...).
+    recofold_unit_test(NAME ${_n} SOURCES ${t} LIBS recofold::${M_NAME} ${M_TEST_LIBS} ${M_PRIVATE_DEPS})
   endforeach()
   file(GLOB _tools CONFIGURE_DEPENDS ${PROJECT_SOURCE_DIR}/tests/tools/${M_NAME}_*.cc)
   foreach(t IN LISTS _tools)
     get_filename_component(_n ${t} NAME_WE)
     add_executable(${_n} ${t})
     set_target_properties(${_n} PROPERTIES RUNTIME_OUTPUT_DIRECTORY ${PROJECT_BINARY_DIR}/tests)
-    target_link_libraries(${_n} PRIVATE recofold::${M_NAME} ${M_TEST_LIBS})
+    target_link_libraries(${_n} PRIVATE recofold::${M_NAME} ${M_TEST_LIBS} ${M_PRIVATE_DEPS})
     recofold_warnings(${_n})
   endforeach()
   file(GLOB _refs CONFIGURE_DEPENDS ${PROJECT_SOURCE_DIR}/tests/reference/${M_NAME}_*.py)

@@ -10,8 +10,8 @@
 #include "cli_common.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
-#include "recofold/learn/trainer.h"
-#include "recofold/learn/training_config.h"
+#include "learn_cli.h"
+#include "recofold/recon/learned_backend.h"
 
 namespace recofold::cli {
 
@@ -26,11 +26,20 @@ struct TrainFlags {
   bool resume = false, restart = false;
 };
 
+// The learned backend (the learn module, loaded at run time), or a refusal.
+const LearnedBackend& learn_backend() {
+  install_learned_backend();
+  const LearnedBackendLookup found = find_learned_backend();
+  if (!found.backend) throw InputError("", "train", found.reason);
+  return *found.backend;
+}
+
 void run_train(const TrainFlags& f, const Context& ctx) {
   require_output_path(f.out, "--out", {".h5"});
-  TrainingConfig cfg = TrainingConfig::load(f.config);
+  const LearnedBackend& backend = learn_backend();
+  const LearnedTrainingPlan plan = backend.inspect_training(f.config);
   // An earlier run's checkpoint is never overwritten silently.
-  const std::string checkpoint = checkpoint_path(f.out);
+  const std::string checkpoint = backend.checkpoint_file(f.out);
   if (f.resume && f.restart) throw InputError("", "--restart", "give either --resume or --restart, not both");
   if (file_exists(checkpoint) && !f.resume && !f.restart)
     throw InputError(checkpoint, "--out", "a checkpoint of an earlier run exists; give --resume to continue it or "
@@ -38,7 +47,6 @@ void run_train(const TrainFlags& f, const Context& ctx) {
   if (f.restart && file_exists(checkpoint) && std::remove(checkpoint.c_str()) != 0)
     throw WorkError("cannot remove the old checkpoint " + checkpoint);
   apply_threads(ctx);
-  if (cfg.train.threads == 0 && ctx.threads > 0) cfg.train.threads = ctx.threads;
 
   struct sigaction sa {};
   sa.sa_handler = request_stop;
@@ -48,17 +56,20 @@ void run_train(const TrainFlags& f, const Context& ctx) {
   sigaction(SIGTERM, &sa, &old_term);
 
   auto progress = make_progress(ctx, "train");
-  TrainRun run;
+  LearnedTrainingRun run;
+  run.config_file = f.config;
   run.out = f.out;
   run.resume = f.resume;
+  run.threads = ctx.threads;
   run.progress = progress.get();
   run.stop = &g_stop_training;
   run.command = ctx.command_line;
-  say(ctx, "training " + (cfg.kind == "flow" ? cfg.flow.describe() : cfg.architecture.describe()) + " on " + std::string(to_string(cfg.data.modality)) + " data from " + cfg.file);
+  say(ctx, "training " + plan.description + " on " + std::string(to_string(plan.modality)) + " data from " +
+               f.config);
   std::cout.flush();  // the line tells a supervising process that SIGINT now checkpoints
-  TrainResult r;
+  LearnedTrainingOutcome r;
   try {
-    r = train_model(cfg, run);
+    r = backend.train(run);
   } catch (...) {
     sigaction(SIGINT, &old_int, nullptr);
     sigaction(SIGTERM, &old_term, nullptr);
@@ -69,15 +80,20 @@ void run_train(const TrainFlags& f, const Context& ctx) {
   if (r.interrupted)
     throw WorkError("training interrupted after step " + std::to_string(r.steps_done) + "; checkpoint " +
                     r.checkpoint + " (continue with --resume)");
+  auto metric = [&r](const char* key) {
+    const auto it = r.metrics.find(key);
+    return it == r.metrics.end() ? 0.0 : it->second;
+  };
+  const char* limit = metric("time_limit_reached") != 0.0 ? " (time limit reached)" : "";
   char buf[256];
-  if (cfg.kind == "flow")
+  if (plan.kind == "flow")
     std::snprintf(buf, sizeof buf, "%s: %lld steps in %.1f s, validation %.4f bits/dim (training batch %.4f)%s",
-                  f.out.c_str(), static_cast<long long>(r.steps_done), r.seconds, r.val_bits_per_dim,
-                  r.train_bits_per_dim, r.time_limit_reached ? " (time limit reached)" : "");
+                  f.out.c_str(), static_cast<long long>(r.steps_done), metric("seconds"),
+                  metric("val_bits_per_dim"), metric("train_bits_per_dim"), limit);
   else
     std::snprintf(buf, sizeof buf, "%s: %lld steps in %.1f s, validation PSNR %.2f dB (A^H y %.2f dB), SSIM %.4f%s",
-                  f.out.c_str(), static_cast<long long>(r.steps_done), r.seconds, r.val_psnr_db,
-                  r.val_psnr_baseline_db, r.val_ssim, r.time_limit_reached ? " (time limit reached)" : "");
+                  f.out.c_str(), static_cast<long long>(r.steps_done), metric("seconds"), metric("val_psnr_db"),
+                  metric("val_psnr_baseline_db"), metric("val_ssim"), limit);
   say(ctx, buf);
 }
 

@@ -4,8 +4,11 @@
 
 namespace recofold::cli {
 
-// Registers the learn module's LearnedBackend (recon/learned_backend.h) once;
-// the commands that run learned methods (recon, study) call it before work.
+// Loads the learn module (a shared library with libtorch) and registers its
+// LearnedBackend (recon/learned_backend.h), once; the commands that run,
+// inspect or train learned models (recon, study, train) call it before work.
+// When the module cannot be loaded, nothing is registered and
+// find_learned_backend() gives the reason (which file, what failed).
 // A build without libtorch compiles learn_absent.cc instead, which installs
 // nothing: find_learned_backend() then says why.
 void install_learned_backend();

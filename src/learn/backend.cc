@@ -39,7 +39,8 @@ class LearnBackend final : public LearnedBackend {
     p.modality = c.data.modality;
     p.ny = c.data.ny;
     p.nx = c.data.nx;
-    p.description = c.architecture.describe();
+    p.kind = c.kind == "flow" ? "flow" : "unrolled";
+    p.description = c.kind == "flow" ? c.flow.describe() : c.architecture.describe();
     return p;
   }
 
@@ -63,24 +64,33 @@ class LearnBackend final : public LearnedBackend {
   LearnedTrainingOutcome train(const LearnedTrainingRun& run) const override {
     TrainingConfig tc = TrainingConfig::load(run.config_file);
     if (run.steps > 0) tc.train.steps = run.steps;
+    if (tc.train.threads == 0 && run.threads > 0) tc.train.threads = run.threads;
     TrainRun t;
     t.out = run.out;
     t.resume = run.resume || (run.resume_if_checkpoint && file_exists(checkpoint_path(run.out)));
     t.progress = run.progress;
     t.stop = run.stop;
     t.command = run.command;
-    const TrainResult r = train_unrolled_model(tc, t);
+    const TrainResult r = train_model(tc, t);
     LearnedTrainingOutcome out;
     out.interrupted = r.interrupted;
     out.steps_done = r.steps_done;
     out.checkpoint = r.checkpoint;
-    out.metrics["val_psnr_db"] = r.val_psnr_db;
-    out.metrics["val_ssim"] = r.val_ssim;
-    out.metrics["val_psnr_baseline_db"] = r.val_psnr_baseline_db;
+    if (tc.kind == "flow") {
+      out.metrics["val_bits_per_dim"] = r.val_bits_per_dim;
+      out.metrics["train_bits_per_dim"] = r.train_bits_per_dim;
+    } else {
+      out.metrics["val_psnr_db"] = r.val_psnr_db;
+      out.metrics["val_ssim"] = r.val_ssim;
+      out.metrics["val_psnr_baseline_db"] = r.val_psnr_baseline_db;
+    }
+    out.metrics["time_limit_reached"] = r.time_limit_reached ? 1.0 : 0.0;
     out.metrics["final_loss"] = r.final_loss;
     out.metrics["seconds"] = r.seconds;
     return out;
   }
+
+  std::string checkpoint_file(const std::string& model_out) const override { return checkpoint_path(model_out); }
 
  private:
   struct Entry {
@@ -110,5 +120,21 @@ class LearnBackend final : public LearnedBackend {
 }  // namespace
 
 std::unique_ptr<LearnedBackend> make_learn_backend() { return std::make_unique<LearnBackend>(); }
+
+}  // namespace recofold
+
+// The entry point the program looks up after loading this module at run time
+// (src/cli/learn_cli.cc): registers the backend in the program's recon
+// library, which this module shares. Returns 0; non-zero when it failed.
+extern "C" int recofold_learn_module_install() noexcept {
+  try {
+    recofold::register_learned_backend(recofold::make_learn_backend());
+    return 0;
+  } catch (...) {
+    return 1;
+  }
+}
+
+namespace recofold {
 
 }  // namespace recofold

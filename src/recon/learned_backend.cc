@@ -11,6 +11,7 @@ namespace {
 struct Registry {
   std::mutex mutex;
   std::unique_ptr<LearnedBackend> backend;
+  std::string absence;  // why there is none, when set
 };
 
 Registry& registry() {
@@ -25,7 +26,9 @@ LearnedBackendLookup find_learned_backend() {
   std::lock_guard<std::mutex> lock(r.mutex);
   LearnedBackendLookup out;
   out.backend = r.backend.get();
-  if (!out.backend)
+  if (!out.backend && !r.absence.empty())
+    out.reason = r.absence;
+  else if (!out.backend)
     out.reason =
         "this recofold has no learn module (built with -DRECOFOLD_WITH_LIBTORCH=OFF); rebuild with libtorch-dev "
         "installed and -DRECOFOLD_WITH_LIBTORCH=ON for learned methods";
@@ -36,6 +39,16 @@ void register_learned_backend(std::unique_ptr<LearnedBackend> backend) {
   Registry& r = registry();
   std::lock_guard<std::mutex> lock(r.mutex);
   r.backend = std::move(backend);
+}
+
+}  // namespace recofold
+
+namespace recofold {
+
+void set_learned_backend_absence(const std::string& reason) {
+  Registry& r = registry();
+  std::lock_guard<std::mutex> lock(r.mutex);
+  r.absence = reason;
 }
 
 }  // namespace recofold

@@ -54,6 +54,11 @@ void LearnedModelSet::prepare(const StudyConfig& config, const std::string& out_
       trained_on_[m.name] = info.trained_on_json;
     } else {
       const LearnedTrainingPlan plan = backend.inspect_training(m.train_config);
+      if (plan.kind != "unrolled")
+        throw InputError(config.file, "method[" + std::to_string(m.index) + "].train",
+                         "'" + m.train_config + "' trains a " + plan.kind +
+                             " prior; a study method needs an unrolled reconstruction model",
+                         m.line);
       check_fits(plan.modality, plan.ny, plan.nx, m, config, m.train_config, "training config");
     }
   }

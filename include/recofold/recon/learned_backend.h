@@ -4,7 +4,9 @@
 // recon, study and cli never include learn headers (and so never libtorch):
 // method unrolled, the study's learned methods and model inspection go
 // through find_learned_backend(). The learn module implements
-// LearnedBackend and registers it (register_learned_backend); a build without
+// LearnedBackend and registers it (register_learned_backend) when the program
+// loads it at run time (a shared module, so commands that need no learned
+// method never load libtorch); a build without
 // libtorch (RECOFOLD_WITH_LIBTORCH=OFF) registers nothing, so the lookup
 // returns no backend and a one-line reason, and unrolled is refused as bad
 // usage. The interface is plain C++ (no torch types) so that it can also be
@@ -37,6 +39,7 @@ struct LearnedTrainingPlan {
   Modality modality = Modality::kMri;
   Index ny = 0, nx = 0;
   std::string description;
+  std::string kind = "unrolled";  // "unrolled" (a reconstruction network) or "flow" (a generative image prior)
 };
 
 // A reconstruction by a model.
@@ -54,6 +57,7 @@ struct LearnedTrainingRun {
   bool resume = false;                      // continue from the checkpoint (an error when there is none)
   bool resume_if_checkpoint = false;        // continue when a checkpoint of `out` exists, else start fresh
   int64_t steps = 0;                        // > 0 overrides the config's train.steps
+  int threads = 0;                          // > 0: torch/OpenMP threads when the config's train.threads is 0
   ProgressSink* progress = nullptr;         // may be null
   const std::atomic<bool>* stop = nullptr;  // set: write the checkpoint and return interrupted
   std::string command;                      // for provenance
@@ -63,7 +67,9 @@ struct LearnedTrainingOutcome {
   bool interrupted = false;  // stopped early: the checkpoint holds the state, no model file written
   int64_t steps_done = 0;
   std::string checkpoint;  // the checkpoint path (when interrupted)
-  std::map<std::string, double> metrics;  // e.g. val_psnr_db, val_psnr_baseline_db, seconds
+  // unrolled: val_psnr_db, val_ssim, val_psnr_baseline_db; flow: val_bits_per_dim, train_bits_per_dim;
+  // both: final_loss, seconds, time_limit_reached (0 or 1)
+  std::map<std::string, double> metrics;
 };
 
 class LearnedBackend {
@@ -82,6 +88,8 @@ class LearnedBackend {
   // Trains a model (resumable; see LearnedTrainingRun). InputError for a bad
   // config or resume; WorkError when the training fails.
   virtual LearnedTrainingOutcome train(const LearnedTrainingRun& run) const = 0;
+  // The checkpoint file a training run writing `model_out` keeps beside it.
+  virtual std::string checkpoint_file(const std::string& model_out) const = 0;
   // The likelihood of an image under a generative (flow) model, for
   // plausibility scores, comes here next (bits per dimension).
 };
@@ -93,6 +101,11 @@ struct LearnedBackendLookup {
 
 // The registered backend, or null with the reason.
 LearnedBackendLookup find_learned_backend();
+
+// The reason find_learned_backend() gives while no backend is registered
+// (e.g. the learn module could not be loaded, and why). Empty: the default
+// reason (a build without the learn module).
+void set_learned_backend_absence(const std::string& reason);
 
 // Installs `backend` for the whole program (the learn module calls it once at
 // start-up; a later call replaces it). Not for use while reconstructions run.
