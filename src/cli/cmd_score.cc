@@ -6,6 +6,8 @@
 #include <string>
 
 #include "cli_common.h"
+#include "learn_cli.h"
+#include "recofold/recon/learned_backend.h"
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
 #include "recofold/core/atomic_file.h"
@@ -19,7 +21,7 @@ namespace recofold::cli {
 namespace {
 
 struct ScoreFlags {
-  std::string reference, image, roi;
+  std::string reference, image, roi, model;
   bool json = false;
   double data_range = 0.0;
   int index = 0;
@@ -83,12 +85,42 @@ void require_same_shape(const ImageF& a, const ImageF& b, const std::string& fil
                                    std::to_string(b.cols()) + "]");
 }
 
+// -log2 p(image) per pixel under the flow model of `f.model` (through the learned backend).
+double plausibility(const ScoreFlags& f, const ImageF& img) {
+  install_learned_backend();
+  const LearnedBackendLookup found = find_learned_backend();
+  if (!found.backend) throw InputError("", "--model", found.reason);
+  try {
+    return found.backend->bits_per_dim(f.model, img, f.image);
+  } catch (const InputError& e) {
+    // The backend names the model's fields (/model@kind) or the image's fit ("image size").
+    throw InputError(e.file(), e.file() == f.model && e.field().rfind("/", 0) != 0 ? "--model" : e.field(),
+                     e.reason());
+  }
+}
+
 void run_score(const ScoreFlags& f, const CLI::App& sub, const Context& ctx) {
   if (sub.count("--data-range") > 0 && !(std::isfinite(f.data_range) && f.data_range > 0))
     throw InputError("", "--data-range", "got " + readable_number(f.data_range) +
                                              ", expected a positive number (omit it for max - min of the reference)");
-  const ImageF ref = load(f.reference, f.index);
+  if (f.reference.empty() && f.model.empty())
+    throw InputError("", "--reference", "give a reference image to score against (or --model for a plausibility "
+                                        "score only)");
+  if (f.reference.empty() && !f.roi.empty())
+    throw InputError("", "--roi", "a region needs --reference (plausibility is scored on the whole image)");
   const ImageF img = load(f.image, f.index);
+  const bool have_model = !f.model.empty();
+  const double bits = have_model ? plausibility(f, img) : 0.0;
+  if (f.reference.empty()) {
+    if (f.json)
+      say(ctx, "{\"bits_per_dim\": " + json_number(bits) + ", \"model\": " + json_string(f.model) +
+                   ", \"image\": " + json_string(f.image) + "}");
+    else
+      say(ctx, "bits_per_dim  " + readable_number(bits) + " (-log2 p per pixel under " + f.model + ")\n" +
+                   kResearchUseLine);
+    return;
+  }
+  const ImageF ref = load(f.reference, f.index);
   require_same_shape(img, ref, f.image, f.reference);
   ScoreOptions opt;
   opt.data_range = f.data_range;
@@ -107,14 +139,17 @@ void run_score(const ScoreFlags& f, const CLI::App& sub, const Context& ctx) {
   if (f.json) {
     say(ctx, "{\"psnr\": " + json_number(s.psnr) + ", \"ssim\": " + json_number(s.ssim) +
                  ", \"nrmse\": " + json_number(s.nrmse) + ", \"hfen\": " + json_number(s.hfen) +
-                 ", \"data_range\": " + json_number(s.data_range) + ", \"reference\": " + json_string(f.reference) +
-                 ", \"image\": " + json_string(f.image) + "}");
+                 ", \"data_range\": " + json_number(s.data_range) +
+                 (have_model ? ", \"bits_per_dim\": " + json_number(bits) + ", \"model\": " + json_string(f.model)
+                             : std::string()) +
+                 ", \"reference\": " + json_string(f.reference) + ", \"image\": " + json_string(f.image) + "}");
     return;
   }
   char buf[256];
   std::snprintf(buf, sizeof buf, "psnr   %.4f dB (data range %.6g)\nssim   %.6f\nnrmse  %.6f\nhfen   %.6f",
                 s.psnr, s.data_range, s.ssim, s.nrmse, s.hfen);
   say(ctx, buf);
+  if (have_model) say(ctx, "bits_per_dim  " + readable_number(bits) + " (-log2 p per pixel under " + f.model + ")");
   say(ctx, kResearchUseLine);
 }
 
@@ -125,12 +160,16 @@ void register_cmd_score(CLI::App& app, Context& ctx) {
   CLI::App* sub = app.add_subcommand("score", "Score an image against a reference: PSNR, SSIM, NRMSE, HFEN");
   sub->add_option("--reference", flags->reference,
                   "Reference image (.h5, .nii.gz, .nii, .mha, .nrrd, .png), or a measurement file with "
-                  "/truth/image (its ground truth is used)")
-      ->required();
+                  "/truth/image (its ground truth is used); required unless --model is given");
   sub->add_option("--image", flags->image, "Image to score, same shape as the reference")->required();
   sub->add_flag("--json", flags->json,
-                "Print one JSON object with keys psnr, ssim, nrmse, hfen (and data_range, reference, image); "
+                "Print one JSON object with keys psnr, ssim, nrmse, hfen (and data_range, reference, image; "
+                "bits_per_dim and model with --model); "
                 "an infinite PSNR (identical images) prints as null");
+  sub->add_option("--model", flags->model,
+                  "Flow model file (recofold train, [model] kind = \"flow\"): add bits_per_dim, -log2 p(image) per "
+                  "pixel, a plausibility score (high: unlike the flow's training images); the image must have the "
+                  "flow's size and is scored as real (magnitude of a complex image)");
   sub->add_option("--roi", flags->roi, "Region mask image of the same shape; nonzero pixels are scored");
   sub->add_option("--data-range", flags->data_range,
                   "Data range L for PSNR and SSIM (default: max - min of the reference)");

@@ -8,6 +8,7 @@
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
+#include "recofold/learn/flow_model.h"
 #include "recofold/learn/model.h"
 #include "recofold/learn/trainer.h"
 #include "recofold/learn/training_config.h"
@@ -91,6 +92,15 @@ class LearnBackend final : public LearnedBackend {
   }
 
   std::string checkpoint_file(const std::string& model_out) const override { return checkpoint_path(model_out); }
+
+  double bits_per_dim(const std::string& model_file, const ImageF& image,
+                      const std::string& image_file) const override {
+    if (!file_exists(model_file)) throw InputError(model_file, "model", "model file not found");
+    const FlowModel flow = FlowModel::load(model_file);
+    NdArray<float> x(Shape{image.rows(), image.cols()});
+    for (Index k = 0; k < image.size(); ++k) x.data[static_cast<size_t>(k)] = image.data()[k];
+    return flow.bits_per_dim(x, image_file).at(0);
+  }
 
  private:
   struct Entry {

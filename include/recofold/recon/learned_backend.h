@@ -90,8 +90,12 @@ class LearnedBackend {
   virtual LearnedTrainingOutcome train(const LearnedTrainingRun& run) const = 0;
   // The checkpoint file a training run writing `model_out` keeps beside it.
   virtual std::string checkpoint_file(const std::string& model_out) const = 0;
-  // The likelihood of an image under a generative (flow) model, for
-  // plausibility scores, comes here next (bits per dimension).
+  // Plausibility of an image under a generative (flow) model: -log2 p(x) per
+  // pixel (bits per dimension) of the real image `image` [ny, nx] in the
+  // flow's own units. InputError naming `model_file` when it is no flow model,
+  // naming `image_file` (field "image size") when the image does not fit it.
+  virtual double bits_per_dim(const std::string& model_file, const ImageF& image,
+                              const std::string& image_file) const = 0;
 };
 
 struct LearnedBackendLookup {
