@@ -200,6 +200,18 @@ def main():
             name, args, words = b
             bad_case(name, ["recon"] + args + ["--out", "bad.h5"], words, tmp)
 
+        if has_learn:
+            # A model applied to a measurement it was not built for: exit 2 naming the model and the reason.
+            for a in (["phantom", "--table", table, "--size", "32", "--out", "ph32.h5"],
+                      ["mask", "--pattern", "lines-vd", "--size", "32", "--accel", "4", "--center", "0.08",
+                       "--seed", "1", "--out", "m32.h5"],
+                      ["simulate", "--phantom", "ph32.h5", "--modality", "mri", "--mask", "m32.h5", "--coils", "2",
+                       "--noise", "0.003", "--seed", "2", "--out", "mri32.h5"]):
+                must_succeed(a, tmp)
+            bad.append(("unrolled model on another grid", ["--meas", "mri32.h5", "--method", "unrolled", "--model",
+                                                           "model.h5"], ["model.h5", "64x64", "32x32"]))
+            bad.append(("unrolled model on another modality", ["--meas", "ct.h5", "--method", "unrolled",
+                                                               "--model", "model.h5"], ["model.h5", "mri", "ct"]))
         if not has_learn:
             bad.append(("unrolled without the learn module", ["--meas", "mri.h5", "--method", "unrolled", "--model",
                                                               "model.h5"], ["--method unrolled", "learn module"]))
