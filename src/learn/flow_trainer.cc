@@ -77,9 +77,7 @@ TrainResult train_flow_model(const TrainingConfig& cfg, const TrainRun& run) {
   };
   const TrainOptions& o = cfg.train;
   const FlowArchitecture& arch = cfg.flow;
-  if (o.threads > 0) omp_set_num_threads(o.threads);
-  internal::align_torch_threads();
-  set_fft_threads(1);
+  const internal::TrainingThreadScope thread_scope(o.threads);  // restored on return
 
   TrainResult result;
   result.checkpoint = checkpoint_path(run.out);

@@ -7,6 +7,8 @@
 #include <cmath>
 
 #include "recofold/core/error.h"
+#include "recofold/ops/fft.h"
+#include "train_support.h"
 
 namespace recofold::internal {
 
@@ -173,6 +175,19 @@ torch::Tensor op_normal(const torch::Tensor& x, const OperatorBatch& batch) {
 
 torch::Tensor cg_solve(const torch::Tensor& rhs, const torch::Tensor& mu, const OperatorBatch& batch, int iterations) {
   return CgFunction::apply(rhs, mu.reshape({}), handle(batch), static_cast<int64_t>(iterations));
+}
+
+TrainingThreadScope::TrainingThreadScope(int threads)
+    : omp_threads_(omp_get_max_threads()), fft_threads_(fft_threads()), torch_threads_(torch::get_num_threads()) {
+  if (threads > 0) omp_set_num_threads(threads);
+  align_torch_threads();
+  set_fft_threads(1);
+}
+
+TrainingThreadScope::~TrainingThreadScope() {
+  omp_set_num_threads(omp_threads_);
+  set_fft_threads(fft_threads_);
+  if (torch::get_num_threads() != torch_threads_) torch::set_num_threads(torch_threads_);
 }
 
 void align_torch_threads() {

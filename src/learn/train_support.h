@@ -21,4 +21,20 @@ std::vector<SeedRange> training_seed_ranges(const TrainingConfig& cfg, int64_t s
 // "12.3 ex/s"-style number formatting for status lines.
 std::string format_number(const char* format, double v);
 
+// The thread settings of a training run, restored when it ends (normally or
+// by an exception): OpenMP threads (`threads` > 0 sets them, 0 keeps them),
+// torch's intra-op threads aligned with them, and one FFT thread (examples of
+// a batch run side by side instead). Training never changes the process's
+// settings for whatever runs after it.
+class TrainingThreadScope {
+ public:
+  explicit TrainingThreadScope(int threads);
+  ~TrainingThreadScope();
+  TrainingThreadScope(const TrainingThreadScope&) = delete;
+  TrainingThreadScope& operator=(const TrainingThreadScope&) = delete;
+
+ private:
+  int omp_threads_, fft_threads_, torch_threads_;
+};
+
 }  // namespace recofold::internal

@@ -164,9 +164,7 @@ TrainResult train_unrolled_model(const TrainingConfig& cfg, const TrainRun& run)
   };
   const TrainOptions& o = cfg.train;
   const UnrolledArchitecture& arch = cfg.architecture;
-  if (o.threads > 0) omp_set_num_threads(o.threads);
-  internal::align_torch_threads();
-  set_fft_threads(1);  // examples of a batch run side by side instead
+  const internal::TrainingThreadScope thread_scope(o.threads);  // restored on return
 
   TrainResult result;
   result.checkpoint = checkpoint_path(run.out);

@@ -11,6 +11,9 @@
 #include "recofold/core/error.h"
 #include "recofold/learn/model.h"
 #include "recofold/learn/trainer.h"
+#include "recofold/ops/fft.h"
+
+#include <omp.h>
 
 namespace recofold {
 namespace {
@@ -43,6 +46,27 @@ TEST(Trainer, ShortMriRunBeatsZeroFilledOnValidationSet) {
   UnrolledModel m = UnrolledModel::load(run.out);
   EXPECT_NEAR(m.info().metrics.at("val_psnr_db"), r.val_psnr_db, 1e-9);
   EXPECT_FALSE(file_exists(checkpoint_path(run.out)));
+  std::remove(run.out.c_str());
+}
+
+// Training sets its own threads (config threads = 2, one FFT thread) and
+// leaves the process's settings as it found them, also when it fails.
+TEST(Trainer, RestoresThreadSettings) {
+  omp_set_num_threads(1);
+  set_fft_threads(3);
+  const int omp_before = omp_get_max_threads(), fft_before = fft_threads();
+  TrainRun run;
+  run.out = temp_path("threads.h5");
+  train_unrolled_model(small_mri_config(2), run);
+  EXPECT_EQ(omp_get_max_threads(), omp_before);
+  EXPECT_EQ(fft_threads(), fft_before);
+  TrainRun bad;
+  bad.out = temp_path("threads-bad.h5");
+  bad.resume = true;  // no checkpoint: InputError
+  EXPECT_THROW(train_unrolled_model(small_mri_config(2), bad), InputError);
+  EXPECT_EQ(omp_get_max_threads(), omp_before);
+  EXPECT_EQ(fft_threads(), fft_before);
+  set_fft_threads(0);
   std::remove(run.out.c_str());
 }
 
