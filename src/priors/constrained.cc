@@ -26,13 +26,16 @@ double ConstrainedPrior::value(const VecC& x) const {
   return inner_->value(x);
 }
 
-void ConstrainedPrior::prox(const VecC& v, double step, VecC& out) const {
-  if (inner_->prox_with_box(v, step, box_, out)) return;
+void ConstrainedPrior::prox(const VecC& v, double step, VecC& out) const { prox_at(v, step, 0, out); }
+
+void ConstrainedPrior::prox_at(const VecC& v, double step, uint64_t call, VecC& out) const {
+  const bool per_call = call != 0 && inner_->varies_per_call();
+  if (!per_call && inner_->prox_with_box(v, step, box_, out)) return;
   // Proximal Dykstra for prox_{f + i_C}, f = step * inner.
   VecC x = v, p = VecC::Zero(v.size()), q = VecC::Zero(v.size()), y, xp;
   for (int k = 0; k < dykstra_iterations_; ++k) {
     xp = x + p;
-    inner_->prox(xp, step, y);
+    inner_->prox_at(xp, step, call, y);
     p = xp - y;
     xp = y + q;
     box_.project(xp, x);

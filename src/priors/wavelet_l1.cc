@@ -60,8 +60,7 @@ WaveletL1Prior::WaveletL1Prior(const WaveletL1Prior& other)
       shape_(other.shape_),
       options_(other.options_),
       transform_(other.transform_),
-      coefficient_weights_(other.coefficient_weights_),
-      calls_(other.calls_.load()) {}
+      coefficient_weights_(other.coefficient_weights_) {}
 
 double WaveletL1Prior::value(const VecC& x) const {
   VecC c;
@@ -91,17 +90,27 @@ double WaveletL1Prior::analysis_conjugate(const VecC& q) const {
 
 void WaveletL1Prior::prox(const VecC& v, double step, VecC& out) const {
   VecC c;
-  if (!options_.cycle_spin) {
-    transform_->apply(v, c);
-    analysis_prox(c, step, c);
-    transform_->adjoint(c, out);
-    return;
-  }
-  const uint64_t call = calls_.fetch_add(1);
+  transform_->apply(v, c);
+  analysis_prox(c, step, c);
+  transform_->adjoint(c, out);
+}
+
+std::pair<Index, Index> WaveletL1Prior::cycle_shift(uint64_t call) const {
+  if (!options_.cycle_spin || call == 0) return {0, 0};
   Rng rng = Rng::for_stream(options_.cycle_spin_seed, call);
   const uint64_t period = uint64_t(1) << options_.levels;
-  const Index dy = static_cast<Index>(rng.below(period)), dx = static_cast<Index>(rng.below(period));
-  VecC shifted, back;
+  const Index dy = static_cast<Index>(rng.below(period));
+  const Index dx = static_cast<Index>(rng.below(period));
+  return {dy, dx};
+}
+
+void WaveletL1Prior::prox_at(const VecC& v, double step, uint64_t call, VecC& out) const {
+  const auto [dy, dx] = cycle_shift(call);
+  if (dy == 0 && dx == 0) {
+    prox(v, step, out);
+    return;
+  }
+  VecC shifted, back, c;
   circular_shift(v, shape_, dy, dx, shifted);
   transform_->apply(shifted, c);
   analysis_prox(c, step, c);

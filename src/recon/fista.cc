@@ -38,7 +38,7 @@ SolverSummary solve_fista(const FistaOptions& options, const LinearOperator& a, 
   std::string message = "reached max_iterations";
   for (int k = 1; k <= options.max_iterations; ++k) {
     gradient_dc_step(a, y, v, step, z, dc);
-    prior.prox(z, step, x_new);
+    prior.prox_at(z, step, static_cast<uint64_t>(k), x_new);
     if (options.adaptive_restart && internal::real_dot_of_differences(v, x_new, x_new, x) > 0.0) {
       t = 1.0;  // restart: momentum of the next extrapolation is 0
       ++restarts;

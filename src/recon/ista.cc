@@ -35,7 +35,7 @@ SolverSummary solve_ista(const IstaOptions& options, const LinearOperator& a, co
   std::string message = "reached max_iterations";
   for (int k = 1; k <= options.max_iterations; ++k) {
     internal::gradient_step_from_residual(a, r, x, step, z, g);
-    prior.prox(z, step, x_new);
+    prior.prox_at(z, step, static_cast<uint64_t>(k), x_new);
     internal::data_residual(a, x_new, y, r);
     IterationRecord rec;
     rec.iteration = k;

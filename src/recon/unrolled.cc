@@ -33,8 +33,8 @@ ProxPriorStep::ProxPriorStep(std::shared_ptr<const Prior> prior) : prior_(std::m
   RECOFOLD_CHECK(prior_ != nullptr) << "ProxPriorStep needs a prior";
 }
 
-void ProxPriorStep::apply(int, const IterationParameters& params, const VecC& in, VecC& out) const {
-  prior_->prox(in, params.prior_step, out);
+void ProxPriorStep::apply(int iteration, const IterationParameters& params, const VecC& in, VecC& out) const {
+  prior_->prox_at(in, params.prior_step, static_cast<uint64_t>(iteration) + 1, out);
 }
 
 std::string ProxPriorStep::name() const { return "prox of " + prior_->name(); }

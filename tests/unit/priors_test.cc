@@ -456,22 +456,53 @@ TEST(WaveletL1Prior, BandWeightsScaleThresholdsPerBand) {
   expect_prox_optimal_and_check_bites(p, nullptr, wavelet_dual_problem(p), false, 21, 2e-3);
 }
 
-TEST(WaveletL1Prior, CycleSpinningIsSeededAndMinimisesShiftedObjective) {
+TEST(WaveletL1Prior, CycleSpinningIsAFunctionOfSeedAndCallOnly) {
   WaveletL1Options o;
   o.levels = 2;
   o.cycle_spin = true;
   o.cycle_spin_seed = 9;
   WaveletL1Prior a(kShape, 0.5, o), b(kShape, 0.5, o);
+  WaveletL1Options plain = o;
+  plain.cycle_spin = false;
+  WaveletL1Prior unshifted(kShape, 0.5, plain);
   Rng rng(4);
   const VecC v = random_vector(kShape.size(), rng);
-  VecC ua, ub, ua2;
-  a.prox(v, 1.0, ua);
-  b.prox(v, 1.0, ub);
-  EXPECT_EQ((ua - ub).norm(), 0.f);  // same seed, same call number, same bytes
-  a.prox(v, 1.0, ua2);
-  EXPECT_EQ(a.prox_calls(), 2u);
+  VecC ua, ub, ua_again, u0, ref;
+  // The same call index gives the same bytes, whatever was called before and on which copy.
+  a.prox_at(v, 1.0, 3, ua);
+  for (uint64_t k = 1; k <= 5; ++k) b.prox_at(v, 1.0, k, ub);
+  b.prox_at(v, 1.0, 3, ub);
+  EXPECT_EQ((ua - ub).norm(), 0.f);
+  a.prox_at(v, 1.0, 7, ua_again);
+  a.prox_at(v, 1.0, 3, ua_again);
+  EXPECT_EQ((ua - ua_again).norm(), 0.f);
   std::unique_ptr<Prior> c = a.clone();
-  EXPECT_EQ(static_cast<WaveletL1Prior&>(*c).prox_calls(), 2u);
+  VecC uc;
+  c->prox_at(v, 1.0, 3, uc);
+  EXPECT_EQ((ua - uc).norm(), 0.f);
+  // prox() and call 0 are the unshifted exact prox.
+  a.prox(v, 1.0, u0);
+  unshifted.prox(v, 1.0, ref);
+  EXPECT_EQ((u0 - ref).norm(), 0.f);
+  // Some call in 1..8 draws a non-zero shift, and there the result differs from the unshifted prox
+  // while it is the exact prox of R(shift(x)): shifting the input by the drawn shift and applying the
+  // unshifted prox gives the same image shifted back.
+  bool any_shift = false;
+  for (uint64_t k = 1; k <= 8; ++k) {
+    const auto [dy, dx] = a.cycle_shift(k);
+    if (dy == 0 && dx == 0) continue;
+    any_shift = true;
+    VecC uk, vs, ps, back;
+    a.prox_at(v, 1.0, k, uk);
+    EXPECT_GT((uk - ref).norm(), 1e-4f * ref.norm()) << "call " << k;
+    circular_shift(v, kShape, dy, dx, vs);
+    unshifted.prox(vs, 1.0, ps);
+    circular_shift(ps, kShape, -dy, -dx, back);
+    EXPECT_LT((uk - back).norm(), 1e-5f * (1.0f + back.norm())) << "call " << k;
+  }
+  EXPECT_TRUE(any_shift);
+  EXPECT_TRUE(a.varies_per_call());
+  EXPECT_FALSE(unshifted.varies_per_call());
 }
 
 TEST(TvPrior, ProxIsCertifiedMinimiserAndCheckCatchesBrokenProx) {

@@ -30,6 +30,9 @@ class ConstrainedPrior final : public Prior {
 
   double value(const VecC& x) const override;
   void prox(const VecC& v, double step, VecC& out) const override;
+  // The inner prior's prox_at(.., call) inside the same box handling.
+  void prox_at(const VecC& v, double step, uint64_t call, VecC& out) const override;
+  bool varies_per_call() const override { return inner_->varies_per_call(); }
   std::unique_ptr<Prior> clone() const override { return std::make_unique<ConstrainedPrior>(*this); }
   std::string name() const override;
   void set_weight(double lambda) override;

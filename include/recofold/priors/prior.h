@@ -2,6 +2,7 @@
 // The Prior interface: weighted penalty value, proximal map, optional gradient and analysis form.
 #pragma once
 
+#include <cstdint>
 #include <memory>
 #include <string>
 
@@ -24,9 +25,8 @@ namespace recofold {
 //   analysis_prox(w, step)      argmin_z 1/2 ||z - w||^2 + step * lambda * g(z)
 //   analysis_conjugate(q)       (lambda g)^*(q), the convex conjugate (may be +inf)
 //
-// Thread safety: all methods are const and may run concurrently on different
-// vectors, except where a prior documents internal state (random cycle
-// spinning); for parallel studies give each thread its own clone().
+// Thread safety: all methods are const, hold no state between calls, and may
+// run concurrently on different vectors.
 // Output vectors may be the same object as the input.
 class Prior {
  public:
@@ -35,6 +35,14 @@ class Prior {
 
   virtual double value(const VecC& x) const = 0;
   virtual void prox(const VecC& v, double step, VecC& out) const = 0;
+  // The prox of the `call`-th prior step of a solver run (call = 1, 2, ...:
+  // the solver's iteration). Priors whose step is randomised per call
+  // (wavelet cycle spinning) draw from a stream seeded by (their seed, call),
+  // so the result depends only on the arguments, never on call history;
+  // every other prior ignores `call` and returns prox(v, step).
+  virtual void prox_at(const VecC& v, double step, uint64_t call, VecC& out) const { (void)call; prox(v, step, out); }
+  // True when prox_at depends on `call` (then prox_with_box, which has no call, is not used for it).
+  virtual bool varies_per_call() const { return false; }
 
   virtual bool has_gradient() const { return false; }
   // Aborts (a bug) when !has_gradient().

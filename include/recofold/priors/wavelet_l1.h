@@ -2,10 +2,10 @@
 // l1 norm of orthogonal wavelet coefficients (sparsity prior), optional per-band weights and cycle spinning.
 #pragma once
 
-#include <atomic>
 #include <cstdint>
 #include <memory>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "recofold/ops/wavelet.h"
@@ -24,10 +24,11 @@ struct WaveletL1Options {
   // approximation). Empty = all 1. Size must equal 1 + 3 * levels. The hook for
   // learned per-band thresholds.
   std::vector<double> band_weights;
-  // Random cycle spinning: each prox call draws a circular shift (dy, dx),
-  // uniform in [0, 2^levels)^2, from a stream seeded by (cycle_spin_seed,
-  // call number), and thresholds the transform of the shifted image. Reduces
-  // blocking of thresholded wavelets inside iterative solvers.
+  // Random cycle spinning: prox_at(v, step, call) draws a circular shift
+  // (dy, dx), uniform in [0, 2^levels)^2, from the stream seeded by
+  // (cycle_spin_seed, call) -- the solver's iteration -- and thresholds the
+  // transform of the shifted image. Reduces blocking of thresholded wavelets
+  // inside iterative solvers. prox(v, step) (no call index) is never shifted.
   bool cycle_spin = false;
   uint64_t cycle_spin_seed = 1;
 
@@ -44,9 +45,8 @@ struct WaveletL1Options {
 //   analysis form: K = W, g = the weighted l1 norm; (lambda g)^* is the
 //   indicator of |q_i| <= lambda w_b(i) (q_i = 0 on unpenalised bands).
 //   With a box: no exact method (ConstrainedPrior uses proximal Dykstra).
-// Thread safety: with cycle_spin the call counter is atomic, so concurrent use
-// is safe but the shift sequence then depends on timing; clone() per thread
-// for reproducible runs. Without cycle_spin fully thread-safe.
+// Thread safety: no state between calls (the shift is a function of the call
+// index), so concurrent use is safe and reproducible.
 class WaveletL1Prior final : public Prior {
  public:
   // Throws InputError (field "wavelet.*") when options.validate(image_shape) fails.
@@ -55,6 +55,10 @@ class WaveletL1Prior final : public Prior {
 
   double value(const VecC& x) const override;
   void prox(const VecC& v, double step, VecC& out) const override;
+  void prox_at(const VecC& v, double step, uint64_t call, VecC& out) const override;
+  bool varies_per_call() const override { return options_.cycle_spin; }
+  // The circular shift (dy, dx) of call `call` (0, 0 without cycle spinning or for call 0).
+  std::pair<Index, Index> cycle_shift(uint64_t call) const;
   std::shared_ptr<const LinearOperator> analysis_operator() const override { return transform_; }
   double analysis_value(const VecC& z) const override;
   void analysis_prox(const VecC& w, double step, VecC& out) const override;
@@ -66,15 +70,12 @@ class WaveletL1Prior final : public Prior {
   const WaveletTransform& transform() const { return *transform_; }
   // Threshold multiplier per packed coefficient: w_b(i), or 0 on unpenalised bands.
   const std::vector<float>& coefficient_weights() const { return coefficient_weights_; }
-  // Number of prox calls so far (drives the cycle-spinning stream).
-  uint64_t prox_calls() const { return calls_.load(); }
 
  private:
   Shape shape_;
   WaveletL1Options options_;
   std::shared_ptr<const WaveletTransform> transform_;
   std::vector<float> coefficient_weights_;
-  mutable std::atomic<uint64_t> calls_{0};
 };
 
 }  // namespace recofold
