@@ -65,7 +65,12 @@ void run_convert(const ConvertFlags& f, CLI::App& sub, const Context& ctx) {
   ImageRecord rec = read_image_any(f.in);
   if (f.index >= 0) {
     ImageRecord one = rec;
-    const ImageF img = image_slice(rec, f.index, f.in);
+    ImageF img;
+    try {
+      img = image_slice(rec, f.index, f.in);
+    } catch (const InputError& e) {
+      throw_with_flags(e, {{"index", "--index"}});
+    }
     const bool keep_complex = rec.is_complex && out_ext == ".h5";
     const Shape& s = rec.pixels.shape;
     const Index ny = s[s.rank() - 2], nx = s[s.rank() - 1];

@@ -59,7 +59,7 @@ std::string json_string(const std::string& s) {
 
 // One slice of an image file: --index picks an image of a stack; a 2-D file holds image 0 only.
 // A measurement file (HDF5 without /image but with /truth/image) gives its ground truth.
-ImageF load(const std::string& path, int index) {
+ImageF load_slice(const std::string& path, int index) {
   if (file_extension(path) == ".h5") {
     bool truth_only = false;
     {
@@ -76,6 +76,15 @@ ImageF load(const std::string& path, int index) {
   }
   const ImageRecord rec = read_image_any(path);
   return image_slice(rec, index, path);
+}
+
+// Library field "index" (image_slice) reported as the flag.
+ImageF load(const std::string& path, int index) {
+  try {
+    return load_slice(path, index);
+  } catch (const InputError& e) {
+    throw_with_flags(e, {{"index", "--index"}});
+  }
 }
 
 void require_same_shape(const ImageF& a, const ImageF& b, const std::string& file, const std::string& ref_file) {

@@ -70,6 +70,10 @@ void run_train(const TrainFlags& f, const Context& ctx) {
   LearnedTrainingOutcome r;
   try {
     r = backend.train(run);
+  } catch (const InputError& e) {
+    sigaction(SIGINT, &old_int, nullptr);
+    sigaction(SIGTERM, &old_term, nullptr);
+    throw_with_flags(e, {{"resume", "--resume"}});
   } catch (...) {
     sigaction(SIGINT, &old_int, nullptr);
     sigaction(SIGTERM, &old_term, nullptr);

@@ -42,7 +42,7 @@ void write_dicom(const std::string& path, const ImageRecord& rec) {
   const Shape& s = rec.pixels.shape;
   if (s.rank() < 2 || (s.rank() == 3 && s[0] != 1) || s.rank() > 3)
     throw InputError(path, "", "a DICOM export holds one 2-D image; this record is " + s.to_string() +
-                                   " (pick one image with --index)");
+                                   " (pick one image of the stack)");
   const Index ny = s[s.rank() - 2], nx = s[s.rank() - 1];
   internal::PlainImage p;
   p.size = {static_cast<size_t>(nx), static_cast<size_t>(ny)};

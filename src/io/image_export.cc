@@ -218,7 +218,7 @@ ImageF image_slice(const ImageRecord& rec, Index index, const std::string& file)
   if (s.rank() < 2 || s.rank() > 3) throw InputError(file, "/image", "shape " + s.to_string() + " is not an image");
   const Index count = s.rank() == 3 ? s[0] : 1;
   if (index < 0 || index >= count)
-    throw InputError(file, "--index", "index " + std::to_string(index) + " is out of range; the file holds " +
+    throw InputError(file, "index", "index " + std::to_string(index) + " is out of range; the file holds " +
                                           std::to_string(count) + " image(s)");
   const Index ny = s[s.rank() - 2], nx = s[s.rank() - 1];
   ImageF out(ny, nx);

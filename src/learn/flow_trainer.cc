@@ -90,7 +90,7 @@ TrainResult train_flow_model(const TrainingConfig& cfg, const TrainRun& run) {
   double elapsed_before = 0;
   if (run.resume) {
     if (!file_exists(result.checkpoint))
-      throw InputError(result.checkpoint, "--resume", "no checkpoint to resume from");
+      throw InputError(result.checkpoint, "resume", "no checkpoint to resume from");
     H5Reader r(result.checkpoint);
     if (!r.has_attr("/train", "config") || r.attr_string("/train", "config") != cfg.text)
       throw InputError(result.checkpoint, "/train@config",

@@ -328,7 +328,7 @@ TEST(ImageAny, RejectsUnknownExtensionsStacksInPngAndUnreadableFiles) {
   expect_input_error([&] { read_image_any(dir + "/none.nii.gz"); }, dir + "/none.nii.gz", "", "not found");
   write_text_atomic(dir + "/junk.nrrd", "not an image");
   EXPECT_THROW(read_image_any(dir + "/junk.nrrd"), InputError);
-  expect_input_error([&] { image_slice(stack, 2, "s.h5"); }, "s.h5", "--index", "out of range");
+  expect_input_error([&] { image_slice(stack, 2, "s.h5"); }, "s.h5", "index", "out of range");
   EXPECT_EQ(list_dir(dir), (std::vector<std::string>{"junk.nrrd"}));
 }
 

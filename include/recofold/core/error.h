@@ -17,7 +17,8 @@ class Error : public std::runtime_error {
 // Bad input or bad usage: a file, key, dataset or flag that is missing, malformed,
 // out of range or inconsistent. The CLI maps it to exit code 2.
 //   file:  "meas_04.h5", "configs/study.toml", or "" when the input is a flag
-//   field: "/mri/mask", "solver.step_size", "--accel"
+//   field: "/mri/mask", "solver.step_size", "prior.wavelet.levels" in the library;
+//          the CLI replaces field paths by its flags (e.g. --accel) before printing
 //   line:  1-based line in a text input (TOML); 0 when not applicable
 class InputError : public Error {
  public:

@@ -74,7 +74,7 @@ bool is_image_extension(const std::string& ext);
 
 // The real image of one slice of a record: magnitude if `rec.is_complex`, else
 // the real part. `index` selects the slice of a stack (0 for a 2-D image);
-// out of range → InputError(file, "--index", ...).
+// out of range → InputError(file, "index", ...) (the CLI names its own flag).
 ImageF image_slice(const ImageRecord& rec, Index index, const std::string& file = "");
 
 }  // namespace recofold

@@ -14,7 +14,8 @@ namespace recofold {
 // How one training run is driven (besides the config).
 struct TrainRun {
   std::string out;            // model file to write (.h5); the checkpoint is checkpoint_path(out)
-  bool resume = false;        // continue from the checkpoint (InputError if none, or if the config changed)
+  bool resume = false;        // continue from the checkpoint (InputError(checkpoint, "resume", ...) if none,
+                              // or if the config changed)
   ProgressSink* progress = nullptr;  // step, loss, validation PSNR, throughput; may be null
   const std::atomic<bool>* stop = nullptr;  // set (e.g. by SIGINT/SIGTERM): checkpoint and return
   int64_t stop_after_steps = 0;  // > 0: behave as if stopped after this many steps (tests of resume)

@@ -107,7 +107,7 @@ struct TrainingConfig {
   TrainingConditions data;
   TrainOptions train;
   std::string file;  // path it was read from
-  std::string text;  // the config text (provenance; --resume checks it is unchanged)
+  std::string text;  // the config text (provenance; a resumed run checks it is unchanged)
 
   // Reads and validates; every problem is an InputError naming file, line and key.
   static TrainingConfig load(const std::string& path);

@@ -7,7 +7,7 @@
 namespace recofold {
 
 // R(x) = 0: value 0, prox = identity, gradient 0; with a box the prox is the
-// projection (exact). Used for plain least squares and "--prior none".
+// projection (exact). Used for plain least squares and prior kind "none".
 class ZeroPrior final : public Prior {
  public:
   ZeroPrior() : Prior(0.0) {}
