@@ -59,7 +59,7 @@ namespace {
 
 NdArray<uint8_t> draw_pixel_mask(const ImageProblemOptions& o, Index ny, Index nx) {
   if (o.pattern == PixelPattern::kFile) return o.pixel_mask;
-  Rng rng = Rng::for_stream(o.seed, 1);
+  Rng rng = Rng::for_stream(o.pattern_seed.value_or(o.seed), 1);
   const Index n = ny * nx;
   if (o.pattern == PixelPattern::kRandom) {
     NdArray<uint8_t> m(Shape{ny, nx}, 0);

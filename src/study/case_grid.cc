@@ -15,11 +15,14 @@ std::string Acquisition::key() const {
   if (modality == Modality::kMri)
     return "mri/" + pattern + "/R" + format_number(accel) + "/c" + std::to_string(coils) + "/s" +
            format_number(noise);
+  if (modality == Modality::kDenoise) return "denoise/s" + format_number(noise);
+  if (modality == Modality::kInpaint)
+    return "inpaint/" + pattern + "/k" + format_number(keep) + "/s" + format_number(noise);
   return "ct/v" + std::to_string(views) + "/a" + format_number(arc) + "/p" + format_number(photons);
 }
 
 const std::vector<std::string>& acquisition_axes() {
-  static const std::vector<std::string> axes = {"pattern", "accel", "coils", "noise", "views", "arc", "photons"};
+  static const std::vector<std::string> axes = {"pattern", "accel", "coils", "noise", "keep", "views", "arc", "photons"};
   return axes;
 }
 
@@ -28,6 +31,12 @@ std::string axis_value(const Acquisition& a, const std::string& axis) {
     if (axis == "pattern") return a.pattern;
     if (axis == "accel") return format_number(a.accel);
     if (axis == "coils") return std::to_string(a.coils);
+    if (axis == "noise") return format_number(a.noise);
+  } else if (a.modality == Modality::kDenoise) {
+    if (axis == "noise") return format_number(a.noise);
+  } else if (a.modality == Modality::kInpaint) {
+    if (axis == "pattern") return a.pattern;
+    if (axis == "keep") return format_number(a.keep);
     if (axis == "noise") return format_number(a.noise);
   } else {
     if (axis == "views") return std::to_string(a.views);
@@ -61,6 +70,24 @@ std::vector<Acquisition> expand_acquisitions(const StudyConfig& c) {
           a.views = v;
           a.arc = arc;
           a.photons = ph;
+          out.push_back(a);
+        }
+  if (c.denoise)
+    for (double s : c.denoise->noise_sigmas) {
+      Acquisition a;
+      a.modality = Modality::kDenoise;
+      a.noise = s;
+      out.push_back(a);
+    }
+  if (c.inpaint)
+    for (const auto& p : c.inpaint->patterns)
+      for (double k : c.inpaint->keeps)
+        for (double s : c.inpaint->noise_sigmas) {
+          Acquisition a;
+          a.modality = Modality::kInpaint;
+          a.pattern = p;
+          a.keep = k;
+          a.noise = s;
           out.push_back(a);
         }
   return out;
@@ -120,7 +147,10 @@ CaseGrid expand_grid(const StudyConfig& c) {
           sc.key = c.phantoms[p].label + "|" + acq.key() + "|" + c.methods[m].name + "|" + rep;
           // The mask depends on the sampling only (pattern, R, repetition), so
           // the coil and noise axes compare the same sampling pattern.
-          sc.mask_seed = seed_of(c.seed, "mask|" + acq.pattern + "|" + format_number(acq.accel) + "|" + rep);
+          // Inpainting pixels depend on (pattern, repetition): keep levels nest.
+          sc.mask_seed = acq.modality == Modality::kInpaint
+                             ? seed_of(c.seed, "pixels|" + acq.pattern + "|" + rep)
+                             : seed_of(c.seed, "mask|" + acq.pattern + "|" + format_number(acq.accel) + "|" + rep);
           sc.noise_seed = seed_of(c.seed, "noise|" + mkey);
           g.cases.push_back(sc);
           any = true;

@@ -9,9 +9,11 @@
 #include <optional>
 
 #include "recofold/acquire/ct_simulation.h"
+#include "recofold/acquire/image_problem.h"
 #include "recofold/acquire/mri.h"
 #include "recofold/acquire/retrospective.h"
 #include "recofold/core/error.h"
+#include "recofold/core/hash.h"
 #include "recofold/phantom/family.h"
 #include "recofold/phantom/phantom_table.h"
 #include "recofold/phantom/raster.h"
@@ -49,6 +51,19 @@ ImageF image_of(const ImageC& x, bool magnitude) {
 
 }  // namespace
 
+namespace {
+std::string kept_name(const std::string& key) {
+  std::string n;
+  for (char ch : key) n += ch == '|' ? '_' : ch == '/' ? '-' : ch;
+  return n + "-" + fnv1a_hex(key).substr(0, 8) + ".h5";
+}
+}  // namespace
+
+std::string kept_measurement_file(const std::string& measurement_key) {
+  return "measurements/" + kept_name(measurement_key);
+}
+std::string kept_image_file(const std::string& case_key) { return "images/" + kept_name(case_key); }
+
 CaseMeasurement simulate_case_measurement(const StudyConfig& config, const StudyPhantom& sp, const Acquisition& acq,
                                           uint64_t mask_seed, uint64_t noise_seed) {
   const int ny = static_cast<int>(config.ny), nx = static_cast<int>(config.nx);
@@ -84,6 +99,18 @@ CaseMeasurement simulate_case_measurement(const StudyConfig& config, const Study
       out.measurement = simulate_mri(analytic, raster, pixel, mask, so);
       out.truth = image_of(raster, true);
     }
+  } else if (acq.modality == Modality::kDenoise || acq.modality == Modality::kInpaint) {
+    ImageProblemOptions io;
+    io.noise_sigma = acq.noise;
+    if (acq.modality == Modality::kInpaint) {
+      io.keep = acq.keep;
+      io.pattern = *parse_pixel_pattern(acq.pattern);
+      io.block_size = config.inpaint->block_size;
+      io.pattern_seed = mask_seed;
+    }
+    io.seed = noise_seed;
+    out.measurement = simulate_image_problem(acq.modality, raster, pixel, io);
+    out.truth = image_of(raster, false);
   } else {
     // Parallel beam, views equally spaced over the arc, acquire's automatic
     // detector (ct_simulation.h), as `recofold simulate` does.

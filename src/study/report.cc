@@ -44,13 +44,29 @@ pre{background:#f7f7f7;padding:8px;font-size:12px;overflow-x:auto}img.montage{im
 )";
 
 const std::vector<std::string>& modality_axes(const std::string& modality) {
-  static const std::vector<std::string> mri = {"accel", "noise", "coils"}, ct = {"views", "photons", "arc"};
-  return modality == "mri" ? mri : ct;
+  static const std::vector<std::string> mri = {"accel", "noise", "coils"}, ct = {"views", "photons", "arc"},
+                                        denoise = {"noise"}, inpaint = {"keep", "noise"};
+  if (modality == "mri") return mri;
+  if (modality == "denoise") return denoise;
+  if (modality == "inpaint") return inpaint;
+  return ct;
+}
+
+// Section and grid names of a modality.
+std::string modality_title(Modality m) {
+  switch (m) {
+    case Modality::kMri: return "MRI";
+    case Modality::kCt: return "CT";
+    case Modality::kDenoise: return "Denoising";
+    case Modality::kInpaint: return "Inpainting";
+  }
+  return "";
 }
 
 std::string axis_label(const std::string& axis) {
   if (axis == "accel") return "acceleration R";
-  if (axis == "noise") return "noise sigma (per real/imaginary part)";
+  if (axis == "noise") return "noise sigma";
+  if (axis == "keep") return "kept pixel fraction";
   if (axis == "coils") return "receive coils";
   if (axis == "views") return "views";
   if (axis == "photons") return "photons per ray";
@@ -376,12 +392,12 @@ std::string write_study_report(const ReportInputs& in) {
     // Cases per modality: acquisitions x methods that run there; times objects and repetitions.
     std::string terms;
     long long per_object = 0;
-    for (const Modality mod : {Modality::kMri, Modality::kCt}) {
+    for (const Modality mod : all_modalities()) {
       long long na = 0, nm = 0;
       for (const Acquisition& a : grid.acquisitions) na += a.modality == mod ? 1 : 0;
       for (const StudyMethod& m : c.methods) nm += m.applies_to(mod) ? 1 : 0;
       if (na == 0 || nm == 0) continue;
-      terms += std::string(terms.empty() ? "" : " + ") + (mod == Modality::kMri ? "MRI " : "CT ") +
+      terms += std::string(terms.empty() ? "" : " + ") + modality_title(mod) + " " +
                std::to_string(na) + " acquisition" + (na == 1 ? "" : "s") + " &times; " + std::to_string(nm) +
                " method" + (nm == 1 ? "" : "s");
       per_object += na * nm;
@@ -419,7 +435,8 @@ std::string write_study_report(const ReportInputs& in) {
   }
 
   int figure = 0;
-  for (const std::string modality : {"mri", "ct"}) {
+  for (const Modality modality_enum : all_modalities()) {
+    const std::string modality(to_string(modality_enum));
     std::vector<const Acquisition*> acqs;
     for (const Acquisition& a : grid.acquisitions)
       if (to_string(a.modality) == modality) acqs.push_back(&a);
@@ -427,7 +444,7 @@ std::string write_study_report(const ReportInputs& in) {
     for (const StudyMethod& m : c.methods)
       if (m.applies_to(*parse_modality(modality))) methods.push_back(&m);
     if (acqs.empty() || methods.empty()) continue;
-    h += std::string("<h2>") + (modality == "mri" ? "MRI" : "CT") + " protocols</h2>\n";
+    h += "<h2>" + modality_title(modality_enum) + " protocols</h2>\n";
 
     // Table of methods x conditions (object set x acquisition).
     h += "<p>Each cell: per metric the mean, its 95 % confidence interval (Student's t over objects and "

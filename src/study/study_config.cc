@@ -11,6 +11,7 @@
 #include "recofold/core/error.h"
 #include "recofold/core/hash.h"
 #include "recofold/core/provenance.h"
+#include "recofold/acquire/image_problem.h"
 #include "recofold/io/image_export.h"
 #include "recofold/io/measurement_file.h"
 #include "recofold/phantom/family.h"
@@ -293,15 +294,14 @@ StudyMethod parse_method_table(const Config& t, int index, const std::string& ba
   if (t.has("modality")) {
     const std::string mod = t.get_string("modality");
     const auto parsed = parse_modality(mod);
-    if (!parsed || (*parsed != Modality::kMri && *parsed != Modality::kCt))
-      throw t.error("modality", "'" + mod + "'; expected mri or ct");
+    if (!parsed) throw t.error("modality", "'" + mod + "'; expected mri, ct, denoise or inpaint");
     if (!runs_on(s.method, *parsed))
       throw t.error("modality", "method " + m.method_name() + " does not run on " + mod);
     m.modalities = {*parsed};
   } else if (s.method == Method::kUnrolled) {
     throw t.error("modality", "missing; an unrolled method needs modality = \"mri\" or \"ct\"");
   } else {
-    for (Modality mod : {Modality::kMri, Modality::kCt})
+    for (Modality mod : all_modalities())
       if (runs_on(s.method, mod)) m.modalities.push_back(mod);
   }
   const bool named_prior = s.prior.kind && *s.prior.kind != PriorKind::kNone && s.method != Method::kUnrolled;
@@ -340,6 +340,16 @@ std::string StudyPhantom::truth_kind() const {
   return "analytic";
 }
 
+bool StudyConfig::has_protocol(Modality modality) const {
+  switch (modality) {
+    case Modality::kMri: return mri.has_value();
+    case Modality::kCt: return ct.has_value();
+    case Modality::kDenoise: return denoise.has_value();
+    case Modality::kInpaint: return inpaint.has_value();
+  }
+  return false;
+}
+
 bool StudyMethod::applies_to(Modality modality) const {
   return std::find(modalities.begin(), modalities.end(), modality) != modalities.end();
 }
@@ -357,6 +367,69 @@ const std::vector<std::string>& study_metric_names() {
   return names;
 }
 
+namespace {
+// The protocol tables [mri], [ct], [denoise] and [inpaint].
+void parse_protocols(const Config& root, StudyConfig& c) {
+  if (root.has("mri")) {
+    const Config t = root.table("mri");
+    t.expect_only({"pattern", "accel", "coils", "noise", "center"});
+    MriAxes a;
+    if (t.has("pattern")) a.patterns = string_list(t, "pattern");
+    for (const auto& p : a.patterns)
+      if (!parse_mask_pattern(p)) throw t.error("pattern", "'" + p + "'; expected one of " + accepted_mask_patterns());
+    if (t.has("accel")) a.accelerations = number_list(t, "accel");
+    check_range(t, "accel", a.accelerations, 1.0, 64.0, false, "in [1, 64]");
+    if (t.has("coils")) a.coils = int_list(t, "coils", 1, 32);
+    if (t.has("noise")) a.noise_sigmas = number_list(t, "noise");
+    check_range(t, "noise", a.noise_sigmas, 0.0, 1e6, false, ">= 0");
+    a.center_fraction = t.get_double_or("center", 0.08);
+    if (!(a.center_fraction >= 0.0 && a.center_fraction < 1.0)) throw t.error("center", "must be in [0, 1)");
+    c.mri = a;
+  }
+  if (root.has("ct")) {
+    const Config t = root.table("ct");
+    t.expect_only({"views", "arc", "photons", "mu"});
+    CtAxes a;
+    if (t.has("views")) a.views = int_list(t, "views", 2, 100000);
+    if (t.has("arc")) a.arcs_deg = number_list(t, "arc");
+    check_range(t, "arc", a.arcs_deg, 0.0, 360.0, true, "in (0, 360]");
+    if (t.has("photons")) a.photons = number_list(t, "photons");
+    check_range(t, "photons", a.photons, 0.0, 1e15, false, ">= 0 (0: noiseless)");
+    a.mu_per_mm = t.get_double_or("mu", 0.0);
+    if (!(a.mu_per_mm >= 0.0 && std::isfinite(a.mu_per_mm)))
+      throw t.error("mu", "must be >= 0 (0: automatic, the largest line integral becomes 4)");
+    c.ct = a;
+  }
+  if (root.has("denoise")) {
+    const Config t = root.table("denoise");
+    t.expect_only({"noise"});
+    DenoiseAxes a;
+    if (t.has("noise")) a.noise_sigmas = number_list(t, "noise");
+    check_range(t, "noise", a.noise_sigmas, 0.0, 1e6, false, ">= 0");
+    c.denoise = a;
+  }
+  if (root.has("inpaint")) {
+    const Config t = root.table("inpaint");
+    t.expect_only({"pattern", "keep", "noise", "block"});
+    InpaintAxes a;
+    if (t.has("pattern")) a.patterns = string_list(t, "pattern");
+    for (const auto& p : a.patterns)
+      if (!parse_pixel_pattern(p) || p == "file")
+        throw t.error("pattern", "'" + p + "'; expected random or blocks");
+    if (t.has("keep")) a.keeps = number_list(t, "keep");
+    check_range(t, "keep", a.keeps, 0.0, 1.0, true, "in (0, 1]");
+    if (t.has("noise")) a.noise_sigmas = number_list(t, "noise");
+    check_range(t, "noise", a.noise_sigmas, 0.0, 1e6, false, ">= 0");
+    if (t.has("block")) {
+      const std::vector<int> b = int_list(t, "block", 1, 256);
+      if (b.size() != 1) throw t.error("block", "must be a single value");
+      a.block_size = b.front();
+    }
+    c.inpaint = a;
+  }
+}
+}  // namespace
+
 StudyConfig StudyConfig::load(const std::string& path) {
   const std::string text = read_text_file(path);
   std::string base = ".";
@@ -369,7 +442,7 @@ StudyConfig StudyConfig::load(const std::string& path) {
 StudyConfig StudyConfig::parse(const std::string& text, const std::string& name, const std::string& base_dir) {
   const Config root = Config::parse(text, name);
   root.expect_only({"name", "description", "size", "repetitions", "seed", "metrics", "region", "phantom",
-                    "measurement", "object", "mri", "ct", "method"});
+                    "measurement", "object", "mri", "ct", "denoise", "inpaint", "keep", "method"});
   StudyConfig c;
   c.file = name;
   c.text = text;
@@ -460,38 +533,14 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
                         "scored against; truth discrete).");
   }
 
-  // Protocols.
-  if (root.has("mri")) {
-    const Config t = root.table("mri");
-    t.expect_only({"pattern", "accel", "coils", "noise", "center"});
-    MriAxes a;
-    if (t.has("pattern")) a.patterns = string_list(t, "pattern");
-    for (const auto& p : a.patterns)
-      if (!parse_mask_pattern(p)) throw t.error("pattern", "'" + p + "'; expected one of " + accepted_mask_patterns());
-    if (t.has("accel")) a.accelerations = number_list(t, "accel");
-    check_range(t, "accel", a.accelerations, 1.0, 64.0, false, "in [1, 64]");
-    if (t.has("coils")) a.coils = int_list(t, "coils", 1, 32);
-    if (t.has("noise")) a.noise_sigmas = number_list(t, "noise");
-    check_range(t, "noise", a.noise_sigmas, 0.0, 1e6, false, ">= 0");
-    a.center_fraction = t.get_double_or("center", 0.08);
-    if (!(a.center_fraction >= 0.0 && a.center_fraction < 1.0)) throw t.error("center", "must be in [0, 1)");
-    c.mri = a;
+  if (root.has("keep")) {
+    const std::string keep = root.get_string("keep");
+    if (keep != "all" && keep != "montage") throw root.error("keep", "'" + keep + "'; expected \"all\" or \"montage\"");
+    c.keep_all = keep == "all";
   }
-  if (root.has("ct")) {
-    const Config t = root.table("ct");
-    t.expect_only({"views", "arc", "photons", "mu"});
-    CtAxes a;
-    if (t.has("views")) a.views = int_list(t, "views", 2, 100000);
-    if (t.has("arc")) a.arcs_deg = number_list(t, "arc");
-    check_range(t, "arc", a.arcs_deg, 0.0, 360.0, true, "in (0, 360]");
-    if (t.has("photons")) a.photons = number_list(t, "photons");
-    check_range(t, "photons", a.photons, 0.0, 1e15, false, ">= 0 (0: noiseless)");
-    a.mu_per_mm = t.get_double_or("mu", 0.0);
-    if (!(a.mu_per_mm >= 0.0 && std::isfinite(a.mu_per_mm)))
-      throw t.error("mu", "must be >= 0 (0: automatic, the largest line integral becomes 4)");
-    c.ct = a;
-  }
-  if (!c.mri && !c.ct) throw root.error("mri", "empty grid: give an [mri] or a [ct] protocol table");
+  parse_protocols(root, c);
+  if (!c.mri && !c.ct && !c.denoise && !c.inpaint)
+    throw root.error("mri", "empty grid: give an [mri], [ct], [denoise] or [inpaint] protocol table");
   if (!measured.empty() && !c.mri)
     throw measured.front().error("file", "a [[measurement]] object needs an [mri] protocol table (its masks)");
 
@@ -503,7 +552,7 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
     StudyMethod m = parse_method_table(t, static_cast<int>(index), base_dir);
     // The spec against every modality the study runs it on.
     for (Modality mod : m.modalities)
-      if ((mod == Modality::kMri && c.mri) || (mod == Modality::kCt && c.ct))
+      if (c.has_protocol(mod))
         throw_spec_errors(t, m.index, m.spec.validate(mod, Shape{c.ny, c.nx}));
     if (m.learned() && !study_has_learn()) {
       if (m.optional) {
@@ -523,7 +572,7 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
   }
   bool any = false;
   for (const StudyMethod& m : c.methods)
-    any = any || (c.mri && m.applies_to(Modality::kMri)) || (c.ct && m.applies_to(Modality::kCt));
+    for (Modality mod : m.modalities) any = any || c.has_protocol(mod);
   if (!any) throw root.error("method", "empty grid: no method runs on the given protocols");
 
   // Hash: config text plus the bytes of every file it names.

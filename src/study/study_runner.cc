@@ -21,6 +21,7 @@
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
 #include "recofold/io/image_file.h"
+#include "recofold/io/measurement_file.h"
 #include "recofold/ops/fft.h"
 #include "recofold/study/case_runner.h"
 #include "recofold/study/folder_lock.h"
@@ -211,12 +212,12 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
       if (hash != config.hash)
         throw InputError(manifest, "config_hash",
                          "the folder holds results of a different config (" + hash + ", this config " +
-                             config.hash + "); choose another --out");
+                             config.hash + "); choose another output folder");
       const bool whole = options.shard.count == 1;
       if (shard != options.shard.to_string() && !(whole && shard == "merged"))
         throw InputError(manifest, "shard",
                          "the folder holds shard " + shard + ", not " + options.shard.to_string() +
-                             "; choose another --out");
+                             "; choose another output folder");
     }
     const auto train_start = std::chrono::steady_clock::now();
     ProgressSink* training = options.training_progress ? options.training_progress : options.progress;
@@ -231,6 +232,7 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
   }
 
   make_dir(dir + "/images");
+  if (config.keep_all) make_dir(dir + "/measurements");
   write_text_atomic(dir + "/study.toml", config.text);
   if (!file_exists(manifest))
     write_manifest(dir, config, options.shard.to_string(), s.cases_total, s.cases_in_shard, options.command);
@@ -300,6 +302,15 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
       } catch (const std::exception& e) {
         sim_error = std::string("simulation failed: ") + e.what();
       }
+      std::string measurement_file;
+      if (sim_error.empty() && config.keep_all) {
+        try {
+          measurement_file = kept_measurement_file(first.measurement_key);
+          write_measurement_file(dir + "/" + measurement_file, data.measurement);
+        } catch (const std::exception& e) {
+          sim_error = output_failure("writing the measurement: " + std::string(e.what()));
+        }
+      }
       if (sim_error.empty() && keep_images) {
         try {
           write_image_file(study_image_path(dir, "truth|" + first.measurement_key),
@@ -323,6 +334,17 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
             } catch (const std::exception& e) {
               o.ok = false;
               o.error = output_failure("writing the montage image: " + std::string(e.what()));
+            }
+          }
+          if (o.ok && config.keep_all) {
+            try {
+              o.image_file = kept_image_file(c->key);
+              write_image_file(dir + "/" + o.image_file, o.record, Provenance{});
+              o.measurement_file = measurement_file;
+            } catch (const std::exception& e) {
+              o.ok = false;
+              o.image_file.clear();
+              o.error = output_failure("writing the kept image: " + std::string(e.what()));
             }
           }
         } else {
@@ -434,6 +456,18 @@ StudyRunSummary merge_studies(const std::vector<std::string>& dirs, const std::s
         if (file_exists(from) && !file_exists(to)) write_text_atomic(to, read_text_file(from));
       }
     }
+  // keep = "all": the files each shard's rows name.
+  if (config.keep_all) {
+    make_dir(out_dir + "/measurements");
+    const int kf = merged.column("measurement_file"), ki = merged.column("image_file"),
+              kc = merged.column("case");
+    for (size_t r = 0; r < merged.rows.size(); ++r)
+      for (int k : {kf, ki}) {
+        const std::string& rel = merged.rows[r][size_t(k)];
+        if (rel.empty() || file_exists(out_dir + "/" + rel)) continue;
+        write_text_atomic(out_dir + "/" + rel, read_text_file(owner.at(merged.rows[r][size_t(kc)]) + "/" + rel));
+      }
+  }
   write_manifest(out_dir, config, "merged", s.cases_total, s.cases_total, command);
   std::set<std::string> have;
   for (const auto& r : merged.rows) have.insert(r[size_t(merged.column("case"))]);

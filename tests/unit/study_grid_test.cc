@@ -6,9 +6,12 @@
 #include <map>
 #include <set>
 #include <string>
+#include <utility>
+#include <vector>
 
 #include "recofold/core/error.h"
 #include "recofold/study/case_grid.h"
+#include "recofold/study/case_runner.h"
 #include "recofold/study/study_config.h"
 
 namespace recofold {
@@ -78,7 +81,9 @@ TEST(StudyGrid, KeysAreUniqueAndNameEveryAxis) {
   for (const Acquisition& a : g.acquisitions)
     for (const std::string& axis : acquisition_axes()) {
       const bool mri_axis = axis == "pattern" || axis == "accel" || axis == "coils" || axis == "noise";
-      EXPECT_EQ(axis_value(a, axis).empty(), mri_axis != (a.modality == Modality::kMri)) << a.key() << " " << axis;
+      const bool ct_axis = axis == "views" || axis == "arc" || axis == "photons";
+      const bool has = a.modality == Modality::kMri ? mri_axis : ct_axis;
+      EXPECT_EQ(axis_value(a, axis).empty(), !has) << a.key() << " " << axis;
     }
 }
 
@@ -191,6 +196,109 @@ TEST(StudyConfigLoad, HashFollowsTheText) {
   EXPECT_EQ(a.hash, every_axis().hash);
   EXPECT_NE(a.hash, b.hash);
   EXPECT_EQ(a.hash.size(), 16u);
+}
+
+}  // namespace
+}  // namespace recofold
+
+namespace recofold {
+namespace {
+
+const char* kImageProblems = R"(
+size = 32
+repetitions = 2
+[[phantom]]
+family = "ellipses"
+count = 1
+[denoise]
+noise = [0.05, 0.1]
+[inpaint]
+pattern = ["random", "blocks"]
+keep = [0.3, 0.6]
+noise = [0, 0.01]
+block = 4
+[[method]]
+method = "zero-filled"
+[[method]]
+method = "fbp"
+[[method]]
+method = "fista"
+prior = "tv"
+lambda = 0.01
+iters = 5
+)";
+
+TEST(StudyGrid, DenoiseAndInpaintAxesExpandWithTheirMethods) {
+  const StudyConfig c = StudyConfig::parse(kImageProblems, "images.toml", source_dir());
+  ASSERT_TRUE(c.denoise && c.inpaint);
+  EXPECT_FALSE(c.mri || c.ct);
+  EXPECT_EQ(c.inpaint->block_size, 4);
+  const CaseGrid g = expand_grid(c);
+  ASSERT_EQ(g.acquisitions.size(), 2u + 2u * 2u * 2u);
+  EXPECT_EQ(g.acquisitions[0].key(), "denoise/s0.05");
+  EXPECT_EQ(g.acquisitions[2].key(), "inpaint/random/k0.3/s0");
+  EXPECT_EQ(axis_value(g.acquisitions[2], "keep"), "0.3");
+  EXPECT_EQ(axis_value(g.acquisitions[0], "keep"), "") << "keep is an inpainting axis only";
+  // zero-filled and fista run on both image problems, fbp on neither.
+  EXPECT_EQ(g.cases.size(), size_t(10 * 2 * 2));
+  for (const StudyCase& cs : g.cases) EXPECT_NE(c.methods[size_t(cs.method)].name, "fbp");
+}
+
+TEST(StudyGrid, InpaintPixelsNestAcrossKeepAndAreSharedAcrossNoise) {
+  const StudyConfig c = StudyConfig::parse(kImageProblems, "images.toml", source_dir());
+  const CaseGrid g = expand_grid(c);
+  // pattern|repetition -> (keep, noise) -> kept pixels
+  std::map<std::string, std::map<std::pair<double, double>, std::vector<uint8_t>>> masks;
+  std::set<uint64_t> seeds;
+  for (const StudyCase& cs : g.cases) {
+    const Acquisition& a = g.acquisitions[size_t(cs.acquisition)];
+    if (a.modality != Modality::kInpaint || c.methods[size_t(cs.method)].name != "zero-filled") continue;
+    seeds.insert(cs.mask_seed);
+    const CaseMeasurement m =
+        simulate_case_measurement(c, c.phantoms[size_t(cs.phantom)], a, cs.mask_seed, cs.noise_seed);
+    ASSERT_TRUE(m.measurement.image);
+    masks[a.pattern + "|" + std::to_string(cs.repetition)][{a.keep, a.noise}] =
+        m.measurement.image->pixel_mask.data;
+  }
+  EXPECT_EQ(seeds.size(), 2u * 2u) << "one pixel pattern per pattern and repetition";
+  ASSERT_EQ(masks.size(), 4u);
+  for (const auto& [key, by] : masks) {
+    EXPECT_EQ(by.at({0.3, 0.0}), by.at({0.3, 0.01})) << key << ": noise levels share the pixels";
+    const auto& small = by.at({0.3, 0.0});
+    const auto& large = by.at({0.6, 0.0});
+    size_t ns = 0, nl = 0;
+    for (size_t p = 0; p < small.size(); ++p) {
+      EXPECT_LE(small[p], large[p]) << key << ": pixel " << p << " kept at 0.3 but not at 0.6";
+      ns += small[p];
+      nl += large[p];
+    }
+    EXPECT_NEAR(double(ns) / double(small.size()), 0.3, 0.1) << key;
+    EXPECT_NEAR(double(nl) / double(large.size()), 0.6, 0.1) << key;
+  }
+  EXPECT_NE(masks.at("random|0").at({0.3, 0.0}), masks.at("random|1").at({0.3, 0.0}))
+      << "repetitions draw new pixels";
+}
+
+TEST(StudyConfigLoad, ImageProblemAndKeepErrorsNameTheirKeys) {
+  auto with = [](const std::string& from, const std::string& to) {
+    std::string t = kImageProblems;
+    t.replace(t.find(from), from.size(), to);
+    return t;
+  };
+  EXPECT_NE(error_of(with("keep = [0.3, 0.6]", "keep = [0.3, 1.5]")).find("inpaint.keep"), std::string::npos)
+      << error_of(with("keep = [0.3, 0.6]", "keep = [0.3, 1.5]"));
+  EXPECT_NE(error_of(with("keep = [0.3, 0.6]", "keep = [0]")).find("inpaint.keep"), std::string::npos);
+  EXPECT_NE(error_of(with("noise = [0.05, 0.1]", "noise = [-0.1]")).find("denoise.noise"), std::string::npos);
+  EXPECT_NE(error_of(with("\"random\", \"blocks\"", "\"file\"")).find("inpaint.pattern"), std::string::npos);
+  EXPECT_NE(error_of(with("block = 4", "block = 0")).find("inpaint.block"), std::string::npos);
+  EXPECT_NE(error_of(with("block = 4", "stride = 4")).find("stride"), std::string::npos);
+  EXPECT_NE(error_of("keep = \"some\"\n" + std::string(kImageProblems)).find("keep"), std::string::npos);
+  EXPECT_EQ(error_of("keep = \"all\"\n" + std::string(kImageProblems)), "");
+  EXPECT_TRUE(StudyConfig::parse("keep = \"all\"\n" + std::string(kImageProblems), "k.toml", source_dir()).keep_all);
+  // A method restricted to an image problem.
+  EXPECT_EQ(error_of(with("method = \"zero-filled\"", "method = \"zero-filled\"\nmodality = \"inpaint\"")), "");
+  EXPECT_NE(error_of(with("method = \"fbp\"", "method = \"fbp\"\nmodality = \"denoise\"")).find("modality"),
+            std::string::npos);
 }
 
 }  // namespace

@@ -33,7 +33,11 @@ struct ImageProblemOptions {
   int block_size = 8;  // blocks: side in pixels, >= 1
   // kFile: the pixel mask [ny, nx], 0/1, at least one pixel kept.
   NdArray<uint8_t> pixel_mask;
-  uint64_t seed = 0;  // noise and pattern draws (Rng::for_stream(seed, 0) and (seed, 1))
+  uint64_t seed = 0;  // noise draws (Rng::for_stream(seed, 0)); the pattern too unless pattern_seed is set
+  // Pattern draws (Rng::for_stream(pattern_seed, 1)); unset: `seed`. A study sets it apart from
+  // the noise seed so that noise levels share the pixels. For a fixed pattern seed, patterns
+  // nest: a larger keep keeps every pixel a smaller one keeps (the same draws, stopped earlier).
+  std::optional<uint64_t> pattern_seed;
 
   // Every violation by field path for `modality` on a grid of `image_shape`:
   // "denoise.noise_sigma" / "inpaint.noise_sigma", "inpaint.keep",

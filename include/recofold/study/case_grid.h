@@ -14,24 +14,29 @@ namespace recofold {
 // fields for ct; the others stay at their defaults and are blank in results.csv.
 struct Acquisition {
   Modality modality = Modality::kMri;
-  std::string pattern;       // MRI mask pattern
+  std::string pattern;       // MRI mask pattern; inpaint pixel pattern (random | blocks)
   double accel = 0.0;        // MRI acceleration R
   int coils = 0;             // MRI receive coils
-  double noise = 0.0;        // MRI noise sigma
+  double noise = 0.0;        // noise sigma (MRI, denoise, inpaint)
+  double keep = 0.0;         // inpaint kept pixel fraction
   int views = 0;             // CT views
   double arc = 0.0;          // CT arc, degrees
   double photons = 0.0;      // CT photons per ray (0: noiseless)
 
-  // "mri/lines-vd/R4/c1/s0.01" or "ct/v60/a180/p1e+05".
+  // "mri/lines-vd/R4/c1/s0.01", "ct/v60/a180/p1e+05", "denoise/s0.05" or
+  // "inpaint/random/k0.5/s0.01".
   std::string key() const;
 };
 
-// The acquisition axes (results.csv column names, in order), MRI then CT.
+// The acquisition axes (results.csv column names, in order): MRI (pattern,
+// accel, coils, noise), inpaint's keep, CT (views, arc, photons); denoise
+// uses noise, inpaint pattern, keep and noise.
 const std::vector<std::string>& acquisition_axes();
 // The value of axis `axis` as CSV text ("" when the axis is not the acquisition's modality).
 std::string axis_value(const Acquisition& a, const std::string& axis);
 
-// MRI grid (pattern x accel x coils x noise) then CT grid (views x arc x photons).
+// MRI grid (pattern x accel x coils x noise), CT grid (views x arc x photons),
+// denoise grid (noise), inpaint grid (pattern x keep x noise).
 std::vector<Acquisition> expand_acquisitions(const StudyConfig& config);
 
 // One case: indices into the config's phantoms, acquisitions and methods.
@@ -45,7 +50,9 @@ struct StudyCase {
   std::string key;           // "<phantom>|<acquisition key>|<method>|r<rep>", unique
   std::string measurement_key;  // "<phantom>|<acquisition key>|r<rep>"
   uint64_t mask_seed = 0;    // sampling: from (pattern, accel, repetition) only, so phantoms,
-                             // coil counts and noise levels share the mask
+                             // coil counts and noise levels share the mask; inpaint: from
+                             // (pattern, repetition), so keep levels nest and noise levels
+                             // share the pixels
   uint64_t noise_seed = 0;   // acquisition noise (per measurement)
 };
 

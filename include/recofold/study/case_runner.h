@@ -24,7 +24,7 @@ class LearnedModelSet;
 // A simulated measurement with its truth and the scoring region.
 struct CaseMeasurement {
   Measurement measurement;
-  ImageF truth;    // real truth: |object| for MRI, the attenuation image for CT
+  ImageF truth;    // real truth: |object| for MRI, the attenuation image for CT, the object for denoise/inpaint
   ImageF region;   // empty: whole image
 };
 
@@ -38,7 +38,10 @@ struct CaseMeasurement {
 //   CT:  parallel beam, `views` equally spaced over `arc`, detectors
 //        ceil(sqrt(2) max(ny, nx)), pixel fov_mm / nx, mu from [ct] (0: automatic), exact line
 //        integrals (from the pixels for [[object]] images), Poisson noise with
-//        `photons` per ray (none when 0).
+//        `photons` per ray (none when 0);
+//   denoise / inpaint: simulate_image_problem of the object's real part with
+//        the noise sigma (seed noise_seed); inpaint keeps `keep` of the pixels
+//        in the given pattern (block side from [inpaint]), drawn with mask_seed.
 // InputError/WorkError from the library pass through.
 CaseMeasurement simulate_case_measurement(const StudyConfig& config, const StudyPhantom& phantom,
                                           const Acquisition& acquisition, uint64_t mask_seed, uint64_t noise_seed);
@@ -56,7 +59,16 @@ struct CaseOutcome {
   std::string outside;      // learned methods: which conditions lie outside training
   ImageF image;             // the reconstruction as scored (magnitude for MRI, real part for CT)
   ImageRecord record;       // the reconstruction as `recofold recon` writes it (reconstruction_record)
+  // keep = "all": the files kept for the case, relative to the study folder ("" otherwise).
+  std::string measurement_file, image_file;
 };
+
+// keep = "all" file names, relative to the study folder: a readable form of
+// the key ('|' -> '_', '/' -> '-') and 8 hex digits of its hash, so that
+// distinct keys never share a file: "measurements/<name>.h5" for a
+// measurement key, "images/<name>.h5" for a case key.
+std::string kept_measurement_file(const std::string& measurement_key);
+std::string kept_image_file(const std::string& case_key);
 
 // Reconstructs and scores one case; never throws for a failing reconstruction
 // (the error goes into the outcome). `learned` is needed for unrolled methods.

@@ -58,6 +58,25 @@
 //   mu      = 0.0                   attenuation per unit intensity, 1/mm (single value);
 //                                   0 (default): automatic, the largest line integral is 4
 //
+//   [denoise]                       optional denoising axes (y = x + n, acquire/image_problem.h):
+//   noise   = [0.05, 0.1]           Gaussian noise sigma per pixel (>= 0; object max ~1)
+//
+//   [inpaint]                       optional inpainting axes (y = M x + n on the kept pixels):
+//   pattern = ["random"]            random | blocks
+//   keep    = [0.3, 0.5]            kept pixel fraction, in (0, 1]
+//   noise   = [0.01]                Gaussian noise sigma per kept pixel (>= 0)
+//   block   = 8                     blocks: block side in pixels (single value, 1..256)
+//                                   The pixel pattern depends on (pattern, repetition) only:
+//                                   the noise axis compares the same pixels, and a larger
+//                                   keep keeps a superset of a smaller one's pixels.
+//
+//   keep = "all"                    optional, top level: keep every case's measurement
+//                                   (DIR/measurements/<case>.h5) and reconstruction
+//                                   (DIR/images/<case>.h5, as `recofold recon` writes it);
+//                                   results.csv names them in measurement_file and
+//                                   image_file. Default "montage": only the images of the
+//                                   first object's first repetition, for the report.
+//
 //   [[method]]                      one table per method (StudyMethod lists every key):
 //   name      = "fista-wavelet"     label in results.csv (default: method-prior)
 //   method    = "fista"             zero-filled | fbp | cg | ista | fista | admm | pdhg | unrolled
@@ -76,8 +95,9 @@
 //   filter    = "ram-lak"           fbp window
 //   lambda_rule, lambda_solves, tol, cycle_spin, restart, rho, cg_iters, tau, sigma,
 //   combine, maps                   the other spec fields (StudyMethod)
-//   modality  = "mri"               restrict to one modality (default: where the method
-//                                   applies: zero-filled MRI, fbp CT, solvers both;
+//   modality  = "mri"               restrict to one modality: mri | ct | denoise | inpaint
+//                                   (default: where the method applies: zero-filled all
+//                                   but CT, fbp CT, solvers all;
 //                                   required for unrolled)
 //   model     = "models/mri.h5"     unrolled: a trained model file
 //   train     = "configs/train-robustness-mri.toml"
@@ -147,6 +167,19 @@ struct CtAxes {
   double mu_per_mm = 0.0;  // 0: automatic (acquire/ct_simulation.h)
 };
 
+// Denoising axes.
+struct DenoiseAxes {
+  std::vector<double> noise_sigmas = {0.05};
+};
+
+// Inpainting axes.
+struct InpaintAxes {
+  std::vector<std::string> patterns = {"random"};
+  std::vector<double> keeps = {0.5};
+  std::vector<double> noise_sigmas = {0.01};
+  int block_size = 8;
+};
+
 // One method of the study: a label and the ReconSpec its keys describe.
 // Keys of a [[method]] table and the spec fields they set (recon/recon_spec.h;
 // unset keys take the defaults of ReconSpec::with_defaults, the same as the
@@ -189,6 +222,9 @@ struct StudyConfig {
   std::vector<StudyPhantom> phantoms;
   std::optional<MriAxes> mri;
   std::optional<CtAxes> ct;
+  std::optional<DenoiseAxes> denoise;
+  std::optional<InpaintAxes> inpaint;
+  bool keep_all = false;  // keep = "all"
   std::vector<StudyMethod> methods;
   // Methods left out when loading (e.g. optional learned methods in a build
   // without learn), one sentence each; shown in the report.
@@ -196,6 +232,9 @@ struct StudyConfig {
   // 16 hex digits: FNV-1a of the config text and of every phantom table and
   // model file it names. Shards and resumed runs must share it.
   std::string hash;
+
+  // True when the study has a protocol table for `modality`.
+  bool has_protocol(Modality modality) const;
 
   // Reads and validates `path`. InputError (file, line, key) on any problem:
   // unknown keys (e.g. an unknown acquisition axis), an empty grid (no
