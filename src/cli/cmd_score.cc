@@ -9,6 +9,7 @@
 #include "learn_cli.h"
 #include "recofold/recon/learned_backend.h"
 #include "recofold/core/error.h"
+#include "recofold/core/json.h"
 #include "recofold/core/provenance.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/io/h5_file.h"
@@ -27,34 +28,10 @@ struct ScoreFlags {
   int index = 0;
 };
 
-std::string json_number(double v) {
-  if (!std::isfinite(v)) return "null";
-  char buf[64];
-  std::snprintf(buf, sizeof buf, "%.17g", v);
-  return buf;
-}
-
 std::string readable_number(double v) {
   char buf[64];
   std::snprintf(buf, sizeof buf, "%g", v);
   return buf;
-}
-
-std::string json_string(const std::string& s) {
-  std::string out = "\"";
-  for (char c : s) {
-    if (c == '"' || c == '\\') {
-      out += '\\';
-      out += c;
-    } else if (static_cast<unsigned char>(c) < 0x20) {
-      char buf[8];
-      std::snprintf(buf, sizeof buf, "\\u%04x", c);
-      out += buf;
-    } else {
-      out += c;
-    }
-  }
-  return out + "\"";
 }
 
 // One slice of an image file: --index picks an image of a stack; a 2-D file holds image 0 only.
@@ -121,12 +98,16 @@ void run_score(const ScoreFlags& f, const CLI::App& sub, const Context& ctx) {
   const bool have_model = !f.model.empty();
   const double bits = have_model ? plausibility(f, img) : 0.0;
   if (f.reference.empty()) {
-    if (f.json)
-      say(ctx, "{\"bits_per_dim\": " + json_number(bits) + ", \"model\": " + json_string(f.model) +
-                   ", \"image\": " + json_string(f.image) + "}");
-    else
+    if (f.json) {
+      JsonObjectWriter w;
+      w.add("bits_per_dim", bits);
+      w.add("model", f.model);
+      w.add("image", f.image);
+      say(ctx, w.str());
+    } else {
       say(ctx, "bits_per_dim  " + readable_number(bits) + " (-log2 p per pixel under " + f.model + ")\n" +
                    kResearchUseLine);
+    }
     return;
   }
   const ImageF ref = load(f.reference, f.index);
@@ -146,12 +127,20 @@ void run_score(const ScoreFlags& f, const CLI::App& sub, const Context& ctx) {
     throw InputError(file, e.field() == "region" ? "--roi" : "", e.reason());
   }
   if (f.json) {
-    say(ctx, "{\"psnr\": " + json_number(s.psnr) + ", \"ssim\": " + json_number(s.ssim) +
-                 ", \"nrmse\": " + json_number(s.nrmse) + ", \"hfen\": " + json_number(s.hfen) +
-                 ", \"data_range\": " + json_number(s.data_range) +
-                 (have_model ? ", \"bits_per_dim\": " + json_number(bits) + ", \"model\": " + json_string(f.model)
-                             : std::string()) +
-                 ", \"reference\": " + json_string(f.reference) + ", \"image\": " + json_string(f.image) + "}");
+    // An infinite PSNR (identical images) prints as null.
+    JsonObjectWriter w;
+    w.add("psnr", s.psnr);
+    w.add("ssim", s.ssim);
+    w.add("nrmse", s.nrmse);
+    w.add("hfen", s.hfen);
+    w.add("data_range", s.data_range);
+    if (have_model) {
+      w.add("bits_per_dim", bits);
+      w.add("model", f.model);
+    }
+    w.add("reference", f.reference);
+    w.add("image", f.image);
+    say(ctx, w.str());
     return;
   }
   char buf[256];

@@ -4,34 +4,15 @@
 
 #include <cmath>
 #include <cstdio>
-#include <sstream>
 
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/json.h"
+#include "recofold/core/number_format.h"
 #include "recofold/io/h5_file.h"
 #include "recofold/io/image_export.h"
 
 namespace recofold::cli {
-
-namespace {
-
-std::string json_str(const std::string& s) {
-  std::string out = "\"";
-  for (char c : s) {
-    if (c == '"' || c == '\\') out += '\\';
-    if (static_cast<unsigned char>(c) >= 0x20) out += c;
-  }
-  return out + "\"";
-}
-
-std::string json_num(double v) {
-  if (!std::isfinite(v)) return "null";
-  char buf[40];
-  std::snprintf(buf, sizeof buf, "%.10g", v);
-  return buf;
-}
-
-}  // namespace
 
 void write_mask_file(const std::string& path, const SamplingMask& m, const Provenance& prov) {
   H5Writer w(path);
@@ -93,28 +74,34 @@ SamplingMask read_mask_any(const std::string& path, const std::string& flag) {
 }
 
 std::string mask_report_json(const SamplingMask& m, const MaskAnalysis& a) {
-  std::ostringstream s;
-  s << "{\"pattern\": " << json_str(m.pattern) << ", \"requested_acceleration\": "
-    << (m.requested_acceleration > 0 ? json_num(m.requested_acceleration) : std::string("null"))
-    << ", \"achieved_acceleration\": " << json_num(m.achieved_acceleration) << ", \"seed\": " << m.seed
-    << ", \"center_rows\": " << m.center_rows << ", \"center_cols\": " << m.center_cols;
-  if (!m.spoke_angles_rad.empty()) s << ", \"spokes\": " << m.spoke_angles_rad.size();
-  for (const auto& [k, v] : m.numbers) s << ", " << json_str(k) << ": " << json_num(v);
-  s << ", \"analysis\": " << a.to_json() << "}";
-  return s.str();
+  JsonObjectWriter w;
+  w.add("pattern", m.pattern);
+  if (m.requested_acceleration > 0)
+    w.add("requested_acceleration", m.requested_acceleration);
+  else
+    w.add_null("requested_acceleration");  // a mask read from a file
+  w.add("achieved_acceleration", m.achieved_acceleration);
+  w.add("seed", m.seed);
+  w.add("center_rows", m.center_rows);
+  w.add("center_cols", m.center_cols);
+  if (!m.spoke_angles_rad.empty()) w.add("spokes", m.spoke_angles_rad.size());
+  for (const auto& [k, v] : m.numbers) w.add(k, v);
+  w.add_raw("analysis", a.to_json());
+  return w.str();
 }
 
 std::string mask_summary(const SamplingMask& m, const MaskAnalysis& a) {
   char buf[512];
   const double db = a.psf_sidelobe_ratio > 0 ? 20.0 * std::log10(a.psf_sidelobe_ratio) : -INFINITY;
-  std::string req = m.requested_acceleration > 0 ? "requested " + json_num(m.requested_acceleration) : "not requested";
+  const std::string req =
+      m.requested_acceleration > 0 ? "requested " + format_sig(m.requested_acceleration, 10) : "not requested";
   std::snprintf(buf, sizeof buf,
                 "%s %lldx%lld: R %.3f (%s), %lld samples, calibration %lldx%lld, PSF side-lobe %.1f dB, "
                 "TPSF side-lobe %s",
                 m.pattern.c_str(), static_cast<long long>(a.ny), static_cast<long long>(a.nx), m.achieved_acceleration,
                 req.c_str(), static_cast<long long>(m.samples), static_cast<long long>(a.calibration.rows),
                 static_cast<long long>(a.calibration.cols), db,
-                a.tpsf_sidelobe_ratio >= 0 ? json_num(a.tpsf_sidelobe_ratio).c_str() : "n/a");
+                a.tpsf_sidelobe_ratio >= 0 ? format_sig(a.tpsf_sidelobe_ratio, 10).c_str() : "n/a");
   return buf;
 }
 

@@ -4,38 +4,17 @@
 
 #include <cmath>
 #include <cstdio>
-#include <iomanip>
 #include <map>
-#include <sstream>
 
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/json.h"
 #include "recofold/io/trajectory_file.h"
 #include "recofold/sampling/trajectory.h"
 
 namespace recofold::cli {
 
 namespace {
-
-std::string json_num(double v) {
-  if (!std::isfinite(v)) return "null";
-  std::ostringstream s;
-  s << std::setprecision(10) << v;
-  return s.str();
-}
-
-std::string json_str(const std::string& v) {
-  std::string out = "\"";
-  for (char c : v) {
-    if (c == '"' || c == '\\') out += '\\';
-    if (static_cast<unsigned char>(c) < 0x20) {
-      out += ' ';
-      continue;
-    }
-    out += c;
-  }
-  return out + "\"";
-}
 
 const std::map<std::string, std::string>& field_flags() {
   static const std::map<std::string, std::string> m = {
@@ -101,20 +80,17 @@ void rethrow_with_trajectory_flags(const std::exception_ptr& error) {
 }
 
 std::string trajectory_report_json(const Trajectory& t, const TrajectoryAnalysis& a) {
-  std::ostringstream s;
-  s << "{\"research_use_only\": true, \"kind\": " << json_str(std::string(to_string(t.kind)))
-    << ", \"dcf_method\": " << json_str(t.dcf_method) << ", \"fov_mm\": " << json_num(t.fov_mm) << ", \"design\": {";
-  bool first = true;
-  for (const auto& [k, v] : t.numbers) {
-    s << (first ? "" : ", ") << json_str(k) << ": " << json_num(v);
-    first = false;
-  }
-  for (const auto& [k, v] : t.texts) {
-    s << (first ? "" : ", ") << json_str(k) << ": " << json_str(v);
-    first = false;
-  }
-  s << "}, \"analysis\": " << a.to_json() << "}";
-  return s.str();
+  JsonObjectWriter design;
+  for (const auto& [k, v] : t.numbers) design.add(k, v);
+  for (const auto& [k, v] : t.texts) design.add(k, v);
+  JsonObjectWriter w;
+  w.add("research_use_only", true);
+  w.add("kind", std::string(to_string(t.kind)));
+  w.add("dcf_method", t.dcf_method);
+  w.add("fov_mm", t.fov_mm);
+  w.add("design", design);
+  w.add_raw("analysis", a.to_json());
+  return w.str();
 }
 
 std::string trajectory_summary(const Trajectory& t, const TrajectoryAnalysis& a) {

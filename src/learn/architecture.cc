@@ -4,8 +4,8 @@
 
 #include <cmath>
 
-#include "json_text.h"
 #include "recofold/core/error.h"
+#include "recofold/core/json.h"
 #include "recofold/ops/wavelet.h"
 
 namespace recofold {
@@ -45,7 +45,7 @@ std::optional<LearnedPriorKind> parse_learned_prior(std::string_view text) {
 
 namespace {
 
-std::string num(double v) { return internal::json_number(v); }
+std::string num(double v) { return json_number(v); }
 std::string accepted_priors() { return "cnn, wavelet, unet, tv, flow"; }
 
 const std::vector<std::string>& table_keys() {
@@ -113,7 +113,7 @@ std::vector<std::string> UnrolledArchitecture::validate() const {
 }
 
 std::string UnrolledArchitecture::to_json() const {
-  internal::JsonObjectWriter w;
+  JsonObjectWriter w;
   w.add("modality", std::string(to_string(modality)));
   w.add("ny", static_cast<long long>(ny));
   w.add("nx", static_cast<long long>(nx));
@@ -143,8 +143,7 @@ std::string UnrolledArchitecture::to_json() const {
 
 UnrolledArchitecture UnrolledArchitecture::from_json(const std::string& json, const std::string& file,
                                                      const std::string& field) {
-  using internal::JsonValue;
-  JsonValue doc = internal::parse_json(json, file, field);
+  JsonValue doc = parse_json(json, file, field);
   if (doc.kind != JsonValue::Kind::kObject) throw InputError(file, field, "must be a JSON object");
   UnrolledArchitecture a;
   auto need = [&](const std::string& key, const JsonValue& v, JsonValue::Kind kind, const char* what) {
@@ -224,7 +223,7 @@ UnrolledArchitecture UnrolledArchitecture::from_json(const std::string& json, co
       a.flow_finetune = v.boolean;
     } else if (key == "flow") {
       need(key, v, JsonValue::Kind::kObject, "a JSON object (a flow architecture)");
-      a.flow = FlowArchitecture::from_json(internal::write_json(v), file, field + ".flow");
+      a.flow = FlowArchitecture::from_json(write_json(v), file, field + ".flow");
     } else {
       throw InputError(file, field, "unknown architecture key '" + key + "'");
     }

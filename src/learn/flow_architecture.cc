@@ -4,8 +4,8 @@
 
 #include <cmath>
 
-#include "json_text.h"
 #include "recofold/core/error.h"
+#include "recofold/core/json.h"
 
 namespace recofold {
 
@@ -24,7 +24,7 @@ std::optional<FlowMixing> parse_flow_mixing(std::string_view text) {
 }
 
 namespace {
-std::string num(double v) { return internal::json_number(v); }
+std::string num(double v) { return json_number(v); }
 bool positive(double v) { return v > 0 && std::isfinite(v); }
 }  // namespace
 
@@ -57,7 +57,7 @@ std::vector<std::string> FlowArchitecture::validate() const {
 }
 
 std::string FlowArchitecture::to_json() const {
-  internal::JsonObjectWriter w;
+  JsonObjectWriter w;
   w.add("ny", static_cast<long long>(ny));
   w.add("nx", static_cast<long long>(nx));
   w.add("channels", channels);
@@ -75,8 +75,7 @@ std::string FlowArchitecture::to_json() const {
 
 FlowArchitecture FlowArchitecture::from_json(const std::string& json, const std::string& file,
                                              const std::string& field) {
-  using internal::JsonValue;
-  JsonValue doc = internal::parse_json(json, file, field);
+  JsonValue doc = parse_json(json, file, field);
   if (doc.kind != JsonValue::Kind::kObject) throw InputError(file, field, "must be a JSON object");
   FlowArchitecture a;
   auto number = [&](const std::string& key, const JsonValue& v) {

@@ -4,10 +4,10 @@
 
 #include <cstring>
 
-#include "json_text.h"
 #include "model_state.h"
 #include "recofold/core/checks.h"
 #include "recofold/core/error.h"
+#include "recofold/core/json.h"
 
 namespace recofold {
 

@@ -6,9 +6,9 @@
 #include <cmath>
 #include <cstdio>
 
-#include "json_text.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/json.h"
 #include "recofold/io/h5_file.h"
 #include "recofold/phantom/family.h"
 #include "recofold/sampling/mask.h"
@@ -17,7 +17,7 @@ namespace recofold {
 
 namespace {
 
-std::string num(double v) { return internal::json_number(v); }
+std::string num(double v) { return json_number(v); }
 
 std::string join(const std::vector<std::string>& v) {
   std::string s;
@@ -114,7 +114,7 @@ std::vector<std::string> TrainingConditions::validate() const {
 }
 
 std::string TrainingConditions::to_json() const {
-  internal::JsonObjectWriter w;
+  JsonObjectWriter w;
   w.add("modality", std::string(to_string(modality)));
   w.add("ny", static_cast<long long>(ny));
   w.add("nx", static_cast<long long>(nx));
@@ -136,7 +136,7 @@ std::string TrainingConditions::to_json() const {
   if (!seeds.empty()) {
     std::string list = "[";
     for (size_t i = 0; i < seeds.size(); ++i) {
-      internal::JsonObjectWriter r;
+      JsonObjectWriter r;
       r.add("use", seeds[i].use);
       r.add("families", seeds[i].families);
       r.add_raw("seed", std::to_string(seeds[i].seed));
@@ -151,8 +151,7 @@ std::string TrainingConditions::to_json() const {
 
 TrainingConditions TrainingConditions::from_json(const std::string& json, const std::string& file,
                                                  const std::string& field) {
-  using internal::JsonValue;
-  JsonValue doc = internal::parse_json(json, file, field);
+  JsonValue doc = parse_json(json, file, field);
   if (doc.kind != JsonValue::Kind::kObject) throw InputError(file, field, "must be a JSON object");
   TrainingConditions c;
   auto number = [&](const std::string& k, const JsonValue& v) {

@@ -4,41 +4,44 @@
 
 #include <algorithm>
 #include <cmath>
-#include <iomanip>
-#include <sstream>
 
 #include "recofold/core/error.h"
+#include "recofold/core/json.h"
 #include "recofold/ops/fft.h"
 #include "recofold/ops/fourier.h"
 
 namespace recofold {
 
-namespace {
-
-std::string num(double v) {
-  if (!std::isfinite(v)) return "null";
-  std::ostringstream s;
-  s << std::setprecision(8) << v;
-  return s.str();
-}
-
-}  // namespace
-
 std::string MaskAnalysis::to_json() const {
-  std::ostringstream s;
-  s << "{\"ny\": " << ny << ", \"nx\": " << nx << ", \"samples\": " << samples
-    << ", \"acceleration\": " << num(acceleration) << ", \"calibration\": {\"rows\": " << calibration.rows
-    << ", \"cols\": " << calibration.cols << ", \"row0\": " << calibration.row0 << ", \"col0\": " << calibration.col0
-    << "}, \"psf_peak\": " << num(psf_peak) << ", \"psf_sidelobe_ratio\": " << num(psf_sidelobe_ratio)
-    << ", \"psf_sidelobe_db\": " << num(psf_sidelobe_ratio > 0 ? 20.0 * std::log10(psf_sidelobe_ratio) : -INFINITY)
-    << ", \"psf_sidelobe_offset\": [" << psf_sidelobe_dy << ", " << psf_sidelobe_dx << "]"
-    << ", \"tpsf_sidelobe_ratio\": " << (tpsf_sidelobe_ratio < 0 ? std::string("null") : num(tpsf_sidelobe_ratio))
-    << ", \"tpsf_levels\": [";
-  for (size_t i = 0; i < tpsf_levels.size(); ++i)
-    s << (i ? ", " : "") << "{\"level\": " << tpsf_levels[i].level
-      << ", \"sidelobe_ratio\": " << num(tpsf_levels[i].sidelobe_ratio) << "}";
-  s << "], \"wavelet\": \"" << wavelet << "\"}";
-  return s.str();
+  JsonObjectWriter calib;
+  calib.add("rows", calibration.rows);
+  calib.add("cols", calibration.cols);
+  calib.add("row0", calibration.row0);
+  calib.add("col0", calibration.col0);
+  JsonArrayWriter levels;
+  for (const TpsfLevel& l : tpsf_levels) {
+    JsonObjectWriter o;
+    o.add("level", l.level);
+    o.add("sidelobe_ratio", l.sidelobe_ratio);
+    levels.add(o);
+  }
+  JsonObjectWriter w;
+  w.add("ny", ny);
+  w.add("nx", nx);
+  w.add("samples", samples);
+  w.add("acceleration", acceleration);
+  w.add("calibration", calib);
+  w.add("psf_peak", psf_peak);
+  w.add("psf_sidelobe_ratio", psf_sidelobe_ratio);
+  w.add("psf_sidelobe_db", psf_sidelobe_ratio > 0 ? 20.0 * std::log10(psf_sidelobe_ratio) : -INFINITY);
+  w.add("psf_sidelobe_offset", std::vector<Index>{psf_sidelobe_dy, psf_sidelobe_dx});
+  if (tpsf_sidelobe_ratio < 0)
+    w.add_null("tpsf_sidelobe_ratio");  // not analysed (odd sizes)
+  else
+    w.add("tpsf_sidelobe_ratio", tpsf_sidelobe_ratio);
+  w.add("tpsf_levels", levels);
+  w.add("wavelet", wavelet);
+  return w.str();
 }
 
 MaskAnalysis analyse_mask(const NdArray<uint8_t>& mask, const MaskAnalysisOptions& o) {

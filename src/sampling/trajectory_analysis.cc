@@ -4,44 +4,34 @@
 
 #include <algorithm>
 #include <cmath>
-#include <iomanip>
-#include <sstream>
 
 #include "recofold/core/error.h"
+#include "recofold/core/json.h"
 #include "recofold/ops/nufft.h"
 
 namespace recofold {
 
-namespace {
-
-std::string num(double v) {
-  if (!std::isfinite(v)) return "null";
-  std::ostringstream s;
-  s << std::setprecision(8) << v;
-  return s.str();
-}
-
-std::string num_list(const std::vector<double>& v) {
-  std::string out = "[";
-  for (size_t i = 0; i < v.size(); ++i) out += (i ? ", " : "") + num(v[i]);
-  return out + "]";
-}
-
-}  // namespace
-
 std::string TrajectoryAnalysis::to_json() const {
-  std::ostringstream s;
-  s << "{\"ny\": " << ny << ", \"nx\": " << nx << ", \"points\": " << points << ", \"readouts\": " << readouts
-    << ", \"samples_per_readout\": " << samples_per_readout
-    << ", \"cartesian_acceleration\": " << num(cartesian_acceleration) << ", \"kmax_reached\": " << num(kmax_reached)
-    << ", \"dcf_area\": " << num(dcf_area) << ", \"psf_peak\": " << num(psf_peak)
-    << ", \"main_lobe_radius_px\": " << num(main_lobe_radius_px) << ", \"psf_fwhm_px\": " << num(psf_fwhm_px)
-    << ", \"psf_sidelobe_ratio\": " << num(psf_sidelobe_ratio) << ", \"psf_sidelobe_db\": "
-    << num(psf_sidelobe_ratio > 0 ? 20.0 * std::log10(psf_sidelobe_ratio) : -INFINITY)
-    << ", \"psf_sidelobe_offset\": [" << psf_sidelobe_dy << ", " << psf_sidelobe_dx << "]"
-    << ", \"density_profile\": {\"radius\": " << num_list(density_radius)
-    << ", \"samples_per_cell\": " << num_list(density) << "}}";
-  return s.str();
+  JsonObjectWriter profile;
+  profile.add("radius", density_radius);
+  profile.add("samples_per_cell", density);
+  JsonObjectWriter w;
+  w.add("ny", ny);
+  w.add("nx", nx);
+  w.add("points", points);
+  w.add("readouts", readouts);
+  w.add("samples_per_readout", samples_per_readout);
+  w.add("cartesian_acceleration", cartesian_acceleration);
+  w.add("kmax_reached", kmax_reached);
+  w.add("dcf_area", dcf_area);
+  w.add("psf_peak", psf_peak);
+  w.add("main_lobe_radius_px", main_lobe_radius_px);
+  w.add("psf_fwhm_px", psf_fwhm_px);
+  w.add("psf_sidelobe_ratio", psf_sidelobe_ratio);
+  w.add("psf_sidelobe_db", psf_sidelobe_ratio > 0 ? 20.0 * std::log10(psf_sidelobe_ratio) : -INFINITY);
+  w.add("psf_sidelobe_offset", std::vector<Index>{psf_sidelobe_dy, psf_sidelobe_dx});
+  w.add("density_profile", profile);
+  return w.str();
 }
 
 TrajectoryAnalysis analyse_trajectory(const Trajectory& t, const TrajectoryAnalysisOptions& o) {

@@ -19,6 +19,7 @@
 
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/json.h"
 #include "recofold/core/provenance.h"
 #include "recofold/io/image_file.h"
 #include "recofold/io/measurement_file.h"
@@ -54,27 +55,34 @@ std::string parent_of(const std::string& p) {
   return slash == 0 ? "/" : s.substr(0, slash);
 }
 
-// "key": "value" of a flat JSON object written by write_manifest.
-std::string json_value(const std::string& json, const std::string& key) {
-  const std::string pat = "\"" + key + "\": \"";
-  const size_t p = json.find(pat);
-  if (p == std::string::npos) return "";
-  const size_t start = p + pat.size();
-  const size_t end = json.find('"', start);
-  return end == std::string::npos ? "" : json.substr(start, end - start);
-}
+// The keys of manifest.json a run or a merge checks.
+struct ManifestKeys {
+  std::string config_hash, shard, config_dir;
+};
 
-std::string json_escape(const std::string& s) {
-  std::string out;
-  for (char c : s) {
-    if (c == '"' || c == '\\') out += '\\';
-    if (c == '\n') {
-      out += "\\n";
-      continue;
-    }
-    out += c;
+// Reads `path` (written by write_manifest). Text that is not a JSON object
+// with string members config_hash and shard is reported as corrupt.
+ManifestKeys read_manifest(const std::string& path) {
+  const std::string corrupt =
+      "is corrupt (expected a JSON object with config_hash and shard); remove the folder or choose another output "
+      "folder";
+  JsonValue doc;
+  try {
+    doc = parse_json(read_text_file(path), path, "");
+  } catch (const InputError& e) {
+    throw InputError(path, "", corrupt + "; " + e.reason());
   }
-  return out;
+  const auto text = [&](const char* key, bool required) {
+    const JsonValue* v = doc.find(key);
+    if (v && v->kind == JsonValue::Kind::kString && !v->text.empty()) return v->text;
+    if (required) throw InputError(path, v ? key : "", corrupt);
+    return std::string();
+  };
+  ManifestKeys m;
+  m.config_hash = text("config_hash", true);
+  m.shard = text("shard", true);
+  m.config_dir = text("config_dir", false);
+  return m;
 }
 
 std::string config_dir(const StudyConfig& c) {
@@ -86,18 +94,18 @@ std::string config_dir(const StudyConfig& c) {
 
 void write_manifest(const std::string& dir, const StudyConfig& c, const std::string& shard, int total, int in_shard,
                     const std::string& command) {
-  std::string j = "{\n";
-  j += "  \"name\": \"" + json_escape(c.name) + "\",\n";
-  j += "  \"config_hash\": \"" + c.hash + "\",\n";
-  j += "  \"config_dir\": \"" + json_escape(config_dir(c)) + "\",\n";
-  j += "  \"shard\": \"" + shard + "\",\n";
-  j += "  \"cases_total\": \"" + std::to_string(total) + "\",\n";
-  j += "  \"cases_in_shard\": \"" + std::to_string(in_shard) + "\",\n";
-  j += "  \"producer\": \"" + json_escape(producer_string()) + "\",\n";
-  j += "  \"created_utc\": \"" + Provenance::utc_timestamp() + "\",\n";
-  j += "  \"command\": \"" + json_escape(command) + "\",\n";
-  j += "  \"research_use\": \"" + json_escape(kResearchUseLine) + "\"\n}\n";
-  write_text_atomic(dir + "/manifest.json", j);
+  JsonObjectWriter j;
+  j.add("name", c.name);
+  j.add("config_hash", c.hash);
+  j.add("config_dir", config_dir(c));
+  j.add("shard", shard);
+  j.add("cases_total", total);
+  j.add("cases_in_shard", in_shard);
+  j.add("producer", producer_string());
+  j.add("created_utc", Provenance::utc_timestamp());
+  j.add("command", command);
+  j.add("research_use", kResearchUseLine);
+  write_text_atomic(dir + "/manifest.json", j.str_lines() + "\n");
 }
 
 // Appends one row; a write cut short (disk full) is cut back off, so the
@@ -201,14 +209,9 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
     // An existing folder must hold this config and this shard (a merged
     // folder holds the whole study, like shard 1/1).
     if (file_exists(manifest)) {
-      const std::string text = read_text_file(manifest);
-      const std::string hash = json_value(text, "config_hash");
-      const std::string shard = json_value(text, "shard");
-      if (text.find('{') == std::string::npos || text.find('}') == std::string::npos || hash.empty() ||
-          shard.empty())
-        throw InputError(manifest, "",
-                         "is corrupt (expected a JSON object with config_hash and shard); remove the folder or "
-                         "choose another output folder");
+      const ManifestKeys keys = read_manifest(manifest);
+      const std::string& hash = keys.config_hash;
+      const std::string& shard = keys.shard;
       if (hash != config.hash)
         throw InputError(manifest, "config_hash",
                          "the folder holds results of a different config (" + hash + ", this config " +
@@ -399,12 +402,12 @@ StudyRunSummary merge_studies(const std::vector<std::string>& dirs, const std::s
   for (const std::string& d : dirs) {
     const std::string manifest = d + "/manifest.json";
     if (!file_exists(manifest)) throw InputError(d, "manifest.json", "missing: not a study folder");
-    const std::string text = read_text_file(manifest);
-    const std::string h = json_value(text, "config_hash");
+    const ManifestKeys keys = read_manifest(manifest);
+    const std::string& h = keys.config_hash;
     if (hash.empty()) {
       hash = h;
       config_text = read_text_file(d + "/study.toml");
-      cdir = json_value(text, "config_dir");
+      cdir = keys.config_dir;
     } else if (h != hash) {
       throw InputError(manifest, "config_hash",
                        "shard of a different config (" + h + ", first folder " + hash + "); refusing to merge");
