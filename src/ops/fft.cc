@@ -29,7 +29,7 @@ constexpr double kPlanTimeLimitSeconds = 1.0;
 struct PlanCache {
   std::mutex mutex;
   bool threads_ready = false;
-  std::map<std::tuple<Index, Index, int, int>, fftwf_plan> plans;
+  std::map<std::tuple<Index, Index, int, int, bool>, fftwf_plan> plans;
 };
 
 PlanCache& cache() {
@@ -85,11 +85,12 @@ cfloat* fft_scratch(size_t n, int slot) {
   return s.data;
 }
 
-void fft_execute_inplace(cfloat* buffer, Index ny, Index nx, FftDirection direction, int threads) {
+namespace {
+void execute_inplace(cfloat* buffer, Index ny, Index nx, FftDirection direction, int threads, bool measure) {
   RECOFOLD_CHECK(ny > 0 && nx > 0) << "FFT of size " << ny << "x" << nx;
   if (threads < 1) threads = 1;
   const int sign = direction == FftDirection::kForward ? FFTW_FORWARD : FFTW_BACKWARD;
-  const auto key = std::make_tuple(ny, nx, sign, threads);
+  const auto key = std::make_tuple(ny, nx, sign, threads, measure);
   fftwf_plan plan = nullptr;
   {
     PlanCache& c = cache();
@@ -113,7 +114,7 @@ void fft_execute_inplace(cfloat* buffer, Index ny, Index nx, FftDirection direct
       // 512^2 transform), and iterative solvers run thousands of transforms.
       // Estimated plans stay as they were (their bytes are reproducible).
       plan = fftwf_plan_dft_2d(static_cast<int>(ny), static_cast<int>(nx), tmp, tmp, sign,
-                               g_measure.load() ? (FFTW_MEASURE | FFTW_NO_BUFFERING) : FFTW_ESTIMATE);
+                               measure ? (FFTW_MEASURE | FFTW_NO_BUFFERING) : FFTW_ESTIMATE);
       fftwf_free(tmp);
       if (!plan) throw WorkError("FFTW could not plan a " + std::to_string(ny) + "x" + std::to_string(nx) + " FFT");
       c.plans.emplace(key, plan);
@@ -122,17 +123,32 @@ void fft_execute_inplace(cfloat* buffer, Index ny, Index nx, FftDirection direct
   auto* p = reinterpret_cast<fftwf_complex*>(buffer);
   fftwf_execute_dft(plan, p, p);  // new-array execute: thread-safe
 }
+}  // namespace
+
+void fft_execute_inplace(cfloat* buffer, Index ny, Index nx, FftDirection direction, int threads) {
+  execute_inplace(buffer, ny, nx, direction, threads, g_measure.load());
+}
+
+void fft_execute_inplace_estimated(cfloat* buffer, Index ny, Index nx, FftDirection direction, int threads) {
+  execute_inplace(buffer, ny, nx, direction, threads, false);
+}
 
 }  // namespace internal
 
 void fft2c(const cfloat* in, cfloat* out, Index ny, Index nx, FftDirection direction) {
+  fft2c(in, out, ny, nx, direction, FftPlanning::kSetting);
+}
+
+void fft2c(const cfloat* in, cfloat* out, Index ny, Index nx, FftDirection direction, FftPlanning planning) {
   RECOFOLD_CHECK(ny > 0 && nx > 0) << "fft2c of size " << ny << "x" << nx;
   const size_t n = static_cast<size_t>(ny * nx);
   cfloat* buf = internal::fft_scratch(n, 0);
   internal::for_each_shifted(ny, nx, internal::to_fft_order_shift(ny), internal::to_fft_order_shift(nx),
                              [&](Index d, Index s) { buf[d] = in[s]; });
   // Inside a parallel region (coils or cases side by side) each transform is single-threaded.
-  internal::fft_execute_inplace(buf, ny, nx, direction, omp_in_parallel() ? 1 : fft_threads());
+  const int threads = omp_in_parallel() ? 1 : fft_threads();
+  if (planning == FftPlanning::kEstimate) internal::fft_execute_inplace_estimated(buf, ny, nx, direction, threads);
+  else internal::fft_execute_inplace(buf, ny, nx, direction, threads);
   const float scale = static_cast<float>(1.0 / std::sqrt(static_cast<double>(n)));
   internal::for_each_shifted(ny, nx, internal::to_centred_shift(ny), internal::to_centred_shift(nx),
                              [&](Index d, Index s) { out[d] = buf[s] * scale; });

@@ -20,6 +20,8 @@ cfloat* fft_scratch(size_t n, int slot);
 // buffer obtained from fft_scratch(), using a cached plan made with `threads`
 // FFTW threads. Thread-safe: planning is serialised, execution is not.
 void fft_execute_inplace(cfloat* buffer, Index ny, Index nx, FftDirection direction, int threads);
+// Same with FFTW_ESTIMATE plans whatever set_fft_measure says (reproducible bytes).
+void fft_execute_inplace_estimated(cfloat* buffer, Index ny, Index nx, FftDirection direction, int threads);
 
 // Calls f(dst, src) for every element of a row-major [ny, nx] array, where
 // src is dst moved by (sy, sx) with wrap-around:

@@ -18,7 +18,10 @@ namespace {
 // orthonormal, plans cached per (size, direction, threads), so fbp plans at
 // most once per direction for its padded length and every view reuses the
 // plan; thread-safe, single-threaded inside a parallel region).
-void fft_row(cfloat* row, Index p, FftDirection direction) { fft2c(row, row, 1, p, direction); }
+// Estimated plans: FBP gives the same bytes in any process (a study and `recofold recon`).
+void fft_row(cfloat* row, Index p, FftDirection direction) {
+  fft2c(row, row, 1, p, direction, FftPlanning::kEstimate);
+}
 
 // DFT of a real even sequence of even length p, in double precision:
 //   X_k = sum over lags n in (-p/2, p/2] of x(|n|) cos(2 pi k n / p),  k = 0 .. out_count - 1,

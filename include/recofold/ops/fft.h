@@ -44,6 +44,11 @@ enum class FftDirection { kForward, kInverse };
 // and the same with ifft2. Odd and even sizes. `in` and `out` may be the same
 // buffer; any alignment is fine. Thread-safe.
 void fft2c(const cfloat* in, cfloat* out, Index ny, Index nx, FftDirection direction);
+// Plans of one call: kSetting follows set_fft_measure; kEstimate always uses
+// FFTW_ESTIMATE plans (the same bytes in every process, whatever else it ran:
+// FBP's view filtering, so a direct method does not depend on planning).
+enum class FftPlanning { kSetting, kEstimate };
+void fft2c(const cfloat* in, cfloat* out, Index ny, Index nx, FftDirection direction, FftPlanning planning);
 // Same, on images.
 ImageC fft2c(const ImageC& image);   // forward
 ImageC ifft2c(const ImageC& kspace);  // inverse
