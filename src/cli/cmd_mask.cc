@@ -84,7 +84,7 @@ void run_mask(const MaskFlags& f, const CLI::App& sub, const Context& ctx) {
   SamplingMask mask;
   Provenance prov = make_provenance(ctx);
   if (!f.from.empty()) {
-    mask = read_mask_any(f.from, "--from");
+    mask = read_mask_file(f.from, "--from");
     prov.extra["mask_source"] = f.from;
     prov.extra["mask_source_checksum_fnv1a64"] = file_checksum(f.from);
   } else {

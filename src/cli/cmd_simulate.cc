@@ -93,7 +93,7 @@ Measurement simulate_image_cli(const SimulateFlags& f, const CLI::App& sub, Moda
     if (sub.get_option("--keep")->count() > 0)
       throw InputError("", "--keep", "the kept pixels of --pixel-mask are given; do not give --keep");
     if (!file_exists(f.pixel_mask)) throw InputError(f.pixel_mask, "--pixel-mask", not_a_file_reason(f.pixel_mask));
-    const SamplingMask pm = read_mask_any(f.pixel_mask, "--pixel-mask");
+    const SamplingMask pm = read_mask_file(f.pixel_mask, "--pixel-mask");
     const Shape image_shape{raster.rows(), raster.cols()};
     if (pm.mask.shape != image_shape)
       throw InputError(f.pixel_mask, "--pixel-mask",
@@ -190,7 +190,7 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
       mask.samples = n;
       mask.achieved_acceleration = 1.0;
     } else {
-      mask = read_mask_any(f.mask, "--mask");
+      mask = read_mask_file(f.mask, "--mask");
       if (mask.mask.shape != Shape{ny, nx})
         throw InputError(f.mask, "--mask",
                          "mask shape " + mask.mask.shape.to_string() + " differs from the image shape " +

@@ -24,7 +24,7 @@ namespace {
 SamplingMask mask_for_grid(const std::string& path, Index ny, Index nx, Provenance& prov, std::string& note) {
   if (!file_exists(path)) throw InputError(path, "--mask", not_a_file_reason(path));
   if (file_extension(path) != ".toml") {
-    SamplingMask m = read_mask_any(path, "--mask");
+    SamplingMask m = read_mask_file(path, "--mask");
     if (m.mask.shape != (Shape{ny, nx}))
       throw InputError(path, "--mask",
                        "mask shape " + m.mask.shape.to_string() + " differs from the data grid " +
