@@ -184,22 +184,18 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
     summary = "CT sinogram " + m.ct->sinogram.shape.to_string();
   } else {
     SamplingMask mask;
+    std::string mask_note;
     if (f.mask.empty()) {
       mask.mask = NdArray<uint8_t>(Shape{ny, nx}, 1);
       mask.pattern = "full";
       mask.samples = n;
       mask.achieved_acceleration = 1.0;
     } else {
-      mask = read_mask_file(f.mask, "--mask");
-      if (mask.mask.shape != Shape{ny, nx})
-        throw InputError(f.mask, "--mask",
-                         "mask shape " + mask.mask.shape.to_string() + " differs from the image shape " +
-                             Shape{ny, nx}.to_string() + " of " + f.phantom);
+      // A mask file of the image's shape, or a sampling spec .toml drawn on the image grid.
+      mask = mask_for_grid(f.mask, ny, nx, prov, mask_note);
       if (mask.achieved_acceleration > 64.0)
         throw InputError(f.mask, "--mask",
                          "acceleration R = " + std::to_string(mask.achieved_acceleration) + " is above 64");
-      prov.extra["mask_file"] = f.mask;
-      prov.extra["mask_checksum_fnv1a64"] = file_checksum(f.mask);
     }
     MriSimulationOptions o;
     o.coil_array.coils = f.coils;
@@ -221,6 +217,7 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
                   static_cast<long long>(ny), static_cast<long long>(nx), mask.pattern.c_str(),
                   mask.achieved_acceleration, m.mri->noise_sigma);
     summary = buf;
+    if (!mask_note.empty()) summary += " (" + mask_note + ")";
   }
   m.provenance = prov;
   write_measurement_file(f.out, m);
@@ -247,7 +244,7 @@ void register_cmd_simulate(CLI::App& app, Context& ctx) {
                   "one) | discrete (from the pixels: the 'inverse crime'; the default for pixel-only objects)");
   sub->add_option("--seed", f->seed, "Seed of the noise (default 0)");
   sub->add_option("--out", f->out, "Measurement file (.h5)")->required();
-  sub->add_option("--mask", f->mask, "MRI: sampling mask (.h5 from `recofold mask`, or .png; with --from also a sampling spec .toml); default "
+  sub->add_option("--mask", f->mask, "MRI: sampling mask (.h5 from `recofold mask`, .png, or a sampling spec .toml such as sampling-masks/lines-4x-256.toml, drawn on the image grid); default "
                   "fully sampled")
       ->group(kMriGroup);
   sub->add_option("--coils", f->coils, "MRI: receive coils around the field of view, 1..32 (default 1)")->group(kMriGroup);

@@ -20,6 +20,8 @@ namespace recofold::cli {
 
 namespace {
 
+}  // namespace
+
 // The mask of --mask on the data grid [ny, nx]; `note` says when a spec's size was replaced.
 SamplingMask mask_for_grid(const std::string& path, Index ny, Index nx, Provenance& prov, std::string& note) {
   if (!file_exists(path)) throw InputError(path, "--mask", not_a_file_reason(path));
@@ -52,8 +54,6 @@ SamplingMask mask_for_grid(const std::string& path, Index ny, Index nx, Provenan
   if (!note.empty()) prov.extra["mask_grid"] = note;
   return m;
 }
-
-}  // namespace
 
 void run_simulate_from(const SimulateFromFlags& f, const CLI::App& sub, const Context& ctx) {
   // Every check before any work: bad input leaves no output.

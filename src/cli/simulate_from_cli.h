@@ -7,6 +7,8 @@
 #include <string>
 
 #include "cli_common.h"
+#include "recofold/core/provenance.h"
+#include "recofold/sampling/mask.h"
 
 namespace recofold::cli {
 
@@ -23,6 +25,11 @@ struct SimulateFromFlags {
 // a sampling spec .toml (kind = "mri-mask"), drawn on the grid of the data
 // (a spec's own size, when it differs, is replaced by the data's and the
 // summary says so). Writes the measurement with truth kind "fully sampled".
+// The mask of --mask FILE on the grid [ny, nx]: a mask file (its shape must
+// match) or a sampling spec .toml drawn on that grid; `note` says when a
+// spec's size was replaced; provenance records the file or spec.
+SamplingMask mask_for_grid(const std::string& path, Index ny, Index nx, Provenance& prov, std::string& note);
+
 void run_simulate_from(const SimulateFromFlags& flags, const CLI::App& sub, const Context& ctx);
 
 }  // namespace recofold::cli

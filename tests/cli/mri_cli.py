@@ -105,6 +105,19 @@ def spec_files(tmp):
         check(out.returncode == 0, f"mask --spec {spec} exits 0 ({out.stderr.strip()})")
     with h5py.File(os.path.join(tmp, "radial-golden-32.h5"), "r") as f:
         check(f["spoke_angles_rad"].shape == (32,), "golden-angle mask file stores 32 spoke angles")
+    # simulate --mask SPEC.toml: the spec drawn on the phantom's 64x64 grid equals
+    # `mask --spec` with the size replaced (same seed, same pattern).
+    spec = os.path.join(SRC, "sampling-masks", "lines-4x-256.toml")
+    must_succeed(["simulate", "--phantom", "ph.h5", "--modality", "mri", "--mask", spec, "--out", "sp.h5"], tmp)
+    text = open(spec).read()
+    import re
+    text64 = re.sub(r"(?m)^size\s*=.*$", "size = 64", text)
+    with open(os.path.join(tmp, "spec64.toml"), "w") as f:
+        f.write(text64)
+    must_succeed(["mask", "--spec", "spec64.toml", "--out", "spec64.h5"], tmp)
+    with h5py.File(os.path.join(tmp, "sp.h5"), "r") as a, h5py.File(os.path.join(tmp, "spec64.h5"), "r") as b:
+        check(np.array_equal(a["mri/mask"][()], b["mask"][()]),
+              "simulate --mask SPEC.toml samples what mask --spec draws on the same grid")
 
 
 def mask_from_png(tmp):
