@@ -295,6 +295,8 @@ StudyMethod parse_method_table(const Config& t, int index, const std::string& ba
     const std::string mod = t.get_string("modality");
     const auto parsed = parse_modality(mod);
     if (!parsed) throw t.error("modality", "'" + mod + "'; expected mri, ct, denoise or inpaint");
+    if (s.method == Method::kUnrolled && *parsed != Modality::kMri && *parsed != Modality::kCt)
+      throw t.error("modality", "'" + mod + "'; unrolled models are trained for mri or ct only");
     if (!runs_on(s.method, *parsed))
       throw t.error("modality", "method " + m.method_name() + " does not run on " + mod);
     m.modalities = {*parsed};

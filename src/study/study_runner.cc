@@ -308,8 +308,9 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
       std::string measurement_file;
       if (sim_error.empty() && config.keep_all) {
         try {
-          measurement_file = kept_measurement_file(first.measurement_key);
-          write_measurement_file(dir + "/" + measurement_file, data.measurement);
+          const std::string rel = kept_measurement_file(first.measurement_key);
+          write_measurement_file(dir + "/" + rel, data.measurement);
+          measurement_file = rel;  // named in the rows only once written
         } catch (const std::exception& e) {
           sim_error = output_failure("writing the measurement: " + std::string(e.what()));
         }
@@ -343,7 +344,6 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
             try {
               o.image_file = kept_image_file(c->key);
               write_image_file(dir + "/" + o.image_file, o.record, Provenance{});
-              o.measurement_file = measurement_file;
             } catch (const std::exception& e) {
               o.ok = false;
               o.image_file.clear();
@@ -353,6 +353,7 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
         } else {
           o.error = sim_error;
         }
+        o.measurement_file = measurement_file;  // kept also when the method failed on it
         const std::string line = format_result_row(config, grid, *c, o) + "\n";
         std::lock_guard<std::mutex> lock(mutex);
         if (!append_row(fd, line)) {

@@ -299,6 +299,9 @@ TEST(StudyConfigLoad, ImageProblemAndKeepErrorsNameTheirKeys) {
   EXPECT_EQ(error_of(with("method = \"zero-filled\"", "method = \"zero-filled\"\nmodality = \"inpaint\"")), "");
   EXPECT_NE(error_of(with("method = \"fbp\"", "method = \"fbp\"\nmodality = \"denoise\"")).find("modality"),
             std::string::npos);
+  EXPECT_NE(error_of(with("method = \"fbp\"", "method = \"unrolled\"\nmodality = \"denoise\"")).find("modality"),
+            std::string::npos)
+      << "learned models are trained for mri or ct only";
 }
 
 }  // namespace

@@ -33,8 +33,8 @@
 //                                   the coils axis is replaced by the file's coil count, the
 //                                   noise axis is noise added to the measured samples, the
 //                                   truth is the fully sampled coil-combined image
-//                                   ("fully sampled"; it carries the scan's noise); CT
-//                                   protocols skip it.
+//                                   ("fully sampled"; it carries the scan's noise); CT,
+//                                   denoise and inpaint protocols skip it.
 //
 //   [[object]]                      an image as the object: any image file recofold reads
 //   file  = "head.dcm"              (DICOM file or series folder, NIfTI, MHA, NRRD, PNG, HDF5)
