@@ -7,17 +7,12 @@
 #include <sstream>
 
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/core/rng.h"
 
 namespace recofold {
 
 namespace {
-std::string num(double v) {
-  std::ostringstream s;
-  s << v;
-  return s.str();
-}
-
 void check(const TransmissionNoiseOptions& o) {
   const auto errors = o.validate();
   if (errors.empty()) return;
@@ -30,11 +25,11 @@ void check(const TransmissionNoiseOptions& o) {
 std::vector<std::string> TransmissionNoiseOptions::validate() const {
   std::vector<std::string> errors;
   if (!(photons_per_ray > 0.0) || !std::isfinite(photons_per_ray))
-    errors.push_back("photons_per_ray = " + num(photons_per_ray) + "; must be > 0");
+    errors.push_back("photons_per_ray = " + format_sig(photons_per_ray, 6) + "; must be > 0");
   if (bowtie && !(bowtie_edge_fraction > 0.0 && bowtie_edge_fraction <= 1.0))
-    errors.push_back("bowtie_edge_fraction = " + num(bowtie_edge_fraction) + "; must be in (0, 1]");
+    errors.push_back("bowtie_edge_fraction = " + format_sig(bowtie_edge_fraction, 6) + "; must be in (0, 1]");
   if (!(electronic_sigma >= 0.0) || !std::isfinite(electronic_sigma))
-    errors.push_back("electronic_sigma = " + num(electronic_sigma) + "; must be >= 0");
+    errors.push_back("electronic_sigma = " + format_sig(electronic_sigma, 6) + "; must be >= 0");
   return errors;
 }
 

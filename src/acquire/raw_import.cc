@@ -10,18 +10,12 @@
 #include <sstream>
 
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/ops/fft.h"
 
 namespace recofold {
 
 namespace {
-
-std::string fmt(double v) {
-  std::ostringstream s;
-  s.precision(6);
-  s << v;
-  return s.str();
-}
 
 // Median of |values| (values is reordered).
 double median_abs(std::vector<double>& v) {
@@ -115,7 +109,7 @@ Measurement measurement_from_raw(const RawCartesian& raw, const RawImportOptions
       }
       sigma = std::sqrt(s2 / 2.0);
       noise_source = "noise-adjust scans (" + scans + ", pre-whitened)";
-      whitening = "applied: covariance of " + scans + (dwell_scale != 1.0 ? ", scaled by the dwell-time ratio " + fmt(dwell_scale) : std::string());
+      whitening = "applied: covariance of " + scans + (dwell_scale != 1.0 ? ", scaled by the dwell-time ratio " + format_sig(dwell_scale, 6) : std::string());
     } else {
       sigma = std::sqrt(s2 / 2.0);
       noise_source = "noise-adjust scans (" + scans + ", channels not whitened: mean level)";
@@ -189,11 +183,11 @@ Measurement measurement_from_raw(const RawCartesian& raw, const RawImportOptions
   for (const auto& [key, value] : raw.header_texts) m.provenance.extra["raw." + key] = value;
   m.provenance.extra["raw.trajectory"] = raw.trajectory;
   m.provenance.extra["raw.encoded_matrix"] = std::to_string(ex) + " x " + std::to_string(ey);
-  m.provenance.extra["raw.encoded_fov_mm"] = fmt(raw.encoded_fov_mm[0]) + " x " + fmt(raw.encoded_fov_mm[1]) + " x " +
-                                             fmt(raw.encoded_fov_mm[2]);
+  m.provenance.extra["raw.encoded_fov_mm"] = format_sig(raw.encoded_fov_mm[0], 6) + " x " + format_sig(raw.encoded_fov_mm[1], 6) + " x " +
+                                             format_sig(raw.encoded_fov_mm[2], 6);
   m.provenance.extra["raw.recon_matrix"] = std::to_string(raw.recon_matrix[0]) + " x " + std::to_string(raw.recon_matrix[1]);
-  m.provenance.extra["raw.recon_fov_mm"] = fmt(raw.recon_fov_mm[0]) + " x " + fmt(raw.recon_fov_mm[1]) + " x " +
-                                           fmt(raw.recon_fov_mm[2]);
+  m.provenance.extra["raw.recon_fov_mm"] = format_sig(raw.recon_fov_mm[0], 6) + " x " + format_sig(raw.recon_fov_mm[1], 6) + " x " +
+                                           format_sig(raw.recon_fov_mm[2], 6);
   m.provenance.extra["raw.acquisitions"] = std::to_string(raw.acquisitions);
   m.provenance.extra["raw.noise_acquisitions"] = std::to_string(raw.noise_acquisitions);
   std::string skipped;

@@ -8,6 +8,7 @@
 #include "output_checks_cli.h"
 #include "recofold/acquire/raw_import.h"
 #include "recofold/core/atomic_file.h"
+#include "recofold/core/number_format.h"
 #include "recofold/core/error.h"
 #include "recofold/io/h5_file.h"
 #include "recofold/io/image_file.h"
@@ -27,13 +28,6 @@ struct ImportFlags {
   bool no_prewhiten = false;
   EspiritOptions espirit;
 };
-
-std::string fmt(double v, int precision = 4) {
-  std::ostringstream s;
-  s.precision(precision);
-  s << v;
-  return s.str();
-}
 
 // Coil maps [C, ny, nx] from a measurement file (/mri/coil_maps) or an image
 // file holding a complex stack [C, ny, nx].
@@ -143,13 +137,13 @@ void run_import(ImportFlags& f, const Context& ctx) {
 
   const Index coils = mri.kspace.shape[0];
   std::string over;
-  if (raw.readout_keep < raw.ex) over = " (readout oversampling " + fmt(static_cast<double>(raw.ex) / raw.readout_keep) + " removed)";
+  if (raw.readout_keep < raw.ex) over = " (readout oversampling " + format_sig(static_cast<double>(raw.ex) / raw.readout_keep, 4) + " removed)";
   std::string skipped;
   for (const auto& [kind, count] : raw.skipped) skipped += (skipped.empty() ? "" : ", ") + kind + " " + std::to_string(count);
   say(ctx, "wrote " + f.out + ": " + std::to_string(coils) + " coils, " + std::to_string(m.ny) + " x " +
                std::to_string(m.nx) + over + ", " + std::to_string(raw.selected_lines) + " lines of " +
-               std::to_string(raw.acquisitions) + " acquisitions, R = " + fmt(mri.acceleration, 3));
-  say(ctx, "  noise sigma " + fmt(mri.noise_sigma) + ": " + mri.texts["noise_sigma_source"]);
+               std::to_string(raw.acquisitions) + " acquisitions, R = " + format_sig(mri.acceleration, 3));
+  say(ctx, "  noise sigma " + format_sig(mri.noise_sigma, 4) + ": " + mri.texts["noise_sigma_source"]);
   say(ctx, "  coil maps: " + maps_text);
   if (!skipped.empty()) say(ctx, "  skipped: " + skipped);
 }

@@ -10,6 +10,7 @@
 #include "recofold/recon/learned_backend.h"
 #include "recofold/core/error.h"
 #include "recofold/core/json.h"
+#include "recofold/core/number_format.h"
 #include "recofold/core/provenance.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/io/h5_file.h"
@@ -27,12 +28,6 @@ struct ScoreFlags {
   double data_range = 0.0;
   int index = 0;
 };
-
-std::string readable_number(double v) {
-  char buf[64];
-  std::snprintf(buf, sizeof buf, "%g", v);
-  return buf;
-}
 
 // One slice of an image file: --index picks an image of a stack; a 2-D file holds image 0 only.
 // A measurement file (HDF5 without /image but with /truth/image) gives its ground truth.
@@ -87,7 +82,7 @@ double plausibility(const ScoreFlags& f, const ImageF& img) {
 
 void run_score(const ScoreFlags& f, const CLI::App& sub, const Context& ctx) {
   if (sub.count("--data-range") > 0 && !(std::isfinite(f.data_range) && f.data_range > 0))
-    throw InputError("", "--data-range", "got " + readable_number(f.data_range) +
+    throw InputError("", "--data-range", "got " + format_sig(f.data_range, 6) +
                                              ", expected a positive number (omit it for max - min of the reference)");
   if (f.reference.empty() && f.model.empty())
     throw InputError("", "--reference", "give a reference image to score against (or --model for a plausibility "
@@ -105,7 +100,7 @@ void run_score(const ScoreFlags& f, const CLI::App& sub, const Context& ctx) {
       w.add("image", f.image);
       say(ctx, w.str());
     } else {
-      say(ctx, "bits_per_dim  " + readable_number(bits) + " (-log2 p per pixel under " + f.model + ")\n" +
+      say(ctx, "bits_per_dim  " + format_sig(bits, 6) + " (-log2 p per pixel under " + f.model + ")\n" +
                    kResearchUseLine);
     }
     return;
@@ -147,7 +142,7 @@ void run_score(const ScoreFlags& f, const CLI::App& sub, const Context& ctx) {
   std::snprintf(buf, sizeof buf, "psnr   %.4f dB (data range %.6g)\nssim   %.6f\nnrmse  %.6f\nhfen   %.6f",
                 s.psnr, s.data_range, s.ssim, s.nrmse, s.hfen);
   say(ctx, buf);
-  if (have_model) say(ctx, "bits_per_dim  " + readable_number(bits) + " (-log2 p per pixel under " + f.model + ")");
+  if (have_model) say(ctx, "bits_per_dim  " + format_sig(bits, 6) + " (-log2 p per pixel under " + f.model + ")");
   say(ctx, kResearchUseLine);
 }
 

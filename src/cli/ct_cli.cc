@@ -7,6 +7,7 @@
 
 #include "recofold/acquire/ct_simulation.h"
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/ops/ct_geometry.h"
 #include "recofold/sampling/view_set.h"
 
@@ -15,12 +16,6 @@ namespace recofold::cli {
 namespace {
 
 bool given(const CLI::Option* o) { return o != nullptr && o->count() > 0; }
-
-std::string num(double v) {
-  std::ostringstream s;
-  s << v;
-  return s.str();
-}
 
 // Collects flag problems so one run reports all of them; the error's field is
 // the first bad flag.
@@ -102,9 +97,9 @@ Measurement simulate_ct_measurement(const CtSimulateFlags& f,
   if (given(f.given.mu) && f.mu_per_mm == 0.0)
     errors.add("--mu", "= 0; must be > 0 (leave it out for the automatic scale)");
   if (!(f.photons >= 0.0) || !std::isfinite(f.photons))
-    errors.add("--photons", "= " + num(f.photons) + "; must be >= 0 (0: noiseless)");
+    errors.add("--photons", "= " + format_sig(f.photons, 6) + "; must be >= 0 (0: noiseless)");
   if (!(f.electronic_sigma >= 0.0) || !std::isfinite(f.electronic_sigma))
-    errors.add("--electronic-noise", "= " + num(f.electronic_sigma) + "; must be >= 0");
+    errors.add("--electronic-noise", "= " + format_sig(f.electronic_sigma, 6) + "; must be >= 0");
   if (f.electronic_sigma > 0.0 && f.photons == 0.0)
     errors.add("--electronic-noise", "needs --photons (the noise is in counts)");
   if (f.bowtie && f.photons == 0.0) errors.add("--bowtie", "needs --photons");

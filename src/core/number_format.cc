@@ -27,4 +27,12 @@ std::string format_sig(double v, int digits) {
   return buf;
 }
 
+std::string format_fixed(double v, int decimals) {
+  if (std::isnan(v)) return "nan";
+  if (std::isinf(v)) return v > 0 ? "inf" : "-inf";
+  char buf[400];  // %.*f of 1e308 has 309 digits before the point
+  std::snprintf(buf, sizeof buf, "%.*f", decimals, v);
+  return buf;
+}
+
 }  // namespace recofold

@@ -13,6 +13,7 @@
 #include "model_state.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/learn/flow_model.h"
 #include "recofold/learn/trainer.h"
 #include "recofold/learn/training_data.h"
@@ -24,7 +25,6 @@ namespace recofold {
 
 namespace {
 
-using internal::format_number;
 
 // Images first .. first+count-1 of the stream as [count, 1, ny, nx].
 torch::Tensor draw_images(const TrainingConditions& c, uint64_t seed, uint64_t first, int count) {
@@ -126,11 +126,11 @@ TrainResult train_flow_model(const TrainingConfig& cfg, const TrainRun& run) {
   const auto t_loop = std::chrono::steady_clock::now();
   const int64_t first_step = step;
   auto status = [&]() {
-    std::string s = "train " + format_number("%.3f", bits_per_dim_of(loss_value, arch.dequant)) + " bits/dim";
-    if (have_val) s += ", val " + format_number("%.3f", val_bpd);
+    std::string s = "train " + format_fixed(bits_per_dim_of(loss_value, arch.dequant), 3) + " bits/dim";
+    if (have_val) s += ", val " + format_fixed(val_bpd, 3);
     const double dt = seconds_since(t_loop);
     if (step > first_step && dt > 0)
-      s += ", " + format_number("%.1f", double((step - first_step) * o.batch) / dt) + " ex/s";
+      s += ", " + format_fixed(double((step - first_step) * o.batch) / dt, 1) + " ex/s";
     return s;
   };
 

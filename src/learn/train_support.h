@@ -18,9 +18,6 @@ double scheduled_learning_rate(const TrainOptions& o, int64_t step);
 // validation_seed(train.seed), for every configured family.
 std::vector<SeedRange> training_seed_ranges(const TrainingConfig& cfg, int64_t steps_done);
 
-// "12.3 ex/s"-style number formatting for status lines.
-std::string format_number(const char* format, double v);
-
 // The thread settings of a training run, restored when it ends (normally or
 // by an exception): OpenMP threads (`threads` > 0 sets them, 0 keeps them),
 // torch's intra-op threads aligned with them, and one FFT thread (examples of

@@ -14,6 +14,7 @@
 #include "train_support.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/core/provenance.h"
 #include "recofold/learn/model.h"
 #include "recofold/learn/training_data.h"
@@ -109,12 +110,6 @@ void write_checkpoint(const std::string& path, const internal::ModelState& s, co
   w.commit();
 }
 
-std::string fmt(const char* f, double v) {
-  char b[64];
-  std::snprintf(b, sizeof b, f, v);
-  return b;
-}
-
 }  // namespace
 
 namespace internal {
@@ -139,12 +134,6 @@ std::vector<SeedRange> training_seed_ranges(const TrainingConfig& cfg, int64_t s
   out.push_back({"validation", cfg.data.families, validation_seed(cfg.train.seed), 0,
                  static_cast<uint64_t>(cfg.train.validation_count - 1)});
   return out;
-}
-
-std::string format_number(const char* f, double v) {
-  char b[64];
-  std::snprintf(b, sizeof b, f, v);
-  return b;
 }
 
 }  // namespace internal
@@ -219,10 +208,10 @@ TrainResult train_unrolled_model(const TrainingConfig& cfg, const TrainRun& run)
   const auto t_loop = std::chrono::steady_clock::now();
   const int64_t first_step = step;
   auto status = [&]() {
-    std::string s = "loss " + fmt("%.3g", loss_value);
-    if (have_scores) s += ", val " + fmt("%.2f", last_scores.psnr) + " dB (A^H y " + fmt("%.2f", val.baseline_psnr) + ")";
+    std::string s = "loss " + format_sig(loss_value, 3);
+    if (have_scores) s += ", val " + format_fixed(last_scores.psnr, 2) + " dB (A^H y " + format_fixed(val.baseline_psnr, 2) + ")";
     const double dt = seconds_since(t_loop);
-    if (step > first_step && dt > 0) s += ", " + fmt("%.1f", double((step - first_step) * o.batch) / dt) + " ex/s";
+    if (step > first_step && dt > 0) s += ", " + format_fixed(double((step - first_step) * o.batch) / dt, 1) + " ex/s";
     return s;
   };
 

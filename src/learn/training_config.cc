@@ -9,6 +9,7 @@
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
 #include "recofold/core/json.h"
+#include "recofold/core/number_format.h"
 #include "recofold/io/h5_file.h"
 #include "recofold/phantom/family.h"
 #include "recofold/sampling/mask.h"
@@ -70,12 +71,6 @@ bool within(double v, double lo, double hi) {
 }
 
 std::string range_text(double lo, double hi) { return "[" + num(lo) + ", " + num(hi) + "]"; }
-
-std::string fixed(double v, int digits) {
-  char b[40];
-  std::snprintf(b, sizeof b, "%.*f", digits, v);
-  return b;
-}
 
 }  // namespace
 
@@ -283,7 +278,7 @@ std::string TrainingConditions::outside(const Measurement& m) const {
     if (std::find(patterns.begin(), patterns.end(), d.pattern) == patterns.end())
       out.push_back("pattern '" + d.pattern + "' not in [" + join(patterns) + "]");
     if (!within(d.acceleration, accel_min, accel_max))
-      out.push_back("acceleration " + fixed(d.acceleration, 2) + " outside " + range_text(accel_min, accel_max));
+      out.push_back("acceleration " + format_fixed(d.acceleration, 2) + " outside " + range_text(accel_min, accel_max));
     if (!within(d.noise_sigma, noise_min, noise_max))
       out.push_back("noise sigma " + num(d.noise_sigma) + " outside " + range_text(noise_min, noise_max));
     const int coils = d.kspace.shape.rank() == 3 ? static_cast<int>(d.kspace.shape[0]) : 1;

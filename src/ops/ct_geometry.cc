@@ -7,18 +7,10 @@
 #include <sstream>
 
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/core/measurement.h"
 
 namespace recofold {
-
-namespace {
-std::string num(double v) {
-  std::ostringstream s;
-  s.precision(10);
-  s << v;
-  return s.str();
-}
-}  // namespace
 
 double CtGeometry::image_half_diagonal_mm() const {
   return 0.5 * pixel_size_mm * std::sqrt(double(nx) * double(nx) + double(ny) * double(ny));
@@ -35,21 +27,21 @@ std::vector<std::string> CtGeometry::validate() const {
   }
   if (detector_count < 1) errors.push_back("detector_count = " + std::to_string(detector_count) + "; must be >= 1");
   if (!(detector_spacing_mm > 0.0) || !std::isfinite(detector_spacing_mm))
-    errors.push_back("detector_spacing_mm = " + num(detector_spacing_mm) + "; must be > 0");
+    errors.push_back("detector_spacing_mm = " + format_sig(detector_spacing_mm, 10) + "; must be > 0");
   if (!std::isfinite(detector_offset_mm))
-    errors.push_back("detector_offset_mm = " + num(detector_offset_mm) + "; must be finite");
+    errors.push_back("detector_offset_mm = " + format_sig(detector_offset_mm, 10) + "; must be finite");
   if (ny < 1 || nx < 1)
     errors.push_back("image grid = " + std::to_string(ny) + "x" + std::to_string(nx) + "; both sizes must be >= 1");
   if (!(pixel_size_mm > 0.0) || !std::isfinite(pixel_size_mm))
-    errors.push_back("pixel_size_mm = " + num(pixel_size_mm) + "; must be > 0");
+    errors.push_back("pixel_size_mm = " + format_sig(pixel_size_mm, 10) + "; must be > 0");
   if (beam == CtBeam::kFan) {
     const double r_obj = image_half_diagonal_mm();
     if (!(source_to_isocenter_mm > r_obj) || !std::isfinite(source_to_isocenter_mm))
-      errors.push_back("source_to_isocenter_mm = " + num(source_to_isocenter_mm) +
-                       "; the source must lie outside the circle enclosing the image (radius " + num(r_obj) + " mm)");
+      errors.push_back("source_to_isocenter_mm = " + format_sig(source_to_isocenter_mm, 10) +
+                       "; the source must lie outside the circle enclosing the image (radius " + format_sig(r_obj, 10) + " mm)");
     if (!(source_to_detector_mm > source_to_isocenter_mm) || !std::isfinite(source_to_detector_mm))
-      errors.push_back("source_to_detector_mm = " + num(source_to_detector_mm) +
-                       "; must exceed source_to_isocenter_mm = " + num(source_to_isocenter_mm));
+      errors.push_back("source_to_detector_mm = " + format_sig(source_to_detector_mm, 10) +
+                       "; must exceed source_to_isocenter_mm = " + format_sig(source_to_isocenter_mm, 10));
     // The fan angle is only meaningful once the distances are valid.
     const bool distances_ok = source_to_isocenter_mm > r_obj && source_to_detector_mm > source_to_isocenter_mm &&
                               std::isfinite(source_to_detector_mm);
@@ -57,7 +49,7 @@ std::vector<std::string> CtGeometry::validate() const {
       const double g = std::max(std::abs(detector_coordinate(0)), std::abs(detector_coordinate(detector_count - 1))) /
                        source_to_detector_mm;
       if (!(g < 0.5 * M_PI))
-        errors.push_back("equiangular detector spans a fan half-angle of " + num(g * 180.0 / M_PI) +
+        errors.push_back("equiangular detector spans a fan half-angle of " + format_sig(g * 180.0 / M_PI, 10) +
                          " degrees; must be < 90");
     }
   }
@@ -139,7 +131,7 @@ CtGeometry ct_geometry_from(const Measurement& m, const std::string& file) {
   if (std::abs(m.pixel_spacing_mm[0] - m.pixel_spacing_mm[1]) > 1e-6 * std::abs(m.pixel_spacing_mm[1]))
     throw InputError(
         file, "pixel_spacing_mm",
-        "CT needs square pixels; got (" + num(m.pixel_spacing_mm[0]) + ", " + num(m.pixel_spacing_mm[1]) + ")");
+        "CT needs square pixels; got (" + format_sig(m.pixel_spacing_mm[0], 10) + ", " + format_sig(m.pixel_spacing_mm[1], 10) + ")");
   const auto errors = g.validate();
   if (!errors.empty()) {
     std::string all;

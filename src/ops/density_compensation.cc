@@ -8,17 +8,13 @@
 #include <sstream>
 
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 
 namespace recofold {
 
 namespace {
 constexpr double kPi = 3.14159265358979323846;
 
-std::string fmt(double v) {
-  std::ostringstream s;
-  s << v;
-  return s.str();
-}
 }  // namespace
 
 std::vector<float> radial_ramp_dcf(const std::vector<double>& angles, const std::vector<double>& r) {
@@ -72,7 +68,7 @@ std::vector<std::string> PipeMenonOptions::validate() const {
   std::vector<std::string> e;
   if (iterations < 1 || iterations > 1000)
     e.push_back("dcf.iterations = " + std::to_string(iterations) + "; must be 1..1000");
-  if (!(tolerance >= 0.0) || !std::isfinite(tolerance)) e.push_back("dcf.tolerance = " + fmt(tolerance) + "; must be >= 0");
+  if (!(tolerance >= 0.0) || !std::isfinite(tolerance)) e.push_back("dcf.tolerance = " + format_sig(tolerance, 6) + "; must be >= 0");
   if (kernel_width < 4 || kernel_width > 16)
     e.push_back("dcf.kernel_width = " + std::to_string(kernel_width) + "; must be 4..16");
   return e;

@@ -11,19 +11,13 @@
 #include <sstream>
 
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 
 namespace recofold {
 
 namespace {
 
 constexpr double kPi = 3.14159265358979323846;
-
-std::string fmt(double v) {
-  std::ostringstream s;
-  s.precision(4);
-  s << v;
-  return s.str();
-}
 
 // The calibration block: the mask's fully sampled centre, cropped to at most
 // `size` per axis around the k-space centre.
@@ -48,9 +42,9 @@ std::vector<std::string> EspiritOptions::validate() const {
   if (calibration_size < kernel_size || calibration_size > 256)
     e.push_back("espirit.calibration_size = " + std::to_string(calibration_size) + "; must be kernel_size .. 256");
   if (!(singular_threshold > 0.0 && singular_threshold < 1.0))
-    e.push_back("espirit.singular_threshold = " + fmt(singular_threshold) + "; must be in (0, 1)");
+    e.push_back("espirit.singular_threshold = " + format_sig(singular_threshold, 4) + "; must be in (0, 1)");
   if (!(crop_threshold >= 0.0 && crop_threshold < 1.0))
-    e.push_back("espirit.crop_threshold = " + fmt(crop_threshold) + "; must be in [0, 1)");
+    e.push_back("espirit.crop_threshold = " + format_sig(crop_threshold, 4) + "; must be in [0, 1)");
   return e;
 }
 
@@ -199,8 +193,8 @@ EspiritResult espirit_maps(const NdArray<cfloat>& kspace, const NdArray<uint8_t>
   }
   result.summary = "ESPIRiT " + std::to_string(k) + "x" + std::to_string(k) + " kernel, " + std::to_string(cal.rows) +
                    "x" + std::to_string(cal.cols) + " calibration, " + std::to_string(kept) + " of " +
-                   std::to_string(std::min(rows, cols)) + " singular vectors (> " + fmt(o.singular_threshold) +
-                   " sigma1), crop " + fmt(o.crop_threshold);
+                   std::to_string(std::min(rows, cols)) + " singular vectors (> " + format_sig(o.singular_threshold, 4) +
+                   " sigma1), crop " + format_sig(o.crop_threshold, 4);
   return result;
 }
 

@@ -14,6 +14,7 @@
 
 #include "fft_plan_cache.h"
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/ops/fft.h"
 
 namespace recofold {
@@ -23,12 +24,6 @@ namespace {
 constexpr double kPi = 3.14159265358979323846;
 constexpr int kMinWidth = 2, kMaxWidth = 16;
 constexpr Index kTileCells = 32;  // target tile side in grid cells
-
-std::string fmt(double v) {
-  std::ostringstream s;
-  s << v;
-  return s.str();
-}
 
 // Per-thread aligned buffers for the oversampled grids (FFTW's SIMD code
 // wants fftwf_malloc alignment). Slots are independent of fft.cc's scratch.
@@ -112,9 +107,9 @@ std::optional<NufftKernel> parse_nufft_kernel(std::string_view text) {
 std::vector<std::string> NufftOptions::validate() const {
   std::vector<std::string> e;
   if (!(epsilon >= 1e-6 && epsilon <= 1e-1))
-    e.push_back("nufft.epsilon = " + fmt(epsilon) + "; must be in [1e-6, 0.1]");
+    e.push_back("nufft.epsilon = " + format_sig(epsilon, 6) + "; must be in [1e-6, 0.1]");
   if (!(oversampling >= 1.25 && oversampling <= 2.0))
-    e.push_back("nufft.oversampling = " + fmt(oversampling) + "; must be in [1.25, 2]");
+    e.push_back("nufft.oversampling = " + format_sig(oversampling, 6) + "; must be in [1.25, 2]");
   if (width != 0 && (width < kMinWidth || width > kMaxWidth))
     e.push_back("nufft.width = " + std::to_string(width) + "; must be 0 (from epsilon) or " +
                 std::to_string(kMinWidth) + ".." + std::to_string(kMaxWidth));
@@ -190,8 +185,8 @@ void check_kspace_points(const VecD& kx, const VecD& ky, Index ny, Index nx, con
   const double lim_y = 0.5 * static_cast<double>(ny) * (1.0 + 1e-9);
   for (Index j = 0; j < kx.size(); ++j) {
     if (!std::isfinite(kx[j]) || !std::isfinite(ky[j]))
-      throw InputError(file, field, "point " + std::to_string(j) + " is not finite (" + fmt(kx[j]) + ", " +
-                                        fmt(ky[j]) + ")");
+      throw InputError(file, field, "point " + std::to_string(j) + " is not finite (" + format_sig(kx[j], 6) + ", " +
+                                        format_sig(ky[j], 6) + ")");
     if (std::abs(kx[j]) > lim_x || std::abs(ky[j]) > lim_y) {
       std::ostringstream s;
       s << "point " << j << " (" << kx[j] << ", " << ky[j] << ") cycles per FOV is outside ±" << 0.5 * nx << " x ±"

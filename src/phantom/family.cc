@@ -8,6 +8,7 @@
 
 #include "family_internal.h"
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/core/rng.h"
 #include "recofold/phantom/bounds.h"
 
@@ -62,12 +63,6 @@ bool certified_below(const Phantom& p, double bound) {
 }  // namespace internal
 
 namespace {
-
-std::string num(double v) {
-  std::ostringstream s;
-  s << v;
-  return s.str();
-}
 
 // Support and random regions of the ellipses and textured families.
 internal::RegionTree draw_regions(const FamilyOptions& o, Rng& rng, double* sx, double* sy, double* sa, double* sb) {
@@ -154,17 +149,17 @@ std::vector<std::string> FamilyOptions::validate() const {
   if (components < 0 || components > 1000)
     e.push_back("family.components = " + std::to_string(components) + "; must be in 0..1000");
   if (!(intensity_min >= 0.0 && intensity_min < intensity_max && intensity_max <= kFamilyValueBound))
-    e.push_back("family.intensity_min = " + num(intensity_min) + ", intensity_max = " + num(intensity_max) +
-                "; must satisfy 0 <= min < max <= " + num(kFamilyValueBound) +
+    e.push_back("family.intensity_min = " + format_sig(intensity_min, 6) + ", intensity_max = " + format_sig(intensity_max, 6) +
+                "; must satisfy 0 <= min < max <= " + format_sig(kFamilyValueBound, 6) +
                 " (values are relative to water and never negative)");
   if (!(size_min > 0.0 && size_min <= size_max && size_max <= 0.5))
-    e.push_back("family.size_min = " + num(size_min) + ", size_max = " + num(size_max) +
+    e.push_back("family.size_min = " + format_sig(size_min, 6) + ", size_max = " + format_sig(size_max, 6) +
                 "; must satisfy 0 < min <= max <= 0.5");
   if (texture_blobs < 0 || texture_blobs > 5000)
     e.push_back("family.texture_blobs = " + std::to_string(texture_blobs) + "; must be in 0..5000");
   if (!(texture_contrast >= 0.0 && texture_contrast <= 1.0))
-    e.push_back("family.texture_contrast = " + num(texture_contrast) + "; must be in [0, 1]");
-  if (!(fov_mm > 0.0 && std::isfinite(fov_mm))) e.push_back("family.fov_mm = " + num(fov_mm) + "; must be > 0");
+    e.push_back("family.texture_contrast = " + format_sig(texture_contrast, 6) + "; must be in [0, 1]");
+  if (!(fov_mm > 0.0 && std::isfinite(fov_mm))) e.push_back("family.fov_mm = " + format_sig(fov_mm, 6) + "; must be > 0");
   return e;
 }
 

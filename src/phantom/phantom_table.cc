@@ -8,6 +8,7 @@
 #include <sstream>
 
 #include "recofold/core/config.h"
+#include "recofold/core/number_format.h"
 #include "recofold/core/error.h"
 
 namespace recofold {
@@ -22,19 +23,13 @@ const std::vector<std::string> kColumns = {"object", "type", "intensity_re", "in
                                            "b",      "x0",   "y0",           "phi_deg"};
 constexpr const char* kTypeLegend = "0 = ellipse (a, b semi-axes), 1 = blob (a, b standard deviations)";
 
-std::string num(double v) {
-  std::ostringstream s;
-  s << v;
-  return s.str();
-}
-
 double finite_double(const Config& cfg, const std::string& key, double fallback, bool required) {
   if (!cfg.has(key)) {
     if (required) throw cfg.error(key, "missing; required in every component");
     return fallback;
   }
   const double v = cfg.get_double(key);
-  if (!std::isfinite(v)) throw cfg.error(key, "= " + num(v) + "; must be a finite number");
+  if (!std::isfinite(v)) throw cfg.error(key, "= " + format_sig(v, 6) + "; must be a finite number");
   return v;
 }
 
@@ -69,7 +64,7 @@ Component read_component(const Config& cfg, ComponentKind kind) {
   for (const char* axis : {"a", "b"}) {
     const double v = finite_double(cfg, axis, 0.0, true);
     if (!(v > 0.0))
-      throw cfg.error(axis, "= " + num(v) + "; must be > 0 (" +
+      throw cfg.error(axis, "= " + format_sig(v, 6) + "; must be > 0 (" +
                                 (kind == ComponentKind::kEllipse ? "a semi-axis" : "a standard deviation") + ")");
     (axis[0] == 'a' ? c.a : c.b) = v;
   }
@@ -103,7 +98,7 @@ Phantom phantom_from_config(const Config& cfg) {
   p.name = cfg.get_string_or("name", file_stem(cfg.file()));
   p.description = cfg.get_string_or("description", "");
   p.fov_mm = finite_double(cfg, "fov_mm", 256.0, false);
-  if (!(p.fov_mm > 0.0)) throw cfg.error("fov_mm", "= " + num(p.fov_mm) + "; must be > 0");
+  if (!(p.fov_mm > 0.0)) throw cfg.error("fov_mm", "= " + format_sig(p.fov_mm, 6) + "; must be > 0");
   p.phase0_rad = finite_double(cfg, "phase0_deg", 0.0, false) * kPi / 180.0;
   p.phase_gx = finite_double(cfg, "phase_gx", 0.0, false);
   p.phase_gy = finite_double(cfg, "phase_gy", 0.0, false);
@@ -194,7 +189,7 @@ std::vector<Phantom> phantoms_from_table(const Table& table, const std::string& 
   };
   Phantom base;
   base.fov_mm = attr("fov_mm", 256.0);
-  if (!(base.fov_mm > 0.0)) throw table_error(file, "attribute fov_mm = " + num(base.fov_mm) + "; must be > 0");
+  if (!(base.fov_mm > 0.0)) throw table_error(file, "attribute fov_mm = " + format_sig(base.fov_mm, 6) + "; must be > 0");
   base.phase0_rad = attr("phase0_rad", 0.0);
   base.phase_gx = attr("phase_gx", 0.0);
   base.phase_gy = attr("phase_gy", 0.0);
@@ -212,17 +207,17 @@ std::vector<Phantom> phantoms_from_table(const Table& table, const std::string& 
     const double obj = v("object");
     // Every object has at least one row, so an index cannot reach the row count.
     if (obj < 0 || obj != std::floor(obj) || obj >= static_cast<double>(s[0]))
-      throw table_error(file, where + "object = " + num(obj) + "; must be an integer in 0.." +
+      throw table_error(file, where + "object = " + format_sig(obj, 6) + "; must be an integer in 0.." +
                                   std::to_string(s[0] - 1) + " (objects are numbered from 0 without gaps)");
     const double type = v("type");
-    if (type != 0.0 && type != 1.0) throw table_error(file, where + "type = " + num(type) + "; must be 0 (ellipse) or 1 (blob)");
+    if (type != 0.0 && type != 1.0) throw table_error(file, where + "type = " + format_sig(type, 6) + "; must be 0 (ellipse) or 1 (blob)");
     Component c;
     c.kind = type == 0.0 ? ComponentKind::kEllipse : ComponentKind::kGaussian;
     c.intensity = cdouble(v("intensity_re"), v("intensity_im"));
     c.a = v("a");
     c.b = v("b");
     if (!(c.a > 0.0) || !(c.b > 0.0))
-      throw table_error(file, where + "a = " + num(c.a) + ", b = " + num(c.b) + "; both must be > 0");
+      throw table_error(file, where + "a = " + format_sig(c.a, 6) + ", b = " + format_sig(c.b, 6) + "; both must be > 0");
     c.x0 = v("x0");
     c.y0 = v("y0");
     c.phi_deg = v("phi_deg");

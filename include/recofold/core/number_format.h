@@ -14,4 +14,7 @@ std::string format_number(double v);
 // `digits` significant digits (%.*g): CSV metric cells, report tables, summaries.
 std::string format_sig(double v, int digits);
 
+// `decimals` digits after the point (%.*f): status lines ("31.42 dB", "12.5 ex/s").
+std::string format_fixed(double v, int decimals);
+
 }  // namespace recofold
