@@ -358,59 +358,86 @@ std::string findings_html(const std::vector<SummaryRow>& summary, const std::vec
   return h + "</section>\n";
 }
 
-}  // namespace
-
-std::string write_study_report(const ReportInputs& in) {
-  const StudyConfig& c = *in.config;
-  const CaseGrid& grid = *in.grid;
-  const ResultsTable& results = *in.results;
-  const std::string fig_dir = in.dir + "/figures";
-  ::mkdir(fig_dir.c_str(), 0777);
-
+// What every part of the report reads: the inputs, the summary index and the figure counter.
+struct ReportContext {
+  const ReportInputs& in;
+  const StudyConfig& c;
+  const CaseGrid& grid;
+  const ResultsTable& results;
+  std::string fig_dir;
   Lookup lookup;
-  for (const SummaryRow& r : *in.summary) lookup.rows[Lookup::id(r.object_set, r.modality, r.method, r.axes)] = &r;
   std::vector<std::string> sets;  // object sets in config order
-  for (const StudyPhantom& p : c.phantoms)
-    if (std::find(sets.begin(), sets.end(), object_set(p)) == sets.end()) sets.push_back(object_set(p));
-  const std::string main_metric =
-      std::find(c.metrics.begin(), c.metrics.end(), "psnr") != c.metrics.end() ? "psnr" : c.metrics.front();
+  std::string main_metric;
   std::map<std::string, size_t> row_of_case;
-  for (size_t r = 0; r < results.rows.size(); ++r) row_of_case[results.cell(r, "case")] = r;
   int failed = 0;
-  for (size_t r = 0; r < results.rows.size(); ++r) failed += results.cell(r, "error").empty() ? 0 : 1;
+  int figure = 0;
 
+  explicit ReportContext(const ReportInputs& inputs)
+      : in(inputs), c(*inputs.config), grid(*inputs.grid), results(*inputs.results), fig_dir(inputs.dir + "/figures") {
+    for (const SummaryRow& r : *in.summary) lookup.rows[Lookup::id(r.object_set, r.modality, r.method, r.axes)] = &r;
+    for (const StudyPhantom& p : c.phantoms)
+      if (std::find(sets.begin(), sets.end(), object_set(p)) == sets.end()) sets.push_back(object_set(p));
+    main_metric = std::find(c.metrics.begin(), c.metrics.end(), "psnr") != c.metrics.end() ? "psnr" : c.metrics.front();
+    for (size_t r = 0; r < results.rows.size(); ++r) {
+      row_of_case[results.cell(r, "case")] = r;
+      failed += results.cell(r, "error").empty() ? 0 : 1;
+    }
+  }
+};
+
+// The acquisitions and methods of one modality section.
+struct SectionParts {
+  Modality modality;
+  std::string name;  // "mri", "ct", ...
+  std::vector<const Acquisition*> acqs;
+  std::vector<const StudyMethod*> methods;
+};
+
+std::string method_header(const StudyMethod& m, Modality modality) {
+  const std::string rule = lambda_rule(m, modality);
+  if (rule == "oracle") return "<br><span class=\"oracle\">[" + std::string(kOracleMark) + "]</span>";
+  return "<br><small>&lambda; " + html_escape(rule) + "</small>";
+}
+
+// "grid" row: cases per modality (acquisitions x methods that run there) x objects x repetitions.
+std::string grid_row_html(const ReportContext& x) {
+  std::string terms;
+  long long per_object = 0;
+  for (const Modality mod : all_modalities()) {
+    long long na = 0, nm = 0;
+    for (const Acquisition& a : x.grid.acquisitions) na += a.modality == mod ? 1 : 0;
+    for (const StudyMethod& m : x.c.methods) nm += m.applies_to(mod) ? 1 : 0;
+    if (na == 0 || nm == 0) continue;
+    terms += std::string(terms.empty() ? "" : " + ") + modality_title(mod) + " " + std::to_string(na) +
+             " acquisition" + (na == 1 ? "" : "s") + " &times; " + std::to_string(nm) + " method" +
+             (nm == 1 ? "" : "s");
+    per_object += na * nm;
+  }
+  const StudyConfig& c = x.c;
+  const long long expected = per_object * (long long)c.phantoms.size() * c.repetitions;
+  std::string h = "<tr><th>grid</th><td>" + std::to_string(c.phantoms.size()) + " object" +
+                  (c.phantoms.size() == 1 ? "" : "s") + " &times; (" + terms + ") &times; " +
+                  std::to_string(c.repetitions) + " repetition" + (c.repetitions == 1 ? "" : "s") + " = " +
+                  std::to_string(expected) + " cases";
+  if (expected != (long long)x.grid.cases.size())
+    h += " (" + std::to_string(x.grid.cases.size()) + " in the grid: methods left out of this build)";
+  return h + "; results.csv holds " + std::to_string(x.results.rows.size()) + " rows, " + std::to_string(x.failed) +
+         " failed</td></tr>\n";
+}
+
+// Title, research-use line, findings, provenance table, learned models and notes.
+std::string head_html(const ReportContext& x) {
+  const StudyConfig& c = x.c;
   std::string h = "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>recofold study: " +
                   html_escape(c.name) + "</title>\n<style>" + kStyle + "</style>\n</head>\n<body>\n";
   h += "<p class=\"ruo\">" + html_escape(kResearchUseLine) + "</p>\n";
   h += "<h1>recofold study: " + html_escape(c.name) + "</h1>\n";
   if (!c.description.empty()) h += "<p>" + html_escape(c.description) + "</p>\n";
-  if (in.comparisons != nullptr) h += findings_html(*in.summary, *in.comparisons, main_metric);
+  if (x.in.comparisons != nullptr) h += findings_html(*x.in.summary, *x.in.comparisons, x.main_metric);
   h += "<table>\n<tr><th>producer</th><td>" + html_escape(producer_string()) + "</td></tr>\n";
   h += "<tr><th>created (UTC)</th><td>" + Provenance::utc_timestamp() + "</td></tr>\n";
   h += "<tr><th>config</th><td>" + html_escape(c.file) + " (hash " + c.hash + ")</td></tr>\n";
-  {
-    // Cases per modality: acquisitions x methods that run there; times objects and repetitions.
-    std::string terms;
-    long long per_object = 0;
-    for (const Modality mod : all_modalities()) {
-      long long na = 0, nm = 0;
-      for (const Acquisition& a : grid.acquisitions) na += a.modality == mod ? 1 : 0;
-      for (const StudyMethod& m : c.methods) nm += m.applies_to(mod) ? 1 : 0;
-      if (na == 0 || nm == 0) continue;
-      terms += std::string(terms.empty() ? "" : " + ") + modality_title(mod) + " " +
-               std::to_string(na) + " acquisition" + (na == 1 ? "" : "s") + " &times; " + std::to_string(nm) +
-               " method" + (nm == 1 ? "" : "s");
-      per_object += na * nm;
-    }
-    const long long expected = per_object * (long long)c.phantoms.size() * c.repetitions;
-    h += "<tr><th>grid</th><td>" + std::to_string(c.phantoms.size()) + " object" +
-         (c.phantoms.size() == 1 ? "" : "s") + " &times; (" + terms + ") &times; " + std::to_string(c.repetitions) +
-         " repetition" + (c.repetitions == 1 ? "" : "s") + " = " + std::to_string(expected) + " cases";
-    if (expected != (long long)grid.cases.size())
-      h += " (" + std::to_string(grid.cases.size()) + " in the grid: methods left out of this build)";
-    h += "; results.csv holds " + std::to_string(results.rows.size()) + " rows, " + std::to_string(failed) +
-         " failed</td></tr>\n";
-  }
+  h += grid_row_html(x);
   h += "<tr><th>image grid</th><td>" + std::to_string(c.ny) + " &times; " + std::to_string(c.nx) + "</td></tr>\n";
   std::string ph;
   for (const auto& p : c.phantoms) ph += (ph.empty() ? "" : ", ") + p.label;
@@ -422,10 +449,11 @@ std::string write_study_report(const ReportInputs& in) {
        "and condition), comparisons.csv (paired differences, intervals, Wilcoxon p-values), figures/ (SVG plots, "
        "PNG montages), images/ (montage reconstructions)</td></tr>\n</table>\n";
   for (const StudyMethod& m : c.methods)
-    if (m.learned() && in.learned != nullptr) {
-      const std::string json = in.learned->trained_on_json(m.name);
+    if (m.learned() && x.in.learned != nullptr) {
+      const std::string json = x.in.learned->trained_on_json(m.name);
       h += "<p>Learned method <b>" + html_escape(m.name) + "</b>: model " +
-           html_escape(in.learned->model_path(m.name)) + "; trained on " + html_escape(json.empty() ? "(not recorded)" : json) +
+           html_escape(x.in.learned->model_path(m.name)) + "; trained on " +
+           html_escape(json.empty() ? "(not recorded)" : json) +
            ". Rows inside these conditions are shaded green in the tables and ringed in the plots.</p>\n";
     }
   if (!c.notes.empty()) {
@@ -433,224 +461,248 @@ std::string write_study_report(const ReportInputs& in) {
     for (const auto& n : c.notes) h += "<li>" + html_escape(n) + "</li>\n";
     h += "</ul>\n";
   }
+  return h;
+}
 
-  int figure = 0;
-  for (const Modality modality_enum : all_modalities()) {
-    const std::string modality(to_string(modality_enum));
-    std::vector<const Acquisition*> acqs;
-    for (const Acquisition& a : grid.acquisitions)
-      if (to_string(a.modality) == modality) acqs.push_back(&a);
-    std::vector<const StudyMethod*> methods;
-    for (const StudyMethod& m : c.methods)
-      if (m.applies_to(*parse_modality(modality))) methods.push_back(&m);
-    if (acqs.empty() || methods.empty()) continue;
-    h += "<h2>" + modality_title(modality_enum) + " protocols</h2>\n";
-
-    // Table of methods x conditions (object set x acquisition).
-    h += "<p>Each cell: per metric the mean, its 95 % confidence interval (Student's t over objects and "
-         "repetitions) and the per-repetition values (dots; the bar is the mean; one common range per row and "
-         "metric); the best mean of each row and metric is bold. Shaded green: inside a learned method's "
-         "training conditions.</p>\n";
-    h += "<table>\n<tr><th>condition</th>";
-    for (const StudyMethod* m : methods) {
-      h += "<th>" + html_escape(m->name);
-      if (lambda_rule(*m, *parse_modality(modality)) == "oracle") h += "<br><span class=\"oracle\">[" + std::string(kOracleMark) + "]</span>";
-      else h += "<br><small>&lambda; " + html_escape(lambda_rule(*m, *parse_modality(modality))) + "</small>";
-      h += "</th>";
-    }
-    h += "</tr>\n";
-    for (const std::string& set : sets)
-      for (const Acquisition* a : acqs) {
-        std::vector<const SummaryRow*> row_rows;
-        for (const StudyMethod* m : methods) row_rows.push_back(lookup.find(set, *a, m->name));
-        bool any = false;
-        for (const SummaryRow* r : row_rows) any = any || r != nullptr;
-        if (!any) continue;
-        std::string cond = sets.size() > 1 ? "objects " + set : "";
-        for (const auto& ax : acquisition_axes())
-          if (!axis_value(*a, ax).empty()) cond += (cond.empty() ? "" : ", ") + ax + " " + axis_value(*a, ax);
-        h += "<tr><td>" + html_escape(cond) + "</td>";
-        std::vector<const SummaryRow*> present;
-        for (const SummaryRow* r : row_rows)
-          if (r != nullptr) present.push_back(r);
-        for (const SummaryRow* r : row_rows) {
-          if (r == nullptr) {
-            h += "<td>&ndash;</td>";
-            continue;
-          }
-          std::string cls = r->failed > 0 ? " class=\"fail\"" : (r->in_training == "yes" ? " class=\"in\"" : "");
-          h += "<td" + cls + ">";
-          for (const auto& metric : c.metrics) {
-            const size_t k = metric_index(metric);
-            const SummaryRow* best = best_row(present, metric, false);
-            double lo = std::numeric_limits<double>::infinity(), hi = -lo;
-            for (const SummaryRow* q : present)
-              for (double v : q->samples[k])
-                if (std::isfinite(v)) {
-                  lo = std::min(lo, v);
-                  hi = std::max(hi, v);
-                }
-            std::string v = val(metric, r->mean[k]);
-            if (best == r) v = "<b>" + v + "</b>";
-            h += metric + " " + v + " <small>[" + val(metric, r->ci_low[k]) + ", " + val(metric, r->ci_high[k]) +
-                 "]</small><br>" + strip_svg(r->samples[k], lo, hi, r->mean[k]) + "<br>";
-          }
-          h += "n " + std::to_string(r->n) + (r->failed ? ", failed " + std::to_string(r->failed) : "") + "</td>";
+// One table cell: per metric mean, interval and per-repetition strip; best of the row bold.
+std::string summary_cell_html(const ReportContext& x, const SummaryRow& r, const std::vector<const SummaryRow*>& present) {
+  const std::string cls = r.failed > 0 ? " class=\"fail\"" : (r.in_training == "yes" ? " class=\"in\"" : "");
+  std::string h = "<td" + cls + ">";
+  for (const auto& metric : x.c.metrics) {
+    const size_t k = metric_index(metric);
+    const SummaryRow* best = best_row(present, metric, false);
+    double lo = std::numeric_limits<double>::infinity(), hi = -lo;
+    for (const SummaryRow* q : present)
+      for (double v : q->samples[k])
+        if (std::isfinite(v)) {
+          lo = std::min(lo, v);
+          hi = std::max(hi, v);
         }
-        h += "</tr>\n";
-      }
-    h += "</table>\n";
-    for (size_t r = 0; r < results.rows.size(); ++r)
-      if (results.cell(r, "modality") == modality && !results.cell(r, "error").empty()) {
-        h += "<p>Failed case " + html_escape(results.cell(r, "case")) + ": " + html_escape(results.cell(r, "error")) +
-             "</p>\n";
-      }
-
-    // Reference object set for the plots: the first one with a row inside a learned method's training conditions.
-    std::string ref_set = sets.front();
-    for (const SummaryRow& r : *in.summary)
-      if (r.modality == modality && r.in_training == "yes") {
-        ref_set = r.object_set;
-        break;
-      }
-    // Reference acquisition: one inside a learned method's training conditions, else the first.
-    const Acquisition* ref = acqs.front();
-    for (const Acquisition* a : acqs) {
-      bool inside = false;
-      for (const StudyMethod* m : methods) {
-        const SummaryRow* r = lookup.find(ref_set, *a, m->name);
-        inside = inside || (r != nullptr && r->in_training == "yes");
-      }
-      if (inside) {
-        ref = a;
-        break;
-      }
-    }
-    // Plots against each axis with more than one value.
-    for (const std::string& axis : modality_axes(modality)) {
-      std::vector<const Acquisition*> line;
-      for (const Acquisition* a : acqs) {
-        bool same = true;
-        for (const auto& other : acquisition_axes())
-          if (other != axis && axis_value(*a, other) != axis_value(*ref, other)) same = false;
-        if (same) line.push_back(a);
-      }
-      if (line.size() < 2) continue;
-      std::sort(line.begin(), line.end(), [&](const Acquisition* x, const Acquisition* y) {
-        return std::strtod(axis_value(*x, axis).c_str(), nullptr) < std::strtod(axis_value(*y, axis).c_str(), nullptr);
-      });
-      std::string fixed;
-      for (const auto& other : acquisition_axes())
-        if (other != axis && !axis_value(*ref, other).empty())
-          fixed += (fixed.empty() ? "" : ", ") + other + " " + axis_value(*ref, other);
-      for (const std::string metric : {"psnr", "ssim"}) {
-        LinePlot plot;
-        plot.title = metric_label(metric) + " vs " + axis_label(axis);
-        plot.x_label = axis_label(axis);
-        plot.y_label = metric_label(metric);
-        for (const StudyMethod* m : methods) {
-          PlotSeries s;
-          s.name = lambda_rule(*m, *parse_modality(modality)) == "oracle" ? m->name + " [" + kOracleMark + "]" : m->name;
-          s.dashed = m->learned();
-          for (const Acquisition* a : line) {
-            const SummaryRow* r = lookup.find(ref_set, *a, m->name);
-            s.x.push_back(std::strtod(axis_value(*a, axis).c_str(), nullptr));
-            s.y.push_back(r ? r->mean[metric_index(metric)] : std::nan(""));
-            s.marked.push_back(r != nullptr && r->in_training == "yes");
-          }
-          plot.series.push_back(std::move(s));
-        }
-        const std::string svg = svg_line_plot(plot);
-        const std::string name = modality + "-" + metric + "-vs-" + axis + ".svg";
-        write_text_atomic(fig_dir + "/" + name, "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n" + svg);
-        const std::string png = name.substr(0, name.size() - 4) + ".png";
-        write_png_plot(fig_dir + "/" + png, plot);
-        std::string legend;
-        for (size_t k = 0; k < methods.size(); ++k)
-          legend += (k ? ", " : "") + std::to_string(k + 1) + " " + plot.series[k].name;
-        ++figure;
-        h += "<figure>" + svg + "<figcaption>Figure " + std::to_string(figure) + ": " + html_escape(plot.title) +
-             "; objects " + html_escape(ref_set) + ", mean over objects and repetitions; other axes: " + html_escape(fixed) + " (figures/" + name +
-             "; PNG copy figures/" + png + " with numbered legend: " + html_escape(legend) +
-             ").</figcaption></figure>\n";
-      }
-    }
-
-    // Montages: first phantom, first repetition, per condition.
-    h += "<h3>Montages (" + html_escape(c.phantoms.front().label) + ", repetition 0)</h3>\n";
-    int mi = 0;
-    for (const Acquisition* a : acqs) {
-      const std::string mkey = c.phantoms.front().label + "|" + a->key() + "|r0";
-      const std::string truth_path = study_image_path(in.dir, "truth|" + mkey);
-      if (!file_exists(truth_path)) continue;
-      const ImageF truth = read_image(truth_path);
-      const double lo = truth.minCoeff(), hi = truth.maxCoeff();
-      const double range = hi > lo ? hi - lo : 1.0;
-      const double err_hi = 0.25 * range;
-      const Index ny = truth.rows(), nx = truth.cols();
-      const Index up = std::max<Index>(1, std::min<Index>(4, 160 / std::max(ny, nx)));
-      const Index th = ny * up, tw = nx * up, gap = 4;
-      const Index cols = Index(methods.size()) + 1;
-      const Index bar_w = 14;  // error colour bar right of the error row
-      ImageF mont = ImageF::Ones(2 * th + gap, cols * tw + (cols - 1) * gap + 2 * gap + bar_w);
-      for (Index y = 0; y < th; ++y)
-        for (Index x = 0; x < bar_w; ++x)
-          mont(th + gap + y, cols * tw + (cols - 1) * gap + 2 * gap + x) = float(1.0 - double(y) / double(th - 1));
-      auto put = [&](const ImageF& img, Index row, Index col, bool error) {
-        for (Index y = 0; y < th; ++y)
-          for (Index x = 0; x < tw; ++x) {
-            double v = img(y / up, x / up);
-            v = error ? std::fabs(v - truth(y / up, x / up)) / err_hi : (v - lo) / range;
-            mont(row * (th + gap) + y, col * (tw + gap) + x) = float(std::clamp(v, 0.0, 1.0));
-          }
-      };
-      put(truth, 0, 0, false);
-      put(truth, 1, 0, true);  // zero error: a black reference tile
-      std::string caption = "columns: truth";
-      auto tile_label = [&](const std::string& text) {
-        return "<span style=\"display:inline-block;vertical-align:bottom;width:" + std::to_string(tw) +
-               "px;margin-right:" + std::to_string(gap) + "px;font-size:11px;overflow-wrap:anywhere\">" + text +
-               "</span>";
-      };
-      std::string labels = tile_label("truth");
-      for (size_t k = 0; k < methods.size(); ++k) {
-        const std::string key = c.phantoms.front().label + "|" + a->key() + "|" + methods[k]->name + "|r0";
-        const std::string path = study_image_path(in.dir, key);
-        caption += ", " + methods[k]->name;
-        const auto it = row_of_case.find(key);
-        if (file_exists(path) && it != row_of_case.end() && results.cell(it->second, "error").empty()) {
-          const ImageF img = read_image(path);
-          put(img, 0, Index(k) + 1, false);
-          put(img, 1, Index(k) + 1, true);
-          const double tp = std::strtod(results.cell(it->second, "psnr").c_str(), nullptr);
-          caption += " (PSNR " + format_sig(tp, 4) + " dB, SSIM " +
-                     format_sig(std::strtod(results.cell(it->second, "ssim").c_str(), nullptr), 3) + ")";
-          labels += tile_label("<b>" + html_escape(methods[k]->name) + "</b>" +
-                               (lambda_rule(*methods[k], *parse_modality(modality)) == "oracle" ? " <span class=\"oracle\">[" + std::string(kOracleMark) + "]</span>" : std::string()) +
-                               "<br>PSNR " + val("psnr", tp) + " dB");
-        } else {
-          caption += " (failed or missing)";
-          labels += tile_label("<b>" + html_escape(methods[k]->name) + "</b><br>failed or missing");
-        }
-      }
-      const std::string name = "montage-" + modality + "-" + std::to_string(mi++) + ".png";
-      PngWindow w;
-      w.auto_window = false;
-      w.lo = 0.0;
-      w.hi = 1.0;
-      write_png(fig_dir + "/" + name, mont, w);
-      ++figure;
-      h += "<figure><div>" + labels + "</div>" + embed_png(fig_dir + "/" + name, "montage " + a->key(), "montage") +
-           "<div style=\"font-size:11px\">error colour bar (right of the bottom row): black 0, white &ge; " +
-           format_sig(err_hi, 3) + "</div><figcaption>Figure " +
-           std::to_string(figure) + ": " + html_escape(a->key()) + ". Top: " + html_escape(caption) +
-           "; window [" + format_sig(lo, 3) + ", " + format_sig(hi, 3) + "]. Bottom: |reconstruction - truth| at the "
-           "common window [0, " + format_sig(err_hi, 3) + "], colour bar at the right (figures/" + name +
-           ").</figcaption></figure>\n";
-    }
+    std::string v = val(metric, r.mean[k]);
+    if (best == &r) v = "<b>" + v + "</b>";
+    h += metric + " " + v + " <small>[" + val(metric, r.ci_low[k]) + ", " + val(metric, r.ci_high[k]) + "]</small><br>" +
+         strip_svg(r.samples[k], lo, hi, r.mean[k]) + "<br>";
   }
+  return h + "n " + std::to_string(r.n) + (r.failed ? ", failed " + std::to_string(r.failed) : "") + "</td>";
+}
 
-  h += "<h2>Study config</h2>\n<pre>" + html_escape(c.text) + "</pre>\n";
+// Methods x conditions (object set x acquisition), then the failed cases of the modality.
+std::string condition_table_html(const ReportContext& x, const SectionParts& s) {
+  std::string h =
+      "<p>Each cell: per metric the mean, its 95 % confidence interval (Student's t over objects and "
+      "repetitions) and the per-repetition values (dots; the bar is the mean; one common range per row and "
+      "metric); the best mean of each row and metric is bold. Shaded green: inside a learned method's "
+      "training conditions.</p>\n<table>\n<tr><th>condition</th>";
+  for (const StudyMethod* m : s.methods) h += "<th>" + html_escape(m->name) + method_header(*m, s.modality) + "</th>";
+  h += "</tr>\n";
+  for (const std::string& set : x.sets)
+    for (const Acquisition* a : s.acqs) {
+      std::vector<const SummaryRow*> row_rows, present;
+      for (const StudyMethod* m : s.methods) row_rows.push_back(x.lookup.find(set, *a, m->name));
+      for (const SummaryRow* r : row_rows)
+        if (r != nullptr) present.push_back(r);
+      if (present.empty()) continue;
+      std::string cond = x.sets.size() > 1 ? "objects " + set : "";
+      for (const auto& ax : acquisition_axes())
+        if (!axis_value(*a, ax).empty()) cond += (cond.empty() ? "" : ", ") + ax + " " + axis_value(*a, ax);
+      h += "<tr><td>" + html_escape(cond) + "</td>";
+      for (const SummaryRow* r : row_rows) h += r == nullptr ? "<td>&ndash;</td>" : summary_cell_html(x, *r, present);
+      h += "</tr>\n";
+    }
+  h += "</table>\n";
+  for (size_t r = 0; r < x.results.rows.size(); ++r)
+    if (x.results.cell(r, "modality") == s.name && !x.results.cell(r, "error").empty())
+      h += "<p>Failed case " + html_escape(x.results.cell(r, "case")) + ": " +
+           html_escape(x.results.cell(r, "error")) + "</p>\n";
+  return h;
+}
+
+// The plots' reference: the first object set with a row inside a learned method's training
+// conditions (else the first set), and an acquisition inside them (else the first).
+std::pair<std::string, const Acquisition*> plot_reference(const ReportContext& x, const SectionParts& s) {
+  std::string ref_set = x.sets.front();
+  for (const SummaryRow& r : *x.in.summary)
+    if (r.modality == s.name && r.in_training == "yes") {
+      ref_set = r.object_set;
+      break;
+    }
+  for (const Acquisition* a : s.acqs)
+    for (const StudyMethod* m : s.methods) {
+      const SummaryRow* r = x.lookup.find(ref_set, *a, m->name);
+      if (r != nullptr && r->in_training == "yes") return {ref_set, a};
+    }
+  return {ref_set, s.acqs.front()};
+}
+
+// One metric against one axis: SVG inline, SVG and PNG files in figures/.
+std::string axis_figure_html(ReportContext& x, const SectionParts& s, const std::string& axis, const std::string& metric,
+                             const std::vector<const Acquisition*>& line, const std::string& ref_set,
+                             const std::string& fixed) {
+  LinePlot plot;
+  plot.title = metric_label(metric) + " vs " + axis_label(axis);
+  plot.x_label = axis_label(axis);
+  plot.y_label = metric_label(metric);
+  for (const StudyMethod* m : s.methods) {
+    PlotSeries series;
+    series.name = lambda_rule(*m, s.modality) == "oracle" ? m->name + " [" + kOracleMark + "]" : m->name;
+    series.dashed = m->learned();
+    for (const Acquisition* a : line) {
+      const SummaryRow* r = x.lookup.find(ref_set, *a, m->name);
+      series.x.push_back(std::strtod(axis_value(*a, axis).c_str(), nullptr));
+      series.y.push_back(r ? r->mean[metric_index(metric)] : std::nan(""));
+      series.marked.push_back(r != nullptr && r->in_training == "yes");
+    }
+    plot.series.push_back(std::move(series));
+  }
+  const std::string svg = svg_line_plot(plot);
+  const std::string name = s.name + "-" + metric + "-vs-" + axis + ".svg";
+  write_text_atomic(x.fig_dir + "/" + name, "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n" + svg);
+  const std::string png = name.substr(0, name.size() - 4) + ".png";
+  write_png_plot(x.fig_dir + "/" + png, plot);
+  std::string legend;
+  for (size_t k = 0; k < s.methods.size(); ++k) legend += (k ? ", " : "") + std::to_string(k + 1) + " " + plot.series[k].name;
+  ++x.figure;
+  return "<figure>" + svg + "<figcaption>Figure " + std::to_string(x.figure) + ": " + html_escape(plot.title) +
+         "; objects " + html_escape(ref_set) + ", mean over objects and repetitions; other axes: " +
+         html_escape(fixed) + " (figures/" + name + "; PNG copy figures/" + png +
+         " with numbered legend: " + html_escape(legend) + ").</figcaption></figure>\n";
+}
+
+// PSNR and SSIM against each axis with more than one value, the other axes at the reference.
+std::string axis_plots_html(ReportContext& x, const SectionParts& s) {
+  const auto [ref_set, ref] = plot_reference(x, s);
+  std::string h;
+  for (const std::string& axis : modality_axes(s.name)) {
+    std::vector<const Acquisition*> line;
+    for (const Acquisition* a : s.acqs) {
+      bool same = true;
+      for (const auto& other : acquisition_axes())
+        if (other != axis && axis_value(*a, other) != axis_value(*ref, other)) same = false;
+      if (same) line.push_back(a);
+    }
+    if (line.size() < 2) continue;
+    std::sort(line.begin(), line.end(), [&](const Acquisition* p, const Acquisition* q) {
+      return std::strtod(axis_value(*p, axis).c_str(), nullptr) < std::strtod(axis_value(*q, axis).c_str(), nullptr);
+    });
+    std::string fixed;
+    for (const auto& other : acquisition_axes())
+      if (other != axis && !axis_value(*ref, other).empty())
+        fixed += (fixed.empty() ? "" : ", ") + other + " " + axis_value(*ref, other);
+    for (const std::string metric : {"psnr", "ssim"}) h += axis_figure_html(x, s, axis, metric, line, ref_set, fixed);
+  }
+  return h;
+}
+
+// Tiles of a montage: top row images at the truth's window, bottom row |image - truth| at
+// err_hi, `up`-fold enlarged, with an error colour bar right of the bottom row.
+struct Montage {
+  const ImageF& truth;
+  double lo, range, err_hi;
+  Index up, th, tw, gap = 4, bar_w = 14;
+  ImageF pixels;
+
+  Montage(const ImageF& t, Index columns) : truth(t) {
+    lo = t.minCoeff();
+    const double hi = t.maxCoeff();
+    range = hi > lo ? hi - lo : 1.0;
+    err_hi = 0.25 * range;
+    up = std::max<Index>(1, std::min<Index>(4, 160 / std::max(t.rows(), t.cols())));
+    th = t.rows() * up;
+    tw = t.cols() * up;
+    pixels = ImageF::Ones(2 * th + gap, columns * tw + (columns - 1) * gap + 2 * gap + bar_w);
+    for (Index y = 0; y < th; ++y)
+      for (Index xx = 0; xx < bar_w; ++xx)
+        pixels(th + gap + y, columns * tw + (columns - 1) * gap + 2 * gap + xx) = float(1.0 - double(y) / double(th - 1));
+  }
+  void put(const ImageF& img, Index col) {
+    for (int row = 0; row < 2; ++row)
+      for (Index y = 0; y < th; ++y)
+        for (Index xx = 0; xx < tw; ++xx) {
+          double v = img(y / up, xx / up);
+          v = row == 1 ? std::fabs(v - truth(y / up, xx / up)) / err_hi : (v - lo) / range;
+          pixels(row * (th + gap) + y, col * (tw + gap) + xx) = float(std::clamp(v, 0.0, 1.0));
+        }
+  }
+  std::string label(const std::string& text) const {
+    return "<span style=\"display:inline-block;vertical-align:bottom;width:" + std::to_string(tw) + "px;margin-right:" +
+           std::to_string(gap) + "px;font-size:11px;overflow-wrap:anywhere\">" + text + "</span>";
+  }
+};
+
+// Truth and every method's reconstruction of the first phantom, repetition 0, for one acquisition.
+std::string montage_html(ReportContext& x, const SectionParts& s, const Acquisition& a, int index) {
+  const std::string mkey = x.c.phantoms.front().label + "|" + a.key() + "|r0";
+  const std::string truth_path = study_image_path(x.in.dir, "truth|" + mkey);
+  if (!file_exists(truth_path)) return "";
+  const ImageF truth = read_image(truth_path);
+  Montage mont(truth, Index(s.methods.size()) + 1);
+  mont.put(truth, 0);  // zero error: a black reference tile
+  std::string caption = "columns: truth", labels = mont.label("truth");
+  for (size_t k = 0; k < s.methods.size(); ++k) {
+    const StudyMethod& m = *s.methods[k];
+    const std::string key = x.c.phantoms.front().label + "|" + a.key() + "|" + m.name + "|r0";
+    const std::string path = study_image_path(x.in.dir, key);
+    caption += ", " + m.name;
+    const auto it = x.row_of_case.find(key);
+    if (!file_exists(path) || it == x.row_of_case.end() || !x.results.cell(it->second, "error").empty()) {
+      caption += " (failed or missing)";
+      labels += mont.label("<b>" + html_escape(m.name) + "</b><br>failed or missing");
+      continue;
+    }
+    mont.put(read_image(path), Index(k) + 1);
+    const double tp = std::strtod(x.results.cell(it->second, "psnr").c_str(), nullptr);
+    caption += " (PSNR " + format_sig(tp, 4) + " dB, SSIM " +
+               format_sig(std::strtod(x.results.cell(it->second, "ssim").c_str(), nullptr), 3) + ")";
+    const bool oracle = lambda_rule(m, s.modality) == "oracle";
+    labels += mont.label("<b>" + html_escape(m.name) + "</b>" +
+                         (oracle ? " <span class=\"oracle\">[" + std::string(kOracleMark) + "]</span>" : std::string()) +
+                         "<br>PSNR " + val("psnr", tp) + " dB");
+  }
+  const std::string name = "montage-" + s.name + "-" + std::to_string(index) + ".png";
+  PngWindow w;
+  w.auto_window = false;
+  w.lo = 0.0;
+  w.hi = 1.0;
+  write_png(x.fig_dir + "/" + name, mont.pixels, w);
+  ++x.figure;
+  return "<figure><div>" + labels + "</div>" + embed_png(x.fig_dir + "/" + name, "montage " + a.key(), "montage") +
+         "<div style=\"font-size:11px\">error colour bar (right of the bottom row): black 0, white &ge; " +
+         format_sig(mont.err_hi, 3) + "</div><figcaption>Figure " + std::to_string(x.figure) + ": " +
+         html_escape(a.key()) + ". Top: " + html_escape(caption) + "; window [" + format_sig(mont.lo, 3) + ", " +
+         format_sig(truth.maxCoeff(), 3) +
+         "]. Bottom: |reconstruction - truth| at the common window [0, " + format_sig(mont.err_hi, 3) +
+         "], colour bar at the right (figures/" + name + ").</figcaption></figure>\n";
+}
+
+// One modality: table, plots against each varied axis, montages.
+std::string modality_section_html(ReportContext& x, Modality modality) {
+  SectionParts s{modality, std::string(to_string(modality)), {}, {}};
+  for (const Acquisition& a : x.grid.acquisitions)
+    if (a.modality == modality) s.acqs.push_back(&a);
+  for (const StudyMethod& m : x.c.methods)
+    if (m.applies_to(modality)) s.methods.push_back(&m);
+  if (s.acqs.empty() || s.methods.empty()) return "";
+  std::string h = "<h2>" + modality_title(modality) + " protocols</h2>\n";
+  h += condition_table_html(x, s);
+  h += axis_plots_html(x, s);
+  h += "<h3>Montages (" + html_escape(x.c.phantoms.front().label) + ", repetition 0)</h3>\n";
+  int index = 0;
+  for (const Acquisition* a : s.acqs) {
+    const std::string fig = montage_html(x, s, *a, index);
+    if (!fig.empty()) ++index;
+    h += fig;
+  }
+  return h;
+}
+
+}  // namespace
+
+std::string write_study_report(const ReportInputs& in) {
+  ReportContext x(in);
+  ::mkdir(x.fig_dir.c_str(), 0777);
+  std::string h = head_html(x);
+  for (const Modality modality : all_modalities()) h += modality_section_html(x, modality);
+  h += "<h2>Study config</h2>\n<pre>" + html_escape(x.c.text) + "</pre>\n";
   h += "<p class=\"ruo\">" + html_escape(kResearchUseLine) + "</p>\n</body>\n</html>\n";
   const std::string path = in.dir + "/report.html";
   write_text_atomic(path, h);
