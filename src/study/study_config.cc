@@ -441,21 +441,16 @@ StudyConfig StudyConfig::load(const std::string& path) {
   return c;
 }
 
-StudyConfig StudyConfig::parse(const std::string& text, const std::string& name, const std::string& base_dir) {
-  const Config root = Config::parse(text, name);
-  root.expect_only({"name", "description", "size", "repetitions", "seed", "metrics", "region", "phantom",
-                    "measurement", "object", "mri", "ct", "denoise", "inpaint", "keep", "method"});
-  StudyConfig c;
-  c.file = name;
-  c.text = text;
-  {
-    std::string stem = name;
-    const size_t slash = stem.find_last_of('/');
-    if (slash != std::string::npos) stem = stem.substr(slash + 1);
-    const size_t dot = stem.find('.');
-    if (dot != std::string::npos) stem = stem.substr(0, dot);
-    c.name = root.get_string_or("name", stem);
-  }
+namespace {
+
+// Name (default: the file's stem), description, size, repetitions, seed, metrics, region.
+void parse_study_header(const Config& root, const std::string& name, StudyConfig& c) {
+  std::string stem = name;
+  const size_t slash = stem.find_last_of('/');
+  if (slash != std::string::npos) stem = stem.substr(slash + 1);
+  const size_t dot = stem.find('.');
+  if (dot != std::string::npos) stem = stem.substr(0, dot);
+  c.name = root.get_string_or("name", stem);
   c.description = root.get_string_or("description", "");
   {
     const std::vector<int> size = int_list(root, "size", 16, 1024);
@@ -480,41 +475,46 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
     c.region_radius = r.get_double("radius");
     if (!(c.region_radius > 0.0 && c.region_radius <= 1.0)) throw r.error("radius", "must be in (0, 1]");
   }
+}
 
-  // Phantoms.
+// One [[phantom]] table: a phantom table file, or `count` members of a family.
+void parse_phantom_table(const Config& p, const std::string& base_dir, StudyConfig& c) {
+  p.expect_only({"table", "family", "count", "seed"});
+  if (p.has("table") == p.has("family")) throw p.error("table", "give exactly one of table or family");
+  if (p.has("table")) {
+    for (const char* k : {"count", "seed"})
+      if (p.has(k)) throw p.error(k, "only family phantoms take " + std::string(k));
+    StudyPhantom sp;
+    sp.table_path = resolve(p.get_string("table"), base_dir);
+    if (!file_exists(sp.table_path)) throw p.error("table", "phantom table '" + sp.table_path + "' does not exist");
+    std::string stem = sp.table_path.substr(sp.table_path.find_last_of('/') + 1);
+    sp.label = stem.substr(0, stem.find('.'));
+    c.phantoms.push_back(sp);
+  } else {
+    const std::string fam = p.get_string("family");
+    if (!parse_family(fam)) throw p.error("family", "'" + fam + "'; expected one of " + family_names());
+    const int64_t count = p.get_int_or("count", 1);
+    if (count < 1 || count > 1000) throw p.error("count", "must be in 1..1000");
+    const int64_t fseed = p.get_int_or("seed", static_cast<int64_t>(c.seed));
+    if (fseed < 0) throw p.error("seed", "must be >= 0");
+    for (int64_t i = 0; i < count; ++i) {
+      StudyPhantom sp;
+      sp.family = fam;
+      sp.family_seed = static_cast<uint64_t>(fseed);
+      sp.family_index = static_cast<int>(i);
+      sp.label = fam + "-" + std::to_string(fseed) + "-" + std::to_string(i);
+      c.phantoms.push_back(sp);
+    }
+  }
+}
+
+// [[phantom]], [[measurement]] and [[object]] tables, distinct labels, and a note per real object.
+void parse_study_objects(const Config& root, const std::string& base_dir, StudyConfig& c) {
   const std::vector<Config> phantoms = root.tables("phantom");
   const std::vector<Config> measured = root.tables("measurement"), images = root.tables("object");
   if (phantoms.empty() && measured.empty() && images.empty())
     throw root.error("phantom", "empty grid: no [[phantom]], [[measurement]] or [[object]] table");
-  for (const Config& p : phantoms) {
-    p.expect_only({"table", "family", "count", "seed"});
-    if (p.has("table") == p.has("family")) throw p.error("table", "give exactly one of table or family");
-    if (p.has("table")) {
-      for (const char* k : {"count", "seed"})
-        if (p.has(k)) throw p.error(k, "only family phantoms take " + std::string(k));
-      StudyPhantom sp;
-      sp.table_path = resolve(p.get_string("table"), base_dir);
-      if (!file_exists(sp.table_path)) throw p.error("table", "phantom table '" + sp.table_path + "' does not exist");
-      std::string stem = sp.table_path.substr(sp.table_path.find_last_of('/') + 1);
-      sp.label = stem.substr(0, stem.find('.'));
-      c.phantoms.push_back(sp);
-    } else {
-      const std::string fam = p.get_string("family");
-      if (!parse_family(fam)) throw p.error("family", "'" + fam + "'; expected one of " + family_names());
-      const int64_t count = p.get_int_or("count", 1);
-      if (count < 1 || count > 1000) throw p.error("count", "must be in 1..1000");
-      const int64_t fseed = p.get_int_or("seed", static_cast<int64_t>(c.seed));
-      if (fseed < 0) throw p.error("seed", "must be >= 0");
-      for (int64_t i = 0; i < count; ++i) {
-        StudyPhantom sp;
-        sp.family = fam;
-        sp.family_seed = static_cast<uint64_t>(fseed);
-        sp.family_index = static_cast<int>(i);
-        sp.label = fam + "-" + std::to_string(fseed) + "-" + std::to_string(i);
-        c.phantoms.push_back(sp);
-      }
-    }
-  }
+  for (const Config& p : phantoms) parse_phantom_table(p, base_dir, c);
   for (const Config& t : measured) c.phantoms.push_back(measurement_object(t, c, base_dir));
   for (const Config& t : images) c.phantoms.push_back(image_object(t, c, base_dir));
   for (size_t i = 0; i < c.phantoms.size(); ++i)
@@ -534,19 +534,10 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
                         "): no analytic truth: inverse crime possible (simulated from the same pixels it is "
                         "scored against; truth discrete).");
   }
+}
 
-  if (root.has("keep")) {
-    const std::string keep = root.get_string("keep");
-    if (keep != "all" && keep != "montage") throw root.error("keep", "'" + keep + "'; expected \"all\" or \"montage\"");
-    c.keep_all = keep == "all";
-  }
-  parse_protocols(root, c);
-  if (!c.mri && !c.ct && !c.denoise && !c.inpaint)
-    throw root.error("mri", "empty grid: give an [mri], [ct], [denoise] or [inpaint] protocol table");
-  if (!measured.empty() && !c.mri)
-    throw measured.front().error("file", "a [[measurement]] object needs an [mri] protocol table (its masks)");
-
-  // Methods.
+// [[method]] tables: each spec validated against every modality it runs on.
+void parse_study_methods(const Config& root, const std::string& base_dir, StudyConfig& c) {
   const std::vector<Config> methods = root.tables("method");
   if (methods.empty()) throw root.error("method", "empty grid: no [[method]] table");
   for (size_t index = 0; index < methods.size(); ++index) {
@@ -576,8 +567,10 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
   for (const StudyMethod& m : c.methods)
     for (Modality mod : m.modalities) any = any || c.has_protocol(mod);
   if (!any) throw root.error("method", "empty grid: no method runs on the given protocols");
+}
 
-  // Hash: config text plus the bytes of every file it names.
+// Config text plus the bytes of every file it names.
+std::string study_hash(const std::string& text, const StudyConfig& c) {
   std::string h = fnv1a_hex(text);
   for (const StudyPhantom& p : c.phantoms)
     if (!p.table_path.empty()) h += file_checksum(p.table_path);
@@ -589,7 +582,32 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
     if (!m.model_path.empty()) h += file_checksum(m.model_path);
     if (!m.train_config.empty()) h += file_checksum(m.train_config);
   }
-  c.hash = fnv1a_hex(h);
+  return fnv1a_hex(h);
+}
+
+}  // namespace
+
+StudyConfig StudyConfig::parse(const std::string& text, const std::string& name, const std::string& base_dir) {
+  const Config root = Config::parse(text, name);
+  root.expect_only({"name", "description", "size", "repetitions", "seed", "metrics", "region", "phantom",
+                    "measurement", "object", "mri", "ct", "denoise", "inpaint", "keep", "method"});
+  StudyConfig c;
+  c.file = name;
+  c.text = text;
+  parse_study_header(root, name, c);
+  parse_study_objects(root, base_dir, c);
+  if (root.has("keep")) {
+    const std::string keep = root.get_string("keep");
+    if (keep != "all" && keep != "montage") throw root.error("keep", "'" + keep + "'; expected \"all\" or \"montage\"");
+    c.keep_all = keep == "all";
+  }
+  parse_protocols(root, c);
+  if (!c.mri && !c.ct && !c.denoise && !c.inpaint)
+    throw root.error("mri", "empty grid: give an [mri], [ct], [denoise] or [inpaint] protocol table");
+  if (!root.tables("measurement").empty() && !c.mri)
+    throw root.tables("measurement").front().error("file", "a [[measurement]] object needs an [mri] protocol table (its masks)");
+  parse_study_methods(root, base_dir, c);
+  c.hash = study_hash(text, c);
   return c;
 }
 
