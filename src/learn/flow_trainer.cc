@@ -69,6 +69,64 @@ void write_flow_checkpoint(const std::string& path, const internal::FlowState& s
 
 }  // namespace
 
+namespace {
+
+// The fixed validation images of a flow run, dequantisation noise included.
+torch::Tensor flow_validation_set(const TrainingConfig& cfg) {
+  const uint64_t vseed = validation_seed(cfg.train.seed);
+  torch::Tensor val = draw_images(cfg.data, vseed, 0, cfg.train.validation_count);
+  return val + noise_like(val, cfg.flow.dequant, vseed, 0);
+}
+
+// Mean bits per dimension of the validation set under the flow.
+double validation_bits_per_dim(internal::FlowNetImpl& net, const torch::Tensor& val, const TrainingConfig& cfg) {
+  torch::NoGradGuard ng;
+  double nll = 0;
+  for (int64_t first = 0; first < val.size(0); first += cfg.train.batch) {
+    torch::Tensor part = val.index({torch::indexing::Slice(first, std::min<int64_t>(first + cfg.train.batch, val.size(0)))});
+    nll += -net.log_prob(part).sum().item<double>();
+  }
+  return bits_per_dim_of(nll / double(val.size(0)) / double(cfg.flow.dimension()), cfg.flow.dequant);
+}
+
+// One Adam step on the batch of `step` (the first batch also initialises the flow); returns
+// the loss, -log p per dimension in nats.
+double flow_training_step(const TrainingConfig& cfg, internal::FlowNetImpl& net,
+                          std::vector<std::pair<std::string, torch::Tensor>>& params, internal::AdamState& adam,
+                          int64_t step) {
+  const TrainOptions& o = cfg.train;
+  torch::Tensor x = draw_images(cfg.data, o.seed, static_cast<uint64_t>(step) * o.batch, o.batch);
+  x = x + noise_like(x, cfg.flow.dequant, o.seed, static_cast<uint64_t>(step) + 1);
+  if (step == 0) net.initialize(x);
+  for (auto& p : params)
+    if (p.second.grad().defined()) p.second.grad().zero_();
+  torch::Tensor loss = -net.log_prob(x).mean() / double(cfg.flow.dimension());
+  loss.backward();
+  const double value = loss.item<double>();
+  if (!std::isfinite(value))
+    throw WorkError("flow training loss is not finite at step " + std::to_string(step) +
+                    "; lower train.learning_rate or raise model.dequant");
+  internal::adam_step(params, adam, internal::scheduled_learning_rate(o, step), step + 1, o.clip_norm);
+  return value;
+}
+
+// What the saved flow says about its training: conditions, seeds, scores, provenance.
+void record_flow_training(ModelInfo& info, const TrainingConfig& cfg, const TrainRun& run, const TrainResult& result,
+                          double total_seconds) {
+  info.trained_on = cfg.data;
+  info.trained_on->seeds = internal::training_seed_ranges(cfg, result.steps_done);
+  info.config_text = cfg.text;
+  info.metrics["val_bits_per_dim"] = result.val_bits_per_dim;
+  info.metrics["train_bits_per_dim"] = result.train_bits_per_dim;
+  info.metrics["steps"] = double(result.steps_done);
+  info.metrics["train_seconds"] = total_seconds;
+  info.provenance.command = run.command;
+  info.provenance.extra["seed"] = std::to_string(cfg.train.seed);
+  info.provenance.extra["config_file"] = cfg.file;
+}
+
+}  // namespace
+
 TrainResult train_flow_model(const TrainingConfig& cfg, const TrainRun& run) {
   RECOFOLD_CHECK(cfg.kind == "flow");
   const auto t_start = std::chrono::steady_clock::now();
@@ -89,37 +147,13 @@ TrainResult train_flow_model(const TrainingConfig& cfg, const TrainRun& run) {
   int64_t step = 0;
   double elapsed_before = 0;
   if (run.resume) {
-    if (!file_exists(result.checkpoint))
-      throw InputError(result.checkpoint, "resume", "no checkpoint to resume from");
-    H5Reader r(result.checkpoint);
-    if (!r.has_attr("/train", "config") || r.attr_string("/train", "config") != cfg.text)
-      throw InputError(result.checkpoint, "/train@config",
-                       "the checkpoint was made with a different config than " + cfg.file);
-    internal::read_tensors(r, "/model/parameters", params);
-    std::vector<std::pair<std::string, torch::Tensor>> m, v;
-    for (size_t i = 0; i < params.size(); ++i) {
-      m.emplace_back(params[i].first, adam.m[i]);
-      v.emplace_back(params[i].first, adam.v[i]);
-    }
-    internal::read_tensors(r, "/train/adam_m", m);
-    internal::read_tensors(r, "/train/adam_v", v);
-    step = r.attr_int("/train", "step");
-    elapsed_before = r.attr_double("/train", "elapsed_seconds");
+    const internal::CheckpointPosition at = internal::read_checkpoint(result.checkpoint, cfg.text, cfg.file, params, adam);
+    step = at.step;
+    elapsed_before = at.elapsed_seconds;
   }
 
-  const double d = double(arch.dimension());
-  const uint64_t vseed = validation_seed(o.seed);
-  torch::Tensor val = draw_images(cfg.data, vseed, 0, o.validation_count);
-  val = val + noise_like(val, arch.dequant, vseed, 0);
-  auto validate = [&]() {
-    torch::NoGradGuard ng;
-    double nll = 0;
-    for (int64_t first = 0; first < val.size(0); first += o.batch) {
-      torch::Tensor part = val.index({torch::indexing::Slice(first, std::min<int64_t>(first + o.batch, val.size(0)))});
-      nll += -net.log_prob(part).sum().item<double>();
-    }
-    return bits_per_dim_of(nll / double(val.size(0)) / d, arch.dequant);
-  };
+  const torch::Tensor val = flow_validation_set(cfg);
+  auto validate = [&]() { return validation_bits_per_dim(net, val, cfg); };
 
   double loss_value = 0, val_bpd = 0;
   bool have_val = false;
@@ -150,18 +184,7 @@ TrainResult train_flow_model(const TrainingConfig& cfg, const TrainRun& run) {
       result.time_limit_reached = true;
       break;
     }
-    torch::Tensor x = draw_images(cfg.data, o.seed, static_cast<uint64_t>(step) * o.batch, o.batch);
-    x = x + noise_like(x, arch.dequant, o.seed, static_cast<uint64_t>(step) + 1);
-    if (step == 0) net.initialize(x);
-    for (auto& p : params)
-      if (p.second.grad().defined()) p.second.grad().zero_();
-    torch::Tensor loss = -net.log_prob(x).mean() / d;
-    loss.backward();
-    loss_value = loss.item<double>();
-    if (!std::isfinite(loss_value))
-      throw WorkError("flow training loss is not finite at step " + std::to_string(step) +
-                      "; lower train.learning_rate or raise model.dequant");
-    internal::adam_step(params, adam, internal::scheduled_learning_rate(o, step), step + 1, o.clip_norm);
+    loss_value = flow_training_step(cfg, net, params, adam, step);
     ++step;
     if (step % o.validation_every == 0 || step == o.steps) {
       val_bpd = validate();
@@ -178,17 +201,7 @@ TrainResult train_flow_model(const TrainingConfig& cfg, const TrainRun& run) {
   result.train_bits_per_dim = bits_per_dim_of(loss_value, arch.dequant);
   result.final_loss = loss_value;
   result.seconds = seconds_since(t_start);
-  ModelInfo& info = state.info;
-  info.trained_on = cfg.data;
-  info.trained_on->seeds = internal::training_seed_ranges(cfg, step);
-  info.config_text = cfg.text;
-  info.metrics["val_bits_per_dim"] = val_bpd;
-  info.metrics["train_bits_per_dim"] = result.train_bits_per_dim;
-  info.metrics["steps"] = double(step);
-  info.metrics["train_seconds"] = elapsed_before + result.seconds;
-  info.provenance.command = run.command;
-  info.provenance.extra["seed"] = std::to_string(o.seed);
-  info.provenance.extra["config_file"] = cfg.file;
+  record_flow_training(state.info, cfg, run, result, elapsed_before + result.seconds);
   model.save(run.out);
   if (file_exists(result.checkpoint)) std::remove(result.checkpoint.c_str());
   if (run.progress) run.progress->finish(status());

@@ -37,6 +37,18 @@ std::string read_model_kind(const H5Reader& r);
 void write_model_groups(H5Writer& w, const ModelState& s);
 // Reads /model of a file into a new state (architecture, info, weights).
 std::unique_ptr<ModelState> read_model_groups(const H5Reader& r);
+// Where a checkpoint of either trainer left off. read_checkpoint checks that the
+// checkpoint at `path` was made with config text `config_text` (InputError
+// "/train@config" naming `config_file` otherwise; "resume" when there is no
+// checkpoint), then reads /model/parameters into `params` and /train/adam_m,
+// /train/adam_v into `adam`.
+struct CheckpointPosition {
+  int64_t step = 0;
+  double elapsed_seconds = 0;
+};
+CheckpointPosition read_checkpoint(const std::string& path, const std::string& config_text,
+                                   const std::string& config_file,
+                                   const std::vector<std::pair<std::string, torch::Tensor>>& params, AdamState& adam);
 // Parameters in registration order with their dotted names.
 std::vector<std::pair<std::string, torch::Tensor>> named_parameters(const ModelState& s);
 

@@ -127,6 +127,19 @@ double scheduled_learning_rate(const TrainOptions& o, int64_t step) {
   return lr;
 }
 
+CheckpointPosition read_checkpoint(const std::string& path, const std::string& config_text,
+                                   const std::string& config_file,
+                                   const std::vector<std::pair<std::string, torch::Tensor>>& params, AdamState& adam) {
+  if (!file_exists(path)) throw InputError(path, "resume", "no checkpoint to resume from");
+  H5Reader r(path);
+  if (!r.has_attr("/train", "config") || r.attr_string("/train", "config") != config_text)
+    throw InputError(path, "/train@config", "the checkpoint was made with a different config than " + config_file);
+  read_tensors(r, "/model/parameters", params);
+  read_tensors(r, "/train/adam_m", adam_tensors(params, adam.m));
+  read_tensors(r, "/train/adam_v", adam_tensors(params, adam.v));
+  return {r.attr_int("/train", "step"), r.attr_double("/train", "elapsed_seconds")};
+}
+
 std::vector<SeedRange> training_seed_ranges(const TrainingConfig& cfg, int64_t steps_done) {
   std::vector<SeedRange> out;
   if (steps_done > 0)
@@ -146,6 +159,88 @@ std::string checkpoint_path(const std::string& out) {
   return base + ".checkpoint.h5";
 }
 
+namespace {
+
+// Initial state of a run: a flow prior starts from the trained flow named by model.flow_model;
+// --resume reads parameters, Adam moments, step and elapsed time from the checkpoint.
+void start_or_resume(const TrainingConfig& cfg, const TrainRun& run, const std::string& checkpoint,
+                     internal::ModelState& state, std::vector<std::pair<std::string, torch::Tensor>>& params,
+                     internal::AdamState& adam, int64_t& step, double& elapsed_before) {
+  if (cfg.architecture.prior == LearnedPriorKind::kFlow && !run.resume) {
+    H5Reader fr(cfg.flow_model);
+    std::vector<std::pair<std::string, torch::Tensor>> flow_params;
+    for (const auto& item : state.net->flow()->named_parameters()) flow_params.emplace_back(item.key(), item.value());
+    internal::read_tensors(fr, "/model/parameters", flow_params);
+  }
+  if (!run.resume) return;
+  const internal::CheckpointPosition at = internal::read_checkpoint(checkpoint, cfg.text, cfg.file, params, adam);
+  step = at.step;
+  elapsed_before = at.elapsed_seconds;
+}
+
+// The fixed validation set and its baseline (A^H y of the scaled operator).
+Validation make_validation(const TrainingConfig& cfg) {
+  const TrainOptions& o = cfg.train;
+  Validation val;
+  const uint64_t vseed = validation_seed(o.seed);
+  double base = 0;
+  for (int first = 0; first < o.validation_count; first += o.batch) {
+    const int count = std::min(o.batch, o.validation_count - first);
+    PreparedBatch b = prepare(draw_examples(cfg.data, vseed, static_cast<uint64_t>(first), count), cfg.architecture);
+    torch::NoGradGuard no_grad;
+    torch::Tensor zf = internal::magnitude(internal::op_adjoint(b.data, b.ops));
+    base += psnr(zf, b.truth).sum().item<double>();
+    val.batches.push_back(std::move(b));
+  }
+  val.baseline_psnr = base / double(o.validation_count);
+  return val;
+}
+
+// One Adam step on the batch of `step`; returns the loss.
+double training_step(const TrainingConfig& cfg, internal::UnrolledNetImpl& net,
+                     std::vector<std::pair<std::string, torch::Tensor>>& params, internal::AdamState& adam,
+                     int64_t step) {
+  const TrainOptions& o = cfg.train;
+  PreparedBatch b = prepare(draw_examples(cfg.data, o.seed, static_cast<uint64_t>(step) * o.batch, o.batch), cfg.architecture);
+  torch::Tensor mag = internal::magnitude(net.forward(b.data, b.ops));
+  torch::Tensor loss = o.loss == "l1" ? (mag - b.truth).abs().mean() : (mag - b.truth).pow(2).mean();
+  if (o.ssim_weight > 0) {
+    torch::Tensor peak = std::get<0>(b.truth.reshape({b.truth.size(0), -1}).max(1));
+    loss = loss + o.ssim_weight * (1 - ssim(mag, b.truth, peak).mean());
+  }
+  for (auto& p : params)
+    if (p.second.grad().defined()) p.second.grad().zero_();
+  loss.backward();
+  const double value = loss.item<double>();
+  if (!std::isfinite(value))
+    throw WorkError("training loss is not finite at step " + std::to_string(step) + "; lower train.learning_rate");
+  internal::adam_step(params, adam, learning_rate(o, step), step + 1, o.clip_norm);
+  return value;
+}
+
+// What the saved model says about its training: conditions, seeds, scores, provenance.
+void record_training(ModelInfo& info, const TrainingConfig& cfg, const TrainRun& run, const TrainResult& result,
+                     double total_seconds) {
+  info.trained_on = cfg.data;
+  info.trained_on->seeds = internal::training_seed_ranges(cfg, result.steps_done);
+  if (!cfg.flow_model.empty()) {
+    info.provenance.extra["flow_model"] = cfg.flow_model;
+    info.provenance.extra["flow_model_checksum"] = file_checksum(cfg.flow_model);
+  }
+  info.config_text = cfg.text;
+  info.metrics["val_psnr_db"] = result.val_psnr_db;
+  info.metrics["val_ssim"] = result.val_ssim;
+  info.metrics["val_psnr_baseline_db"] = result.val_psnr_baseline_db;
+  info.metrics["steps"] = double(result.steps_done);
+  info.metrics["train_loss"] = result.final_loss;
+  info.metrics["train_seconds"] = total_seconds;
+  info.provenance.command = run.command;
+  info.provenance.extra["seed"] = std::to_string(cfg.train.seed);
+  info.provenance.extra["config_file"] = cfg.file;
+}
+
+}  // namespace
+
 TrainResult train_unrolled_model(const TrainingConfig& cfg, const TrainRun& run) {
   const auto t_start = std::chrono::steady_clock::now();
   auto seconds_since = [](std::chrono::steady_clock::time_point t) {
@@ -163,42 +258,9 @@ TrainResult train_unrolled_model(const TrainingConfig& cfg, const TrainRun& run)
   internal::AdamState adam = internal::make_adam_state(params);
   int64_t step = 0;
   double elapsed_before = 0;
-  if (arch.prior == LearnedPriorKind::kFlow && !run.resume) {
-    // The flow prior starts from the trained flow named by model.flow_model.
-    H5Reader fr(cfg.flow_model);
-    std::vector<std::pair<std::string, torch::Tensor>> flow_params;
-    for (const auto& item : state.net->flow()->named_parameters()) flow_params.emplace_back(item.key(), item.value());
-    internal::read_tensors(fr, "/model/parameters", flow_params);
-  }
-  if (run.resume) {
-    if (!file_exists(result.checkpoint))
-      throw InputError(result.checkpoint, "resume", "no checkpoint to resume from");
-    H5Reader r(result.checkpoint);
-    if (!r.has_attr("/train", "config") || r.attr_string("/train", "config") != cfg.text)
-      throw InputError(result.checkpoint, "/train@config",
-                       "the checkpoint was made with a different config than " + cfg.file);
-    internal::read_tensors(r, "/model/parameters", params);
-    internal::read_tensors(r, "/train/adam_m", adam_tensors(params, adam.m));
-    internal::read_tensors(r, "/train/adam_v", adam_tensors(params, adam.v));
-    step = r.attr_int("/train", "step");
-    elapsed_before = r.attr_double("/train", "elapsed_seconds");
-  }
+  start_or_resume(cfg, run, result.checkpoint, state, params, adam, step, elapsed_before);
 
-  // Fixed validation set and its baseline (A^H y of the scaled operator).
-  Validation val;
-  {
-    const uint64_t vseed = validation_seed(o.seed);
-    double base = 0;
-    for (int first = 0; first < o.validation_count; first += o.batch) {
-      const int count = std::min(o.batch, o.validation_count - first);
-      PreparedBatch b = prepare(draw_examples(cfg.data, vseed, static_cast<uint64_t>(first), count), arch);
-      torch::NoGradGuard no_grad;
-      torch::Tensor zf = internal::magnitude(internal::op_adjoint(b.data, b.ops));
-      base += psnr(zf, b.truth).sum().item<double>();
-      val.batches.push_back(std::move(b));
-    }
-    val.baseline_psnr = base / double(o.validation_count);
-  }
+  const Validation val = make_validation(cfg);
   result.val_psnr_baseline_db = val.baseline_psnr;
 
   internal::UnrolledNetImpl& net = *state.net;
@@ -231,20 +293,7 @@ TrainResult train_unrolled_model(const TrainingConfig& cfg, const TrainRun& run)
       result.time_limit_reached = true;
       break;
     }
-    PreparedBatch b = prepare(draw_examples(cfg.data, o.seed, static_cast<uint64_t>(step) * o.batch, o.batch), arch);
-    torch::Tensor mag = internal::magnitude(net.forward(b.data, b.ops));
-    torch::Tensor loss = o.loss == "l1" ? (mag - b.truth).abs().mean() : (mag - b.truth).pow(2).mean();
-    if (o.ssim_weight > 0) {
-      torch::Tensor peak = std::get<0>(b.truth.reshape({b.truth.size(0), -1}).max(1));
-      loss = loss + o.ssim_weight * (1 - ssim(mag, b.truth, peak).mean());
-    }
-    for (auto& p : params)
-      if (p.second.grad().defined()) p.second.grad().zero_();
-    loss.backward();
-    loss_value = loss.item<double>();
-    if (!std::isfinite(loss_value))
-      throw WorkError("training loss is not finite at step " + std::to_string(step) + "; lower train.learning_rate");
-    internal::adam_step(params, adam, learning_rate(o, step), step + 1, o.clip_norm);
+    loss_value = training_step(cfg, net, params, adam, step);
     ++step;
     if (step % o.validation_every == 0 || step == o.steps) {
       last_scores = validate(net, val);
@@ -262,23 +311,7 @@ TrainResult train_unrolled_model(const TrainingConfig& cfg, const TrainRun& run)
   result.final_loss = loss_value;
   result.seconds = seconds_since(t_start);
 
-  ModelInfo& info = state.info;
-  info.trained_on = cfg.data;
-  info.trained_on->seeds = internal::training_seed_ranges(cfg, step);
-  if (!cfg.flow_model.empty()) {
-    info.provenance.extra["flow_model"] = cfg.flow_model;
-    info.provenance.extra["flow_model_checksum"] = file_checksum(cfg.flow_model);
-  }
-  info.config_text = cfg.text;
-  info.metrics["val_psnr_db"] = result.val_psnr_db;
-  info.metrics["val_ssim"] = result.val_ssim;
-  info.metrics["val_psnr_baseline_db"] = result.val_psnr_baseline_db;
-  info.metrics["steps"] = double(step);
-  info.metrics["train_loss"] = loss_value;
-  info.metrics["train_seconds"] = elapsed_before + result.seconds;
-  info.provenance.command = run.command;
-  info.provenance.extra["seed"] = std::to_string(o.seed);
-  info.provenance.extra["config_file"] = cfg.file;
+  record_training(state.info, cfg, run, result, elapsed_before + result.seconds);
   model.save(run.out);
   if (file_exists(result.checkpoint)) std::remove(result.checkpoint.c_str());
   if (run.progress) run.progress->finish(status());
