@@ -94,6 +94,7 @@ std::string name(bool b) { return b ? "true" : "false"; }
 
 }  // namespace
 
+
 ReconSpec ReconSpec::with_defaults(Modality modality) const {
   ReconSpec r = *this;
   const bool iterative = is_iterative(method);
@@ -133,61 +134,65 @@ ReconSpec ReconSpec::with_defaults(Modality modality) const {
   return r;
 }
 
-std::vector<FieldError> ReconSpec::validate(Modality modality, const Shape& shape) const {
-  std::vector<FieldError> e;
+namespace {
+
+void not_for(std::vector<FieldError>& e, const std::string& field, const std::string& value, const std::string& where) {
+  e.push_back({field, value, "applies only to " + where});
+}
+
+}  // namespace
+
+// A method that does not run on the modality; fields given that do not apply to the method or prior.
+void ReconSpec::check_applicable(Modality modality, const ReconSpec& r, std::vector<FieldError>& e) const {
   const std::string method_name(to_string(method));
-  auto not_for = [&](const std::string& field, const std::string& value, const std::string& where) {
-    e.push_back({field, value, "applies only to " + where});
-  };
   if (!runs_on(method, modality))
     e.push_back({"method", method_name,
                  "does not run on " + std::string(to_string(modality)) + " measurements" +
                      (method == Method::kFbp ? " (fbp reconstructs ct)" : " (zero-filled: mri, denoise, inpaint)")});
-  const bool iterative = is_iterative(method);
 
   // Fields given that do not apply.
-  if (!iterative) {
+  if (!is_iterative(method)) {
     if (prior.kind && *prior.kind != PriorKind::kNone)
       e.push_back({"prior", std::string(to_string(*prior.kind)), "method " + method_name + " takes no prior"});
     if (lambda.mode) e.push_back({"lambda", std::string(to_string(*lambda.mode)), "method " + method_name + " has no prior weight"});
-    if (iterations) not_for("iterations", std::to_string(*iterations), "the iterative methods (cg, ista, fista, admm, pdhg)");
-    if (tolerance) not_for("tolerance", num(*tolerance), "the iterative methods (cg, ista, fista, admm, pdhg)");
-    if (nonneg) not_for("nonneg", name(*nonneg), "the iterative methods with a prior");
+    if (iterations) not_for(e, "iterations", std::to_string(*iterations), "the iterative methods (cg, ista, fista, admm, pdhg)");
+    if (tolerance) not_for(e, "tolerance", num(*tolerance), "the iterative methods (cg, ista, fista, admm, pdhg)");
+    if (nonneg) not_for(e, "nonneg", name(*nonneg), "the iterative methods with a prior");
   }
-  if (method != Method::kFista && fista.restart) not_for("fista.restart", name(*fista.restart), "method fista");
+  if (method != Method::kFista && fista.restart) not_for(e, "fista.restart", name(*fista.restart), "method fista");
   if (method != Method::kAdmm) {
-    if (admm.rho) not_for("admm.rho", num(*admm.rho), "method admm");
-    if (admm.cg_iterations) not_for("admm.cg_iterations", std::to_string(*admm.cg_iterations), "method admm");
+    if (admm.rho) not_for(e, "admm.rho", num(*admm.rho), "method admm");
+    if (admm.cg_iterations) not_for(e, "admm.cg_iterations", std::to_string(*admm.cg_iterations), "method admm");
   }
   if (method != Method::kPdhg) {
-    if (pdhg.tau) not_for("pdhg.tau", num(*pdhg.tau), "method pdhg");
-    if (pdhg.sigma) not_for("pdhg.sigma", num(*pdhg.sigma), "method pdhg");
+    if (pdhg.tau) not_for(e, "pdhg.tau", num(*pdhg.tau), "method pdhg");
+    if (pdhg.sigma) not_for(e, "pdhg.sigma", num(*pdhg.sigma), "method pdhg");
   }
-  if (method != Method::kFbp && fbp.filter) not_for("fbp.filter", std::string(to_string(*fbp.filter)), "method fbp");
+  if (method != Method::kFbp && fbp.filter) not_for(e, "fbp.filter", std::string(to_string(*fbp.filter)), "method fbp");
   if (method != Method::kZeroFilled || modality != Modality::kMri) {
     if (zero_filled.combine)
-      not_for("zero_filled.combine", std::string(to_string(*zero_filled.combine)), "method zero-filled on mri");
+      not_for(e, "zero_filled.combine", std::string(to_string(*zero_filled.combine)), "method zero-filled on mri");
     if (zero_filled.maps)
-      not_for("zero_filled.maps", std::string(to_string(*zero_filled.maps)), "method zero-filled on mri");
+      not_for(e, "zero_filled.maps", std::string(to_string(*zero_filled.maps)), "method zero-filled on mri");
   }
   if (zero_filled.maps && *zero_filled.maps == CoilMapSource::kEstimated && zero_filled.combine &&
       *zero_filled.combine != CoilCombine::kSensitivity)
     e.push_back({"zero_filled.maps", "estimated", "applies only with zero_filled.combine = sense"});
-  if (method != Method::kUnrolled && !model.empty()) not_for("model", "'" + model + "'", "method unrolled");
+  if (method != Method::kUnrolled && !model.empty()) not_for(e, "model", "'" + model + "'", "method unrolled");
   if (method == Method::kUnrolled && model.empty())
     e.push_back({"model", "", "missing; method unrolled needs a model file (from `recofold train`)"});
 
-  const ReconSpec r = with_defaults(modality);
-  const bool wavelet = r.prior.kind && *r.prior.kind == PriorKind::kWavelet;
-  if (!wavelet) {
+  if (!(r.prior.kind && *r.prior.kind == PriorKind::kWavelet)) {
     if (prior.wavelet.family)
-      not_for("prior.wavelet.family", std::string(to_string(*prior.wavelet.family)), "prior wavelet");
-    if (prior.wavelet.levels) not_for("prior.wavelet.levels", std::to_string(*prior.wavelet.levels), "prior wavelet");
-    if (prior.wavelet.cycle_spin) not_for("prior.wavelet.cycle_spin", name(*prior.wavelet.cycle_spin), "prior wavelet");
+      not_for(e, "prior.wavelet.family", std::string(to_string(*prior.wavelet.family)), "prior wavelet");
+    if (prior.wavelet.levels) not_for(e, "prior.wavelet.levels", std::to_string(*prior.wavelet.levels), "prior wavelet");
+    if (prior.wavelet.cycle_spin) not_for(e, "prior.wavelet.cycle_spin", name(*prior.wavelet.cycle_spin), "prior wavelet");
   }
-  if (!iterative) return e;
+}
 
-  // Method and prior.
+// The prior a method takes; wavelet levels that fit the grid.
+void ReconSpec::check_prior_choice(const ReconSpec& r, const Shape& shape, std::vector<FieldError>& e) const {
+  const std::string method_name(to_string(method));
   const PriorKind kind = *r.prior.kind;
   const std::string kind_name(to_string(kind));
   if (method == Method::kCg && kind != PriorKind::kNone && kind != PriorKind::kL2)
@@ -196,7 +201,7 @@ std::vector<FieldError> ReconSpec::validate(Modality modality, const Shape& shap
     e.push_back({"prior", "none",
                  "method " + method_name +
                      " needs a prior (l2, wavelet, tv, tv-aniso); without one it is plain least squares: use method cg"});
-  if (wavelet) {
+  if (kind == PriorKind::kWavelet) {
     const int top = max_wavelet_levels(shape);
     const int levels = *r.prior.wavelet.levels;
     if (levels < 1 || levels > top)
@@ -206,11 +211,15 @@ std::vector<FieldError> ReconSpec::validate(Modality modality, const Shape& shap
                             : "the " + shape.to_string() + " grid has an odd side: no wavelet levels fit"});
   }
 
-  // Lambda.
+}
+
+// The weight: a value, auto or a grid, and the rule that chooses it.
+void ReconSpec::check_lambda(Modality modality, const ReconSpec& r, std::vector<FieldError>& e) const {
+  const PriorKind kind = *r.prior.kind;
   if (kind == PriorKind::kNone) {
     if (lambda.mode) e.push_back({"lambda", lambda.mode == LambdaMode::kValue ? num(lambda.value) : std::string(to_string(*lambda.mode)), "prior none has no weight"});
-    if (lambda.rule) not_for("lambda.rule", std::string(to_string(*lambda.rule)), "a prior's weight");
-    if (lambda.max_solves) not_for("lambda.max_solves", std::to_string(*lambda.max_solves), "lambda auto");
+    if (lambda.rule) not_for(e, "lambda.rule", std::string(to_string(*lambda.rule)), "a prior's weight");
+    if (lambda.max_solves) not_for(e, "lambda.max_solves", std::to_string(*lambda.max_solves), "lambda auto");
   } else {
     const LambdaMode mode = *r.lambda.mode;
     if (mode == LambdaMode::kValue && !(lambda.value >= 0.0 && std::isfinite(lambda.value)))
@@ -224,7 +233,7 @@ std::vector<FieldError> ReconSpec::validate(Modality modality, const Shape& shap
         }
     }
     if (mode == LambdaMode::kValue && lambda.rule)
-      not_for("lambda.rule", std::string(to_string(*lambda.rule)), "lambda auto or a grid");
+      not_for(e, "lambda.rule", std::string(to_string(*lambda.rule)), "lambda auto or a grid");
     if (mode == LambdaMode::kAuto && r.lambda.rule == LambdaRule::kOracle)
       e.push_back({"lambda.rule", "oracle", "chooses from a grid of values; give lambda as a list"});
     if (mode == LambdaMode::kAuto && r.lambda.rule == LambdaRule::kHeldOutViews && modality != Modality::kCt)
@@ -232,12 +241,16 @@ std::vector<FieldError> ReconSpec::validate(Modality modality, const Shape& shap
     if (mode == LambdaMode::kGrid && r.lambda.rule != LambdaRule::kOracle)
       e.push_back({"lambda.rule", std::string(to_string(*r.lambda.rule)), "a grid is chosen by the oracle rule"});
     if (lambda.max_solves && mode != LambdaMode::kAuto)
-      not_for("lambda.max_solves", std::to_string(*lambda.max_solves), "lambda auto");
+      not_for(e, "lambda.max_solves", std::to_string(*lambda.max_solves), "lambda auto");
     if (r.lambda.max_solves && *r.lambda.max_solves < 2)
       e.push_back({"lambda.max_solves", std::to_string(*r.lambda.max_solves), "must be >= 2"});
   }
 
-  // Solver options.
+}
+
+// Iterations, tolerance, ADMM and PDHG options, the non-negativity box.
+void ReconSpec::check_solver_options(const ReconSpec& r, std::vector<FieldError>& e) const {
+  const PriorKind kind = *r.prior.kind;
   if (*r.iterations < 1 || *r.iterations > 1000000)
     e.push_back({"iterations", std::to_string(*r.iterations), "must be in 1..1000000"});
   if (!(*r.tolerance >= 0.0 && std::isfinite(*r.tolerance)))
@@ -261,6 +274,16 @@ std::vector<FieldError> ReconSpec::validate(Modality modality, const Shape& shap
     e.push_back({"nonneg", "true", "method cg solves the normal equations and keeps no box; use fista, admm or pdhg"});
   else if (*r.nonneg && kind == PriorKind::kNone)
     e.push_back({"nonneg", "true", "needs a prior (method cg with prior none is unconstrained least squares)"});
+}
+
+std::vector<FieldError> ReconSpec::validate(Modality modality, const Shape& shape) const {
+  std::vector<FieldError> e;
+  const ReconSpec r = with_defaults(modality);
+  check_applicable(modality, r, e);
+  if (!is_iterative(method)) return e;
+  check_prior_choice(r, shape, e);
+  check_lambda(modality, r, e);
+  check_solver_options(r, e);
   return e;
 }
 

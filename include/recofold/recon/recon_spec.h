@@ -140,6 +140,13 @@ struct ReconSpec {
   // The prior of a spec after with_defaults, with weight `lambda`, as the
   // priors module builds it (kind none gives PriorKind::kNone; nonneg the box).
   PriorSpec prior_spec(double lambda) const;
+
+ private:
+  // The parts of validate(); `r` is with_defaults(modality) of this spec.
+  void check_applicable(Modality modality, const ReconSpec& r, std::vector<FieldError>& e) const;
+  void check_prior_choice(const ReconSpec& r, const Shape& shape, std::vector<FieldError>& e) const;
+  void check_lambda(Modality modality, const ReconSpec& r, std::vector<FieldError>& e) const;
+  void check_solver_options(const ReconSpec& r, std::vector<FieldError>& e) const;
 };
 
 // The largest number of wavelet levels the grid allows: the largest L with
