@@ -16,6 +16,7 @@
 
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/core/provenance.h"
 #include "recofold/io/h5_file.h"
 
@@ -80,13 +81,6 @@ std::string limit_text(const ISMRMRD::Limit& l) {
          std::to_string(l.center) + "}";
 }
 
-std::string fmt(double v) {
-  std::ostringstream s;
-  s.precision(6);
-  s << v;
-  return s.str();
-}
-
 // The group holding the dataset: `wanted`, or the only group with an `xml` child.
 std::string find_group(const H5Reader& r, const std::string& wanted) {
   if (r.has("/" + wanted)) return wanted;
@@ -107,7 +101,7 @@ void header_texts(const ISMRMRD::IsmrmrdHeader& h, std::map<std::string, std::st
     const auto& s = h.acquisitionSystemInformation.get();
     if (s.systemVendor) out["system_vendor"] = s.systemVendor.get();
     if (s.systemModel) out["system_model"] = s.systemModel.get();
-    if (s.systemFieldStrength_T) out["field_strength_T"] = fmt(s.systemFieldStrength_T.get());
+    if (s.systemFieldStrength_T) out["field_strength_T"] = format_sig(s.systemFieldStrength_T.get(), 6);
     if (s.institutionName) out["institution"] = s.institutionName.get();
     if (s.receiverChannels) out["receiver_channels"] = std::to_string(s.receiverChannels.get());
   }
@@ -121,7 +115,7 @@ void header_texts(const ISMRMRD::IsmrmrdHeader& h, std::map<std::string, std::st
     const auto& p = h.sequenceParameters.get();
     auto list = [](const std::vector<float>& v) {
       std::string t;
-      for (float x : v) t += (t.empty() ? "" : ", ") + fmt(x);
+      for (float x : v) t += (t.empty() ? "" : ", ") + format_sig(x, 6);
       return t;
     };
     if (p.TR) out["TR_ms"] = list(p.TR.get());
@@ -163,40 +157,12 @@ bool is_ismrmrd_file(const std::string& path, const std::string& group) {
   }
 }
 
-RawCartesian read_ismrmrd_file(const std::string& path, const IsmrmrdSelection& sel) {
-  quiet_ismrmrd();
-  {
-    const auto errors = sel.validate();
-    if (!errors.empty()) throw InputError(path, errors.front().substr(0, errors.front().find(' ')), errors.front());
-  }
-  if (!file_exists(path)) throw InputError(path, "", "file does not exist");
-  std::string group;
-  {
-    H5Reader r(path);  // InputError for files that are not HDF5
-    group = find_group(r, sel.group);
-    if (!r.has("/" + group + "/xml"))
-      throw InputError(path, "/" + group + "/xml", "no ISMRMRD header (the XML dataset is missing)");
-    if (!r.has("/" + group + "/data"))
-      throw InputError(path, "/" + group + "/data", "has no acquisitions (the dataset is missing)");
-  }
-  const std::string xml_field = "/" + group + "/xml", data_field = "/" + group + "/data";
+namespace {
 
-  RawCartesian raw;
-  ISMRMRD::IsmrmrdHeader hdr;
-  std::unique_ptr<ISMRMRD::Dataset> d;
-  try {
-    d = std::make_unique<ISMRMRD::Dataset>(path.c_str(), group.c_str(), false);
-    d->readHeader(raw.xml);
-  } catch (const std::exception& e) {
-    throw InputError(path, xml_field, "cannot read the ISMRMRD header: " + first_line(e.what()));
-  }
-  if (raw.xml.find_first_not_of(" \t\r\n") == std::string::npos)
-    throw InputError(path, xml_field, "the XML header is empty");
-  try {
-    ISMRMRD::deserialize(raw.xml.c_str(), hdr);
-  } catch (const std::exception& e) {
-    throw InputError(path, xml_field, "the XML header does not parse: " + first_line(e.what()));
-  }
+// Trajectory, encoded matrix, fields of view, readout crop and the noise level of the header's
+// first <encoding>. InputError naming `xml_field` for what recofold cannot import.
+void read_encoding(const ISMRMRD::IsmrmrdHeader& hdr, const std::string& path, const std::string& xml_field,
+                   RawCartesian& raw) {
   if (hdr.encoding.empty()) throw InputError(path, xml_field, "the XML header has no <encoding> section");
   const ISMRMRD::Encoding& enc = hdr.encoding.front();
   raw.trajectory = trajectory_name(enc.trajectory);
@@ -231,7 +197,7 @@ RawCartesian read_ismrmrd_file(const std::string& path, const IsmrmrdSelection& 
   for (int a = 0; a < 2; ++a)
     if (!(raw.encoded_fov_mm[a] > 0) || !std::isfinite(raw.encoded_fov_mm[a]))
       throw InputError(path, xml_field + " encodedSpace",
-                       std::string("field of view ") + (a ? "y" : "x") + " = " + fmt(raw.encoded_fov_mm[a]) +
+                       std::string("field of view ") + (a ? "y" : "x") + " = " + format_sig(raw.encoded_fov_mm[a], 6) +
                            " mm; must be positive");
   raw.readout_keep = raw.ex;
   if (raw.recon_fov_mm[0] > 0 && raw.recon_fov_mm[0] < raw.encoded_fov_mm[0] * (1 - 1e-6)) {
@@ -239,35 +205,42 @@ RawCartesian read_ismrmrd_file(const std::string& path, const IsmrmrdSelection& 
     if (raw.readout_keep < 1) raw.readout_keep = 1;
   }
   header_texts(hdr, raw.header_texts);
-  if (hdr.userParameters) {
-    for (const auto& p : hdr.userParameters.get().userParameterDouble)
-      if (p.name == kNoiseSigmaParameter && std::isfinite(p.value) && p.value >= 0) raw.header_noise_sigma = p.value;
-    // The library writes doubles with 6 decimals; the text copy keeps every digit.
-    for (const auto& p : hdr.userParameters.get().userParameterString)
-      if (p.name == kNoiseSigmaTextParameter) {
-        try {
-          const double v = std::stod(p.value);
-          if (std::isfinite(v) && v >= 0) raw.header_noise_sigma = v;
-        } catch (const std::exception&) {
-        }
+  if (!hdr.userParameters) return;
+  for (const auto& p : hdr.userParameters.get().userParameterDouble)
+    if (p.name == kNoiseSigmaParameter && std::isfinite(p.value) && p.value >= 0) raw.header_noise_sigma = p.value;
+  // The library writes doubles with 6 decimals; the text copy keeps every digit.
+  for (const auto& p : hdr.userParameters.get().userParameterString)
+    if (p.name == kNoiseSigmaTextParameter) {
+      try {
+        const double v = std::stod(p.value);
+        if (std::isfinite(v) && v >= 0) raw.header_noise_sigma = v;
+      } catch (const std::exception&) {
       }
-  }
+    }
+}
 
-  // Encoding limits of the phase-encoding counter must fit the matrix: the
-  // line with counter `center` goes to row ey/2.
+// The phase-encoding counter's limits: the line with counter `center` goes to row ey/2.
+struct PhaseLimits {
+  Index center = 0;
+  std::optional<ISMRMRD::Limit> step1;
+};
+
+// Encoding limits must fit the matrix and have minimum <= maximum.
+PhaseLimits check_encoding_limits(const ISMRMRD::Encoding& enc, const RawCartesian& raw, const std::string& path,
+                                  const std::string& xml_field) {
   const Index ey = raw.ey, ex = raw.ex;
-  Index center1 = ey / 2;
-  std::optional<ISMRMRD::Limit> lim1;
+  PhaseLimits out;
+  out.center = ey / 2;
   if (enc.encodingLimits.kspace_encoding_step_1) {
-    lim1 = enc.encodingLimits.kspace_encoding_step_1.get();
-    const Index lo = static_cast<Index>(lim1->minimum) - lim1->center + ey / 2;
-    const Index hi = static_cast<Index>(lim1->maximum) - lim1->center + ey / 2;
-    if (lim1->minimum > lim1->maximum || lim1->center < lim1->minimum || lim1->center > lim1->maximum || lo < 0 ||
-        hi >= ey)
+    const ISMRMRD::Limit l = enc.encodingLimits.kspace_encoding_step_1.get();
+    const Index lo = static_cast<Index>(l.minimum) - l.center + ey / 2;
+    const Index hi = static_cast<Index>(l.maximum) - l.center + ey / 2;
+    if (l.minimum > l.maximum || l.center < l.minimum || l.center > l.maximum || lo < 0 || hi >= ey)
       throw InputError(path, xml_field + " encodingLimits",
-                       "kspace_encoding_step_1 " + limit_text(*lim1) + " does not fit the encoded matrix y = " +
+                       "kspace_encoding_step_1 " + limit_text(l) + " does not fit the encoded matrix y = " +
                            std::to_string(ey) + " (inconsistent encoding limits)");
-    center1 = lim1->center;
+    out.center = l.center;
+    out.step1 = l;
   }
   if (enc.encodingLimits.kspace_encoding_step_0) {
     const auto l = enc.encodingLimits.kspace_encoding_step_0.get();
@@ -279,12 +252,262 @@ RawCartesian read_ismrmrd_file(const std::string& path, const IsmrmrdSelection& 
   auto check_limit = [&](const char* name, const ISMRMRD::Optional<ISMRMRD::Limit>& l) {
     if (l && (l.get().minimum > l.get().maximum))
       throw InputError(path, xml_field + " encodingLimits",
-                       std::string(name) + " " + limit_text(l.get()) + " has minimum > maximum (inconsistent encoding limits)");
+                       std::string(name) + " " + limit_text(l.get()) +
+                           " has minimum > maximum (inconsistent encoding limits)");
   };
   check_limit("slice", enc.encodingLimits.slice);
   check_limit("contrast", enc.encodingLimits.contrast);
   check_limit("repetition", enc.encodingLimits.repetition);
   check_limit("average", enc.encodingLimits.average);
+  return out;
+}
+
+// Sums the acquisitions of one file: the noise covariance from noise scans, the selected
+// imaging lines into a [coils, ey, ex] grid with a count per cell (repeated lines averaged).
+class LineAccumulator {
+ public:
+  LineAccumulator(RawCartesian& raw, const IsmrmrdSelection& sel, PhaseLimits limits, std::string path,
+                  std::string data_field)
+      : raw_(raw), sel_(sel), limits_(std::move(limits)), path_(std::move(path)), data_field_(std::move(data_field)) {}
+
+  void add(const ISMRMRD::Acquisition& acq, uint32_t i) {
+    const ISMRMRD::AcquisitionHeader& h = acq.getHead();
+    if (flag_set(h.flags, ISMRMRD::ISMRMRD_ACQ_IS_NOISE_MEASUREMENT)) return add_noise(acq, i);
+    const std::string kind = skip_kind(h.flags);
+    if (!kind.empty()) {
+      ++raw_.skipped[kind];
+      return;
+    }
+    if (h.encoding_space_ref != 0) {
+      ++raw_.skipped["other encoding space"];
+      return;
+    }
+    add_imaging(acq, i);
+  }
+
+  void finish();
+
+ private:
+  void add_noise(const ISMRMRD::Acquisition& acq, uint32_t i);
+  void add_imaging(const ISMRMRD::Acquisition& acq, uint32_t i);
+  Index checked_row(const ISMRMRD::AcquisitionHeader& h, const std::string& at) const;
+  bool selected(const ISMRMRD::EncodingCounters& idx);
+  void no_lines_error() const;
+
+  RawCartesian& raw_;
+  const IsmrmrdSelection& sel_;
+  PhaseLimits limits_;
+  std::string path_, data_field_;
+  int coils_ = -1, noise_channels_ = -1;
+  int64_t coils_from_ = -1, noise_from_ = -1;
+  std::vector<cdouble> acc_, noise_;
+  std::vector<int32_t> count_;
+  std::set<int> averages_seen_;
+};
+
+void LineAccumulator::add_noise(const ISMRMRD::Acquisition& acq, uint32_t i) {
+  const ISMRMRD::AcquisitionHeader& h = acq.getHead();
+  const int channels = h.active_channels, ns = h.number_of_samples;
+  ++raw_.noise_acquisitions;
+  if (channels < 1 || ns < 1) return;
+  if (noise_channels_ < 0) {
+    noise_channels_ = channels;
+    noise_from_ = i;
+    noise_.assign(static_cast<size_t>(channels * channels), cdouble(0, 0));
+    raw_.noise_dwell_us = h.sample_time_us;
+  } else if (channels != noise_channels_) {
+    throw InputError(path_, data_field_,
+                     "acquisition " + std::to_string(i) + " (noise) has " + std::to_string(channels) +
+                         " active channels but acquisition " + std::to_string(noise_from_) + " has " +
+                         std::to_string(noise_channels_) + " (mixed coil counts)");
+  }
+  const cfloat* p = acq.getDataPtr();
+  for (int s = 0; s < ns; ++s)
+    for (int a = 0; a < channels; ++a) {
+      const cdouble va(p[static_cast<size_t>(a * ns + s)]);
+      for (int b = 0; b < channels; ++b)
+        noise_[static_cast<size_t>(a * channels + b)] += va * std::conj(cdouble(p[static_cast<size_t>(b * ns + s)]));
+    }
+  raw_.noise_samples += ns;
+}
+
+// The grid row of a line; counters outside the limits or the matrix are errors (for every
+// line, selected or not).
+Index LineAccumulator::checked_row(const ISMRMRD::AcquisitionHeader& h, const std::string& at) const {
+  const auto& idx = h.idx;
+  if (idx.kspace_encode_step_2 != 0)
+    throw InputError(path_, data_field_,
+                     at + ": kspace_encode_step_2 = " + std::to_string(idx.kspace_encode_step_2) +
+                         " in a 2-D encoding (encoded matrix z = 1; inconsistent encoding counters)");
+  const auto& lim1 = limits_.step1;
+  if (lim1 && (idx.kspace_encode_step_1 < lim1->minimum || idx.kspace_encode_step_1 > lim1->maximum))
+    throw InputError(path_, data_field_,
+                     at + ": kspace_encode_step_1 = " + std::to_string(idx.kspace_encode_step_1) +
+                         " is outside the encoding limits " + limit_text(*lim1) + " (inconsistent encoding limits)");
+  const Index row = static_cast<Index>(idx.kspace_encode_step_1) - limits_.center + raw_.ey / 2;
+  if (row < 0 || row >= raw_.ey)
+    throw InputError(path_, data_field_,
+                     at + ": kspace_encode_step_1 = " + std::to_string(idx.kspace_encode_step_1) +
+                         " falls outside the encoded matrix y = " + std::to_string(raw_.ey) +
+                         " (inconsistent encoding limits)");
+  return row;
+}
+
+// Whether a line belongs to the selection; counts the reason when it does not.
+bool LineAccumulator::selected(const ISMRMRD::EncodingCounters& idx) {
+  const std::pair<const char*, bool> other[] = {
+      {"other slice", idx.slice != sel_.slice},         {"other contrast", idx.contrast != sel_.contrast},
+      {"other repetition", idx.repetition != sel_.repetition}, {"other phase", idx.phase != sel_.phase},
+      {"other set", idx.set != sel_.set},
+      {"other average", sel_.average >= 0 && idx.average != sel_.average}};
+  for (const auto& [reason, differs] : other)
+    if (differs) {
+      ++raw_.skipped[reason];
+      return false;
+    }
+  return true;
+}
+
+void LineAccumulator::add_imaging(const ISMRMRD::Acquisition& acq, uint32_t i) {
+  const ISMRMRD::AcquisitionHeader& h = acq.getHead();
+  const int channels = h.active_channels, ns = h.number_of_samples;
+  const Index ey = raw_.ey, ex = raw_.ex;
+  const std::string at = "acquisition " + std::to_string(i);
+  // An imaging line: every one, selected or not, must agree on the channels.
+  if (coils_ < 0) {
+    coils_ = channels;
+    coils_from_ = i;
+    if (coils_ < 1) throw InputError(path_, data_field_, at + " has no active channels");
+    raw_.coils = coils_;
+    acc_.assign(static_cast<size_t>(coils_ * ey * ex), cdouble(0, 0));
+    count_.assign(static_cast<size_t>(ey * ex), 0);
+    raw_.dwell_us = h.sample_time_us;
+  } else if (channels != coils_) {
+    throw InputError(path_, data_field_,
+                     at + " has " + std::to_string(channels) + " active channels but acquisition " +
+                         std::to_string(coils_from_) + " has " + std::to_string(coils_) + " (mixed coil counts)");
+  }
+  const auto& idx = h.idx;
+  for (const auto& [name, v] : {std::pair<const char*, int>{"slice", idx.slice}, {"contrast", idx.contrast},
+                                {"repetition", idx.repetition}, {"phase", idx.phase}, {"set", idx.set},
+                                {"average", idx.average}}) {
+    auto it = raw_.counter_max.find(name);
+    if (it == raw_.counter_max.end() || v > it->second) raw_.counter_max[name] = v;
+  }
+  const Index row = checked_row(h, at);
+  if (!selected(idx)) return;
+  if (ns < 1) throw InputError(path_, data_field_, at + " has no samples");
+  const int pre = h.discard_pre, post = h.discard_post;
+  if (pre + post >= ns)
+    throw InputError(path_, data_field_,
+                     at + ": discard_pre + discard_post = " + std::to_string(pre + post) + " leaves none of its " +
+                         std::to_string(ns) + " samples");
+  // center_sample 0 on a full-length readout means "not stated": symmetric echo.
+  const Index centre = (h.center_sample == 0 && ns == ex) ? ex / 2 : static_cast<Index>(h.center_sample);
+  const Index first_col = ex / 2 + (pre - centre), last_col = ex / 2 + (ns - post - 1 - centre);
+  if (first_col < 0 || last_col >= ex)
+    throw InputError(path_, data_field_,
+                     at + ": samples " + std::to_string(pre) + ".." + std::to_string(ns - post - 1) +
+                         " with center_sample " + std::to_string(h.center_sample) +
+                         " fall outside the encoded matrix x = " + std::to_string(ex));
+  const bool reverse = flag_set(h.flags, ISMRMRD::ISMRMRD_ACQ_IS_REVERSE);
+  const cfloat* p = acq.getDataPtr();
+  for (int s = pre; s < ns - post; ++s) {
+    const int src = reverse ? ns - 1 - s : s;
+    const Index col = ex / 2 + (s - centre);
+    for (int c = 0; c < coils_; ++c)
+      acc_[static_cast<size_t>((c * ey + row) * ex + col)] += cdouble(p[static_cast<size_t>(c * ns + src)]);
+    ++count_[static_cast<size_t>(row * ex + col)];
+  }
+  averages_seen_.insert(idx.average);
+  ++raw_.selected_lines;
+}
+
+// No selected line: name the first selector the file does not have.
+void LineAccumulator::no_lines_error() const {
+  const std::pair<const char*, int> wanted[] = {{"slice", sel_.slice},         {"contrast", sel_.contrast},
+                                                {"repetition", sel_.repetition}, {"phase", sel_.phase},
+                                                {"set", sel_.set},             {"average", sel_.average}};
+  for (const auto& [name, value] : wanted) {
+    if (value < 0) continue;
+    const int top = raw_.counter_max.count(name) ? raw_.counter_max.at(name) : 0;
+    if (value > top)
+      throw InputError(path_, name,
+                       std::string(name) + " " + std::to_string(value) + " is out of range: the file has " + name +
+                           " 0.." + std::to_string(top));
+  }
+  throw InputError(path_, "slice",
+                   "no imaging line has slice " + std::to_string(sel_.slice) + ", contrast " +
+                       std::to_string(sel_.contrast) + ", repetition " + std::to_string(sel_.repetition) +
+                       ", phase " + std::to_string(sel_.phase) + ", set " + std::to_string(sel_.set) +
+                       (sel_.average >= 0 ? ", average " + std::to_string(sel_.average) : std::string()));
+}
+
+// Averages repeated samples into raw.kspace / raw.sampled and normalises the noise covariance.
+void LineAccumulator::finish() {
+  if (coils_ < 0) throw InputError(path_, data_field_, "has no imaging acquisitions (only noise or calibration data)");
+  if (noise_channels_ >= 0 && noise_channels_ != coils_)
+    throw InputError(path_, data_field_,
+                     "the noise acquisitions have " + std::to_string(noise_channels_) +
+                         " active channels but the imaging lines have " + std::to_string(coils_) +
+                         " (mixed coil counts)");
+  if (raw_.selected_lines == 0) no_lines_error();
+  const Index ey = raw_.ey, ex = raw_.ex;
+  raw_.averages_used = static_cast<int>(averages_seen_.size());
+  raw_.kspace = NdArray<cfloat>(Shape{coils_, ey, ex});
+  raw_.sampled = NdArray<uint8_t>(Shape{ey, ex});
+  for (Index p = 0; p < ey * ex; ++p) {
+    const int32_t k = count_[static_cast<size_t>(p)];
+    if (k == 0) continue;
+    raw_.sampled.data[static_cast<size_t>(p)] = 1;
+    for (int c = 0; c < coils_; ++c)
+      raw_.kspace.data[static_cast<size_t>(c * ey * ex + p)] =
+          cfloat(acc_[static_cast<size_t>(c * ey * ex + p)] / static_cast<double>(k));
+  }
+  if (raw_.noise_samples > 0) {
+    for (auto& v : noise_) v /= static_cast<double>(raw_.noise_samples);
+    raw_.noise_covariance = std::move(noise_);
+  }
+}
+
+}  // namespace
+
+RawCartesian read_ismrmrd_file(const std::string& path, const IsmrmrdSelection& sel) {
+  quiet_ismrmrd();
+  {
+    const auto errors = sel.validate();
+    if (!errors.empty()) throw InputError(path, errors.front().substr(0, errors.front().find(' ')), errors.front());
+  }
+  if (!file_exists(path)) throw InputError(path, "", "file does not exist");
+  std::string group;
+  {
+    H5Reader r(path);  // InputError for files that are not HDF5
+    group = find_group(r, sel.group);
+    if (!r.has("/" + group + "/xml"))
+      throw InputError(path, "/" + group + "/xml", "no ISMRMRD header (the XML dataset is missing)");
+    if (!r.has("/" + group + "/data"))
+      throw InputError(path, "/" + group + "/data", "has no acquisitions (the dataset is missing)");
+  }
+  const std::string xml_field = "/" + group + "/xml", data_field = "/" + group + "/data";
+
+  RawCartesian raw;
+  ISMRMRD::IsmrmrdHeader hdr;
+  std::unique_ptr<ISMRMRD::Dataset> d;
+  try {
+    d = std::make_unique<ISMRMRD::Dataset>(path.c_str(), group.c_str(), false);
+    d->readHeader(raw.xml);
+  } catch (const std::exception& e) {
+    throw InputError(path, xml_field, "cannot read the ISMRMRD header: " + first_line(e.what()));
+  }
+  if (raw.xml.find_first_not_of(" \t\r\n") == std::string::npos)
+    throw InputError(path, xml_field, "the XML header is empty");
+  try {
+    ISMRMRD::deserialize(raw.xml.c_str(), hdr);
+  } catch (const std::exception& e) {
+    throw InputError(path, xml_field, "the XML header does not parse: " + first_line(e.what()));
+  }
+  read_encoding(hdr, path, xml_field, raw);
+  LineAccumulator lines(raw, sel, check_encoding_limits(hdr.encoding.front(), raw, path, xml_field), path, data_field);
 
   uint32_t n = 0;
   try {
@@ -294,14 +517,6 @@ RawCartesian read_ismrmrd_file(const std::string& path, const IsmrmrdSelection& 
   }
   raw.acquisitions = n;
   if (n == 0) throw InputError(path, data_field, "has no acquisitions (zero acquisitions)");
-
-  int coils = -1;
-  int64_t coils_from = -1;
-  int noise_channels = -1;
-  int64_t noise_from = -1;
-  std::vector<cdouble> acc, noise;
-  std::vector<int32_t> count;
-  std::set<int> averages_seen;
   ISMRMRD::Acquisition acq;
   for (uint32_t i = 0; i < n; ++i) {
     try {
@@ -309,171 +524,9 @@ RawCartesian read_ismrmrd_file(const std::string& path, const IsmrmrdSelection& 
     } catch (const std::exception& e) {
       throw InputError(path, data_field, "acquisition " + std::to_string(i) + ": " + first_line(e.what()));
     }
-    const ISMRMRD::AcquisitionHeader& h = acq.getHead();
-    const int channels = h.active_channels;
-    const int ns = h.number_of_samples;
-    const std::string at = "acquisition " + std::to_string(i);
-    if (flag_set(h.flags, ISMRMRD::ISMRMRD_ACQ_IS_NOISE_MEASUREMENT)) {
-      ++raw.noise_acquisitions;
-      if (channels < 1 || ns < 1) continue;
-      if (noise_channels < 0) {
-        noise_channels = channels;
-        noise_from = i;
-        noise.assign(static_cast<size_t>(channels * channels), cdouble(0, 0));
-        raw.noise_dwell_us = h.sample_time_us;
-      } else if (channels != noise_channels) {
-        throw InputError(path, data_field,
-                         at + " (noise) has " + std::to_string(channels) + " active channels but acquisition " +
-                             std::to_string(noise_from) + " has " + std::to_string(noise_channels) +
-                             " (mixed coil counts)");
-      }
-      const cfloat* p = acq.getDataPtr();
-      for (int s = 0; s < ns; ++s)
-        for (int a = 0; a < channels; ++a) {
-          const cdouble va(p[static_cast<size_t>(a * ns + s)]);
-          for (int b = 0; b < channels; ++b)
-            noise[static_cast<size_t>(a * channels + b)] += va * std::conj(cdouble(p[static_cast<size_t>(b * ns + s)]));
-        }
-      raw.noise_samples += ns;
-      continue;
-    }
-    const std::string kind = skip_kind(h.flags);
-    if (!kind.empty()) {
-      ++raw.skipped[kind];
-      continue;
-    }
-    if (h.encoding_space_ref != 0) {
-      ++raw.skipped["other encoding space"];
-      continue;
-    }
-    // An imaging line: every one, selected or not, must agree on the channels.
-    if (coils < 0) {
-      coils = channels;
-      coils_from = i;
-      if (coils < 1) throw InputError(path, data_field, at + " has no active channels");
-      raw.coils = coils;
-      acc.assign(static_cast<size_t>(coils * ey * ex), cdouble(0, 0));
-      count.assign(static_cast<size_t>(ey * ex), 0);
-      raw.dwell_us = h.sample_time_us;
-    } else if (channels != coils) {
-      throw InputError(path, data_field,
-                       at + " has " + std::to_string(channels) + " active channels but acquisition " +
-                           std::to_string(coils_from) + " has " + std::to_string(coils) + " (mixed coil counts)");
-    }
-    const auto& idx = h.idx;
-    auto note_max = [&](const char* name, int v) {
-      auto it = raw.counter_max.find(name);
-      if (it == raw.counter_max.end() || v > it->second) raw.counter_max[name] = v;
-    };
-    note_max("slice", idx.slice);
-    note_max("contrast", idx.contrast);
-    note_max("repetition", idx.repetition);
-    note_max("phase", idx.phase);
-    note_max("set", idx.set);
-    note_max("average", idx.average);
-    if (idx.kspace_encode_step_2 != 0)
-      throw InputError(path, data_field,
-                       at + ": kspace_encode_step_2 = " + std::to_string(idx.kspace_encode_step_2) +
-                           " in a 2-D encoding (encoded matrix z = 1; inconsistent encoding counters)");
-    if (lim1 && (idx.kspace_encode_step_1 < lim1->minimum || idx.kspace_encode_step_1 > lim1->maximum))
-      throw InputError(path, data_field,
-                       at + ": kspace_encode_step_1 = " + std::to_string(idx.kspace_encode_step_1) +
-                           " is outside the encoding limits " + limit_text(*lim1) + " (inconsistent encoding limits)");
-    const Index row = static_cast<Index>(idx.kspace_encode_step_1) - center1 + ey / 2;
-    if (row < 0 || row >= ey)
-      throw InputError(path, data_field,
-                       at + ": kspace_encode_step_1 = " + std::to_string(idx.kspace_encode_step_1) +
-                           " falls outside the encoded matrix y = " + std::to_string(ey) +
-                           " (inconsistent encoding limits)");
-    if (idx.slice != sel.slice) {
-      ++raw.skipped["other slice"];
-      continue;
-    }
-    if (idx.contrast != sel.contrast) {
-      ++raw.skipped["other contrast"];
-      continue;
-    }
-    if (idx.repetition != sel.repetition) {
-      ++raw.skipped["other repetition"];
-      continue;
-    }
-    if (idx.phase != sel.phase) {
-      ++raw.skipped["other phase"];
-      continue;
-    }
-    if (idx.set != sel.set) {
-      ++raw.skipped["other set"];
-      continue;
-    }
-    if (sel.average >= 0 && idx.average != sel.average) {
-      ++raw.skipped["other average"];
-      continue;
-    }
-    if (ns < 1) throw InputError(path, data_field, at + " has no samples");
-    const int pre = h.discard_pre, post = h.discard_post;
-    if (pre + post >= ns)
-      throw InputError(path, data_field,
-                       at + ": discard_pre + discard_post = " + std::to_string(pre + post) + " leaves none of its " +
-                           std::to_string(ns) + " samples");
-    // center_sample 0 on a full-length readout means "not stated": symmetric echo.
-    const Index centre = (h.center_sample == 0 && ns == ex) ? ex / 2 : static_cast<Index>(h.center_sample);
-    const Index first_col = ex / 2 + (pre - centre), last_col = ex / 2 + (ns - post - 1 - centre);
-    if (first_col < 0 || last_col >= ex)
-      throw InputError(path, data_field,
-                       at + ": samples " + std::to_string(pre) + ".." + std::to_string(ns - post - 1) +
-                           " with center_sample " + std::to_string(h.center_sample) +
-                           " fall outside the encoded matrix x = " + std::to_string(ex));
-    const bool reverse = flag_set(h.flags, ISMRMRD::ISMRMRD_ACQ_IS_REVERSE);
-    const cfloat* p = acq.getDataPtr();
-    for (int s = pre; s < ns - post; ++s) {
-      const int src = reverse ? ns - 1 - s : s;
-      const Index col = ex / 2 + (s - centre);
-      for (int c = 0; c < coils; ++c)
-        acc[static_cast<size_t>((c * ey + row) * ex + col)] += cdouble(p[static_cast<size_t>(c * ns + src)]);
-      ++count[static_cast<size_t>(row * ex + col)];
-    }
-    averages_seen.insert(idx.average);
-    ++raw.selected_lines;
+    lines.add(acq, i);
   }
-  if (coils < 0) throw InputError(path, data_field, "has no imaging acquisitions (only noise or calibration data)");
-  if (noise_channels >= 0 && noise_channels != coils)
-    throw InputError(path, data_field,
-                     "the noise acquisitions have " + std::to_string(noise_channels) +
-                         " active channels but the imaging lines have " + std::to_string(coils) + " (mixed coil counts)");
-  if (raw.selected_lines == 0) {
-    // Name the first selector the file does not have.
-    const std::pair<const char*, int> wanted[] = {{"slice", sel.slice},         {"contrast", sel.contrast},
-                                                  {"repetition", sel.repetition}, {"phase", sel.phase},
-                                                  {"set", sel.set},             {"average", sel.average}};
-    for (const auto& [name, value] : wanted) {
-      if (value < 0) continue;
-      const int top = raw.counter_max.count(name) ? raw.counter_max.at(name) : 0;
-      if (value > top)
-        throw InputError(path, name,
-                         std::string(name) + " " + std::to_string(value) + " is out of range: the file has " + name +
-                             " 0.." + std::to_string(top));
-    }
-    throw InputError(path, "slice",
-                     "no imaging line has slice " + std::to_string(sel.slice) + ", contrast " +
-                         std::to_string(sel.contrast) + ", repetition " + std::to_string(sel.repetition) +
-                         ", phase " + std::to_string(sel.phase) + ", set " + std::to_string(sel.set) +
-                         (sel.average >= 0 ? ", average " + std::to_string(sel.average) : std::string()));
-  }
-  raw.averages_used = static_cast<int>(averages_seen.size());
-  raw.kspace = NdArray<cfloat>(Shape{coils, ey, ex});
-  raw.sampled = NdArray<uint8_t>(Shape{ey, ex});
-  for (Index p = 0; p < ey * ex; ++p) {
-    const int32_t k = count[static_cast<size_t>(p)];
-    if (k == 0) continue;
-    raw.sampled.data[static_cast<size_t>(p)] = 1;
-    for (int c = 0; c < coils; ++c)
-      raw.kspace.data[static_cast<size_t>(c * ey * ex + p)] =
-          cfloat(acc[static_cast<size_t>(c * ey * ex + p)] / static_cast<double>(k));
-  }
-  if (raw.noise_samples > 0) {
-    for (auto& v : noise) v /= static_cast<double>(raw.noise_samples);
-    raw.noise_covariance = std::move(noise);
-  }
+  lines.finish();
   return raw;
 }
 
