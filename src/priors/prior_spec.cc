@@ -6,7 +6,7 @@
 
 #include "recofold/priors/constrained.h"
 #include "recofold/priors/l2.h"
-#include "recofold/priors/option_errors.h"
+#include "recofold/core/field_error.h"
 #include "recofold/priors/zero_prior.h"
 
 namespace recofold {
@@ -50,7 +50,7 @@ std::vector<std::string> PriorSpec::validate(const Shape& image_shape) const {
 }
 
 std::unique_ptr<Prior> make_prior(const PriorSpec& spec, const Shape& image_shape) {
-  throw_if_invalid(spec.validate(image_shape));
+  throw_if_invalid(parse_field_messages(spec.validate(image_shape)));
   std::unique_ptr<Prior> prior;
   switch (spec.kind) {
     case PriorKind::kNone: prior = std::make_unique<ZeroPrior>(); break;

@@ -9,7 +9,7 @@
 
 #include "recofold/core/error.h"
 #include "recofold/core/simd.h"
-#include "recofold/priors/option_errors.h"
+#include "recofold/core/field_error.h"
 #include "recofold/priors/shrinkage.h"
 
 namespace recofold {
@@ -284,7 +284,7 @@ std::vector<std::string> TvOptions::validate() const {
 
 TvPrior::TvPrior(Shape image_shape, double weight, TvOptions options)
     : Prior(weight), shape_(std::move(image_shape)), options_(options) {
-  throw_if_invalid(options_.validate());
+  throw_if_invalid(parse_field_messages(options_.validate()));
   if (!(weight >= 0.0) || !std::isfinite(weight))
     throw InputError("", "prior.lambda", "= " + std::to_string(weight) + "; must be finite and >= 0");
   diff_ = std::make_shared<FiniteDifference>(shape_, options_.boundary);

@@ -8,7 +8,7 @@
 
 #include "recofold/core/error.h"
 #include "recofold/core/rng.h"
-#include "recofold/priors/option_errors.h"
+#include "recofold/core/field_error.h"
 #include "recofold/priors/shrinkage.h"
 
 namespace recofold {
@@ -41,7 +41,7 @@ std::vector<std::string> WaveletL1Options::validate(const Shape& image_shape) co
 
 WaveletL1Prior::WaveletL1Prior(Shape image_shape, double weight, WaveletL1Options options)
     : Prior(weight), shape_(std::move(image_shape)), options_(std::move(options)) {
-  throw_if_invalid(options_.validate(shape_));
+  throw_if_invalid(parse_field_messages(options_.validate(shape_)));
   if (!(weight >= 0.0) || !std::isfinite(weight))
     throw InputError("", "prior.lambda", "= " + std::to_string(weight) + "; must be finite and >= 0");
   transform_ = std::make_shared<WaveletTransform>(shape_, options_.family, options_.levels);

@@ -8,7 +8,7 @@
 #include <limits>
 
 #include "recofold/core/error.h"
-#include "recofold/priors/option_errors.h"
+#include "recofold/core/field_error.h"
 #include "recofold/recon/cg.h"
 #include "solver_support.h"
 
@@ -28,7 +28,7 @@ std::vector<std::string> AdmmOptions::validate() const {
 
 SolverSummary solve_admm(const AdmmOptions& options, const LinearOperator& a, const Prior& prior, const VecC& y,
                          VecC& x, ProgressSink* progress) {
-  throw_if_invalid(options.validate());
+  throw_if_invalid(parse_field_messages(options.validate()));
   internal::prepare_solve("admm", a, y, x);
   const internal::PriorParts parts = internal::split_prior(prior);
   if (!parts.supported || (!parts.analysis && !parts.box))

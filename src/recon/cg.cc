@@ -7,7 +7,7 @@
 #include <limits>
 
 #include "recofold/core/error.h"
-#include "recofold/priors/option_errors.h"
+#include "recofold/core/field_error.h"
 #include "solver_support.h"
 
 namespace recofold {
@@ -87,7 +87,7 @@ std::vector<std::string> CgOptions::validate() const {
 
 SolverSummary solve_cg(const CgOptions& options, const LinearOperator& a, const VecC& y, VecC& x,
                        ProgressSink* progress, const VecC* reference) {
-  throw_if_invalid(options.validate());
+  throw_if_invalid(parse_field_messages(options.validate()));
   internal::prepare_solve("cg", a, y, x);
   if (reference && reference->size() != a.domain_size())
     throw InputError("", "cg.reference",

@@ -6,7 +6,7 @@
 #include <cstdio>
 #include <limits>
 
-#include "recofold/priors/option_errors.h"
+#include "recofold/core/field_error.h"
 #include "recofold/recon/unrolled.h"
 #include "solver_support.h"
 
@@ -19,7 +19,7 @@ std::vector<std::string> FistaOptions::validate() const {
 
 SolverSummary solve_fista(const FistaOptions& options, const LinearOperator& a, const Prior& prior, const VecC& y,
                           VecC& x, ProgressSink* progress) {
-  throw_if_invalid(options.validate());
+  throw_if_invalid(parse_field_messages(options.validate()));
   internal::prepare_solve("fista", a, y, x);
   SolverSummary summary;
   summary.solver = "fista";

@@ -6,7 +6,7 @@
 #include <cstdio>
 #include <limits>
 
-#include "recofold/priors/option_errors.h"
+#include "recofold/core/field_error.h"
 #include "solver_support.h"
 
 namespace recofold {
@@ -18,7 +18,7 @@ std::vector<std::string> IstaOptions::validate() const {
 
 SolverSummary solve_ista(const IstaOptions& options, const LinearOperator& a, const Prior& prior, const VecC& y,
                          VecC& x, ProgressSink* progress) {
-  throw_if_invalid(options.validate());
+  throw_if_invalid(parse_field_messages(options.validate()));
   internal::prepare_solve("ista", a, y, x);
   SolverSummary summary;
   summary.solver = "ista";

@@ -8,7 +8,7 @@
 
 #include "recofold/core/error.h"
 #include "recofold/core/rng.h"
-#include "recofold/priors/option_errors.h"
+#include "recofold/core/field_error.h"
 #include "solver_support.h"
 
 namespace recofold {
@@ -63,7 +63,7 @@ double automatic_start(const LinearOperator& a, double sigma) {
 DiscrepancyChoice choose_lambda_discrepancy(const DiscrepancyOptions& options, const LinearOperator& a,
                                             const VecC& y, const Prior& prior, const RegularisedSolve& solve,
                                             VecC& x, ProgressSink* progress) {
-  throw_if_invalid(options.validate());
+  throw_if_invalid(parse_field_messages(options.validate()));
   internal::prepare_solve("discrepancy", a, y, x);
   const Index m = options.measurement_count > 0 ? options.measurement_count : a.range_size();
   DiscrepancyChoice choice;

@@ -8,7 +8,7 @@
 #include <limits>
 
 #include "recofold/core/error.h"
-#include "recofold/priors/option_errors.h"
+#include "recofold/core/field_error.h"
 #include "solver_support.h"
 
 namespace recofold {
@@ -34,7 +34,7 @@ std::vector<std::string> PdhgOptions::validate() const {
 
 SolverSummary solve_pdhg(const PdhgOptions& options, const LinearOperator& a, const Prior& prior, const VecC& y,
                          VecC& x, ProgressSink* progress) {
-  throw_if_invalid(options.validate());
+  throw_if_invalid(parse_field_messages(options.validate()));
   internal::prepare_solve("pdhg", a, y, x);
   const internal::PriorParts parts = internal::split_prior(prior);
   if (!parts.supported)

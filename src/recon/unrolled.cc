@@ -8,7 +8,7 @@
 
 #include "recofold/core/error.h"
 #include "recofold/core/rng.h"
-#include "recofold/priors/option_errors.h"
+#include "recofold/core/field_error.h"
 #include "recofold/recon/cg.h"
 #include "solver_support.h"
 
@@ -84,7 +84,7 @@ UnrolledScheme::UnrolledScheme(UnrolledOptions options, std::vector<IterationPar
       e.push_back(at + ".prior_step = " + std::to_string(p.prior_step) + "; must be finite and >= 0");
     if (!std::isfinite(p.momentum)) e.push_back(at + ".momentum = " + std::to_string(p.momentum) + "; must be finite");
   }
-  throw_if_invalid(e);
+  throw_if_invalid(parse_field_messages(e));
 }
 
 const IterationParameters& UnrolledScheme::parameters(int iteration) const {
