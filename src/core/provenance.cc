@@ -7,6 +7,7 @@
 #include <fstream>
 
 #include "recofold/core/error.h"
+#include "recofold/core/hash.h"
 
 namespace recofold {
 
@@ -26,18 +27,13 @@ std::string Provenance::utc_timestamp() {
 std::string file_checksum(const std::string& path) {
   std::ifstream in(path, std::ios::binary);
   if (!in) throw InputError(path, "", "cannot open file for checksum");
-  uint64_t h = 0xcbf29ce484222325ULL;
+  uint64_t h = kFnv1aOffsetBasis;
   char buf[1 << 16];
   while (in) {
     in.read(buf, sizeof buf);
-    for (std::streamsize i = 0; i < in.gcount(); ++i) {
-      h ^= static_cast<unsigned char>(buf[i]);
-      h *= 0x100000001b3ULL;
-    }
+    h = fnv1a(buf, static_cast<size_t>(in.gcount()), h);
   }
-  char out[17];
-  std::snprintf(out, sizeof out, "%016llx", static_cast<unsigned long long>(h));
-  return out;
+  return hex16(h);
 }
 
 }  // namespace recofold
