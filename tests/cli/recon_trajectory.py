@@ -83,6 +83,9 @@ def file_layout(tmp):
         check("closed-form" in text(a["kspace_source"]), "exact (closed-form) samples by default")
         check(text(f["truth"].attrs["kind"]) == "analytic", "truth kind analytic")
         check(f["mri/coil_maps"].shape == (COILS, N, N), "coil maps [C, ny, nx]")
+    out = must_succeed(["info", "meas.h5"], tmp)
+    check(f"trajectory (/mri/trajectory): radial-golden on {N}x{N}, {SPOKES} readouts x {READOUT} samples = {m} points"
+          in out.stdout, "info prints the trajectory facts")
     # --truth discrete: the NUFFT of the raster, close to but not the closed form (rasterisation error).
     must_succeed(["simulate", "--phantom", "ph.h5", "--modality", "mri", "--coils", str(COILS), "--trajectory", "tr.h5",
                   "--truth", "discrete", "--out", "disc.h5"], tmp)
