@@ -3,6 +3,7 @@
 #include "recofold/acquire/mri_trajectory.h"
 
 #include <cmath>
+#include <algorithm>
 #include <memory>
 
 #include "recofold/acquire/exact_kspace.h"
@@ -56,6 +57,45 @@ TrajectorySamples simulate_mri_trajectory(const Phantom* analytic, const ImageC&
   s.kspace = std::move(k);
   s.noise_sigma = sigma;
   return s;
+}
+
+Measurement simulate_mri_trajectory_measurement(const Phantom* analytic, const ImageC& raster, double pixel_spacing_mm,
+                                                const Trajectory& t, const MriSimulationOptions& o,
+                                                const NufftOptions& nufft) {
+  if (static_cast<Index>(t.dcf.size()) != t.points())
+    throw InputError("", "trajectory",
+                     "the density compensation has " + std::to_string(t.dcf.size()) + " weights for " +
+                         std::to_string(t.points()) + " points");
+  TrajectorySamples s = simulate_mri_trajectory(analytic, raster, t, o, nufft);
+  const Index ny = raster.rows(), nx = raster.cols(), n = ny * nx;
+  Measurement m;
+  m.modality = Modality::kMri;
+  m.ny = ny;
+  m.nx = nx;
+  m.pixel_spacing_mm[0] = m.pixel_spacing_mm[1] = pixel_spacing_mm;
+  MriData d;
+  d.kspace = std::move(s.kspace);
+  d.coil_maps = std::move(s.coil_maps);
+  d.noise_sigma = s.noise_sigma;
+  d.pattern = std::string(to_string(t.kind));
+  d.acceleration = static_cast<double>(n) / static_cast<double>(t.points());
+  d.coil_maps_source = "synthetic";
+  d.trajectory = t;
+  if (std::isfinite(o.snr_db)) d.numbers["snr_db"] = o.snr_db;
+  d.numbers["coil_correlation"] = o.coil_correlation;
+  d.numbers["seed"] = static_cast<double>(o.seed);
+  d.numbers["coil_ring_radius"] = o.coil_array.ring_radius;
+  d.texts["kspace_source"] = s.kspace_source;
+  d.texts["truth"] = std::string(to_string(o.truth));
+  m.mri = std::move(d);
+  NdArray<cfloat> truth(Shape{ny, nx});
+  std::copy(raster.data(), raster.data() + n, truth.data.begin());
+  m.truth = std::move(truth);
+  m.truth_is_complex = analytic ? analytic->is_complex() : false;
+  if (!analytic)
+    for (Index i = 0; i < n && !m.truth_is_complex; ++i) m.truth_is_complex = raster.data()[i].imag() != 0.0f;
+  m.truth_kind = std::string(to_string(o.truth));
+  return m;
 }
 
 }  // namespace recofold

@@ -3,6 +3,7 @@
 #include <sys/stat.h>
 
 #include <algorithm>
+#include <cmath>
 #include <cstdio>
 #include <memory>
 #include <sstream>
@@ -13,6 +14,7 @@
 #include "recofold/core/error.h"
 #include "recofold/io/h5_file.h"
 #include "recofold/io/image_export.h"
+#include "recofold/io/trajectory_file.h"
 
 namespace recofold::cli {
 
@@ -75,12 +77,36 @@ void walk(const H5Reader& r, const std::string& group, std::ostream& out) {
   }
 }
 
+// One line of facts about an embedded trajectory (a trajectory file or a non-Cartesian measurement).
+void trajectory_facts(const H5Reader& r, const std::string& group, std::ostream& out) {
+  if (!r.has(group) || !r.is_group(group) || !r.has(group + "/k")) return;
+  try {
+    const Trajectory t = read_trajectory_group(r, group, 0, 0);
+    double kmax = 0.0;
+    for (Index j = 0; j < t.points(); ++j) kmax = std::max(kmax, std::hypot(t.kx[j], t.ky[j]));
+    char buf[320];
+    std::snprintf(buf, sizeof buf,
+                  "trajectory (%s): %s on %lldx%lld, %lld readouts x %lld samples = %lld points, |k| <= %.4g cycles "
+                  "per FOV, dcf %s, Cartesian-equivalent R %.3f",
+                  group.c_str(), std::string(to_string(t.kind)).c_str(), static_cast<long long>(t.ny),
+                  static_cast<long long>(t.nx), static_cast<long long>(t.readouts),
+                  static_cast<long long>(t.samples_per_readout), static_cast<long long>(t.points()), kmax,
+                  t.dcf.empty() ? "absent" : t.dcf_method.c_str(),
+                  static_cast<double>(t.ny * t.nx) / static_cast<double>(t.points()));
+    out << buf << "\n";
+  } catch (const InputError& e) {
+    out << "trajectory (" << group << "): not valid: " << one_line(e.what()) << "\n";
+  }
+}
+
 void info_hdf5(const std::string& path, std::ostream& out) {
   H5Reader r(path);
   out << path << ": HDF5 file\n";
   out << "/  (root)\n";
   print_attrs(r, "/", "    ", out);
   walk(r, "/", out);
+  trajectory_facts(r, "/trajectory", out);
+  trajectory_facts(r, "/mri/trajectory", out);
 }
 
 void info_itk(const std::string& path, std::ostream& out) {

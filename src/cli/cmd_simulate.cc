@@ -13,6 +13,8 @@
 #include "recofold/acquire/image_problem.h"
 #include "simulate_from_cli.h"
 #include "recofold/acquire/mri.h"
+#include "recofold/acquire/mri_trajectory.h"
+#include "trajectory_cli.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
 #include "recofold/io/image_export.h"
@@ -29,7 +31,7 @@ const char* kImageGroup = "Inpainting (--modality inpaint)";
 const char* kNoiseGroup = "Noise (--modality mri | denoise | inpaint)";
 
 struct SimulateFlags {
-  std::string phantom, modality, truth, out, mask, pattern = "random", pixel_mask, from;
+  std::string phantom, modality, truth, out, mask, pattern = "random", pixel_mask, from, trajectory;
   double keep = 0.5;
   int block_size = 8;
   int index = 0;
@@ -64,6 +66,7 @@ const std::vector<FieldFlag>& mri_simulate_flags() {
       {"mri.oversampling", "--oversampling"},
       {"mri.", "--coils"},
       {"mask", "--mask"},
+      {"trajectory", "--trajectory"},
       {"truth", "--truth"},
       {"raster", "--phantom"},
   };
@@ -115,6 +118,81 @@ Measurement simulate_image_cli(const SimulateFlags& f, const CLI::App& sub, Moda
   }
 }
 
+MriSimulationOptions mri_options_from_flags(const SimulateFlags& f, bool analytic_truth) {
+  MriSimulationOptions o;
+  o.coil_array.coils = f.coils;
+  o.truth = analytic_truth ? MriTruth::kAnalytic : MriTruth::kDiscrete;
+  o.oversampling = f.oversampling;
+  o.noise_sigma = f.noise;
+  o.snr_db = f.snr_db;
+  o.coil_correlation = f.coil_correlation;
+  o.seed = f.seed;
+  return o;
+}
+
+// MRI on the Cartesian grid (--mask, or fully sampled).
+Measurement simulate_mri_cartesian_cli(const SimulateFlags& f, const Phantom* analytic, const ImageC& raster,
+                                       const double spacing[2], bool analytic_truth, Provenance& prov,
+                                       std::string& summary) {
+  const Index ny = raster.rows(), nx = raster.cols();
+  SamplingMask mask;
+  std::string mask_note;
+  if (f.mask.empty()) {
+    mask.mask = NdArray<uint8_t>(Shape{ny, nx}, 1);
+    mask.pattern = "full";
+    mask.samples = ny * nx;
+    mask.achieved_acceleration = 1.0;
+  } else {
+    // A mask file of the image's shape, or a sampling spec .toml drawn on the image grid.
+    mask = mask_for_grid(f.mask, ny, nx, prov, mask_note);
+    if (mask.achieved_acceleration > 64.0)
+      throw InputError(f.mask, "--mask",
+                       "acceleration R = " + std::to_string(mask.achieved_acceleration) + " is above 64");
+  }
+  Measurement m;
+  try {
+    m = simulate_mri(analytic, raster, spacing[0], mask, mri_options_from_flags(f, analytic_truth));
+  } catch (const InputError& e) {
+    throw_with_flags(e, mri_simulate_flags());
+  }
+  m.pixel_spacing_mm[0] = spacing[0];
+  m.pixel_spacing_mm[1] = spacing[1];
+  char buf[256];
+  std::snprintf(buf, sizeof buf, "MRI k-space [%d, %lld, %lld], %s, R %.3f, noise sigma %.4g", f.coils,
+                static_cast<long long>(ny), static_cast<long long>(nx), mask.pattern.c_str(),
+                mask.achieved_acceleration, m.mri->noise_sigma);
+  summary = buf;
+  if (!mask_note.empty()) summary += " (" + mask_note + ")";
+  return m;
+}
+
+// MRI at the points of --trajectory (non-Cartesian: kspace [coils, M]).
+Measurement simulate_mri_trajectory_cli(const SimulateFlags& f, const Phantom* analytic, const ImageC& raster,
+                                        const double spacing[2], bool analytic_truth, Provenance& prov,
+                                        std::string& summary) {
+  const Index ny = raster.rows(), nx = raster.cols();
+  const Trajectory t = load_trajectory(f.trajectory, "--trajectory", ny, nx);
+  prov.extra["trajectory_file"] = f.trajectory;
+  prov.extra["trajectory_checksum_fnv1a64"] = file_checksum(f.trajectory);
+  Measurement m;
+  try {
+    m = simulate_mri_trajectory_measurement(analytic, raster, spacing[0], t, mri_options_from_flags(f, analytic_truth));
+  } catch (const InputError& e) {
+    throw_with_flags(e, mri_simulate_flags());
+  }
+  m.pixel_spacing_mm[0] = spacing[0];
+  m.pixel_spacing_mm[1] = spacing[1];
+  char buf[320];
+  std::snprintf(buf, sizeof buf,
+                "MRI k-space [%d, %lld] at %s trajectory points (%lld readouts x %lld), Cartesian-equivalent R %.3f, "
+                "noise sigma %.4g",
+                f.coils, static_cast<long long>(t.points()), std::string(to_string(t.kind)).c_str(),
+                static_cast<long long>(t.readouts), static_cast<long long>(t.samples_per_readout),
+                m.mri->acceleration, m.mri->noise_sigma);
+  summary = buf;
+  return m;
+}
+
 void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
   if (!f.from.empty()) {
     run_simulate_from(SimulateFromFlags{f.from, f.mask, f.out, f.noise, f.seed}, sub, ctx);
@@ -124,11 +202,20 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
   if (f.phantom.empty()) throw InputError("", "--phantom", "is required (or --from MEAS.h5 to undersample measured data)");
   if (f.modality.empty()) throw InputError("", "--modality", "is required with --phantom (mri, ct, denoise or inpaint)");
   require_output_path(f.out, "--out", {".h5"});
-  require_distinct_output(f.out, "--out", {f.phantom, f.mask});
+  require_distinct_output(f.out, "--out", {f.phantom, f.mask, f.trajectory});
   const std::optional<Modality> modality = parse_modality(f.modality);
   if (!modality) throw InputError("", "--modality", "'" + f.modality + "'; expected " + accepted_modalities());
   const bool image_problem = *modality == Modality::kDenoise || *modality == Modality::kInpaint;
   refuse_other_modality_flags(sub, *modality);
+  if (!f.trajectory.empty()) {
+    if (!f.mask.empty())
+      throw InputError("", "--trajectory", "give either --mask (Cartesian) or --trajectory (non-Cartesian), not both");
+    if (sub.get_option("--oversampling")->count() > 0)
+      throw InputError("", "--oversampling",
+                       "does not apply with --trajectory (its exact simulation evaluates the closed form at the "
+                       "points; there is no raster)");
+    if (!file_exists(f.trajectory)) throw InputError(f.trajectory, "--trajectory", not_a_file_reason(f.trajectory));
+  }
   if (!f.truth.empty() && f.truth != "analytic" && f.truth != "discrete")
     throw InputError("", "--truth", "'" + f.truth + "'; expected analytic or discrete");
   if (image_problem && f.truth == "analytic")
@@ -182,42 +269,10 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
     std::copy(raster.data(), raster.data() + n, pix.data.begin());
     m = simulate_ct_measurement(f.ct, analytic.get(), pix, spacing, analytic_truth, f.seed);
     summary = "CT sinogram " + m.ct->sinogram.shape.to_string();
+  } else if (!f.trajectory.empty()) {
+    m = simulate_mri_trajectory_cli(f, analytic.get(), raster, rec.pixel_spacing_mm, analytic_truth, prov, summary);
   } else {
-    SamplingMask mask;
-    std::string mask_note;
-    if (f.mask.empty()) {
-      mask.mask = NdArray<uint8_t>(Shape{ny, nx}, 1);
-      mask.pattern = "full";
-      mask.samples = n;
-      mask.achieved_acceleration = 1.0;
-    } else {
-      // A mask file of the image's shape, or a sampling spec .toml drawn on the image grid.
-      mask = mask_for_grid(f.mask, ny, nx, prov, mask_note);
-      if (mask.achieved_acceleration > 64.0)
-        throw InputError(f.mask, "--mask",
-                         "acceleration R = " + std::to_string(mask.achieved_acceleration) + " is above 64");
-    }
-    MriSimulationOptions o;
-    o.coil_array.coils = f.coils;
-    o.truth = analytic_truth ? MriTruth::kAnalytic : MriTruth::kDiscrete;
-    o.oversampling = f.oversampling;
-    o.noise_sigma = f.noise;
-    o.snr_db = f.snr_db;
-    o.coil_correlation = f.coil_correlation;
-    o.seed = f.seed;
-    try {
-      m = simulate_mri(analytic.get(), raster, spacing, mask, o);
-    } catch (const InputError& e) {
-      throw_with_flags(e, mri_simulate_flags());
-    }
-    m.pixel_spacing_mm[0] = rec.pixel_spacing_mm[0];
-    m.pixel_spacing_mm[1] = rec.pixel_spacing_mm[1];
-    char buf[256];
-    std::snprintf(buf, sizeof buf, "MRI k-space [%d, %lld, %lld], %s, R %.3f, noise sigma %.4g", f.coils,
-                  static_cast<long long>(ny), static_cast<long long>(nx), mask.pattern.c_str(),
-                  mask.achieved_acceleration, m.mri->noise_sigma);
-    summary = buf;
-    if (!mask_note.empty()) summary += " (" + mask_note + ")";
+    m = simulate_mri_cartesian_cli(f, analytic.get(), raster, rec.pixel_spacing_mm, analytic_truth, prov, summary);
   }
   m.provenance = prov;
   write_measurement_file(f.out, m);
@@ -272,6 +327,11 @@ void register_cmd_simulate(CLI::App& app, Context& ctx) {
       ->group(kMriGroup);
   sub->add_option("--oversampling", f->oversampling,
                   "MRI multi-coil analytic: raster object x coil map this many times finer, 2..8 (default 2)")
+      ->group(kMriGroup);
+  sub->add_option("--trajectory", f->trajectory,
+                  "MRI: sample at the points of a non-Cartesian trajectory (.h5 from `recofold trajectory`, or "
+                  ".txt/.csv lines 'kx ky [dcf]' in cycles per FOV) instead of a Cartesian --mask; exact by default "
+                  "(closed form of object x coil series at each point), --truth discrete: NUFFT of the raster")
       ->group(kMriGroup);
   add_ct_simulate_flags(*sub, f->ct);
   sub->footer(std::string(kResearchUseLine));

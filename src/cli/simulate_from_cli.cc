@@ -85,6 +85,9 @@ void run_simulate_from(const SimulateFromFlags& f, const CLI::App& sub, const Co
   if (full.modality != Modality::kMri || !full.mri)
     throw InputError(f.from, "--from",
                      "is a " + std::string(to_string(full.modality)) + " measurement; --from needs MRI k-space");
+  if (full.mri->non_cartesian())
+    throw InputError(f.from, "--from",
+                     "holds non-Cartesian samples (/mri/trajectory); --from undersamples Cartesian k-space with a mask");
   Provenance prov = make_provenance(ctx);
   for (const auto& [k, v] : full.provenance.extra) prov.extra["from." + k] = v;
   prov.extra["from_file"] = f.from;

@@ -47,4 +47,11 @@ std::optional<FanDetector> parse_fan_detector(std::string_view text) {
   return std::nullopt;
 }
 
+Index MriData::sample_count() const {
+  if (trajectory) return trajectory->points();
+  Index sampled = 0;
+  for (uint8_t v : mask.data) sampled += v != 0;
+  return sampled;
+}
+
 }  // namespace recofold

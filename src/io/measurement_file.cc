@@ -9,6 +9,7 @@
 #include "recofold/core/checks.h"
 #include "recofold/core/error.h"
 #include "recofold/io/h5_file.h"
+#include "recofold/io/trajectory_file.h"
 
 namespace recofold {
 
@@ -120,6 +121,65 @@ ImageProblemData read_observed(const H5Reader& r, const Checked& c, const Shape&
   return d;
 }
 
+// The /mri group: Cartesian (kspace [C, ny, nx] + mask) or non-Cartesian
+// (kspace [C, M] + /mri/trajectory, no mask).
+MriData read_mri(const H5Reader& r, const Checked& c, Index ny, Index nx) {
+  const std::string& path = r.file();
+  if (!r.has("/mri")) c.bad("/mri", "group is missing (modality is mri)");
+  MriData d;
+  const bool non_cartesian = r.has("/mri/trajectory");
+  if (non_cartesian) {
+    d.trajectory = read_trajectory_group(r, "/mri/trajectory", ny, nx);
+    if (d.trajectory->dcf.empty())
+      c.bad("/mri/trajectory/dcf", "dataset is missing (a measurement carries the density compensation of its "
+                                   "trajectory, one weight per point)");
+    if (r.has("/mri/mask"))
+      c.bad("/mri/mask", "is present in a non-Cartesian measurement (/mri/trajectory lists the sampled points)");
+  }
+  if (!r.has("/mri/kspace")) c.bad("/mri/kspace", "dataset is missing");
+  const Shape ks = r.shape("/mri/kspace");
+  const Index m_points = non_cartesian ? d.trajectory->points() : 0;
+  if (non_cartesian && (ks.rank() != 2 || ks[0] < 1 || ks[1] != m_points))
+    c.bad("/mri/kspace", "shape " + ks.to_string() + ", expected [coils >= 1, " + std::to_string(m_points) +
+                             "] (one sample per point of /mri/trajectory/k)");
+  if (!non_cartesian) {
+    require_rank(ks, 3, 3, path, "/mri/kspace");
+    if (ks[0] < 1 || ks[1] != ny || ks[2] != nx)
+      c.bad("/mri/kspace", "shape " + ks.to_string() + ", expected [coils >= 1, " + std::to_string(ny) + ", " +
+                               std::to_string(nx) + "] (image_shape)");
+  }
+  if (!r.is_complex("/mri/kspace")) c.bad("/mri/kspace", "type " + r.type_name("/mri/kspace") + ", expected complex64");
+  d.kspace = r.read_complex("/mri/kspace");
+  require_finite(d.kspace.ptr(), d.kspace.size(), path, "/mri/kspace");
+  if (!non_cartesian) {
+    require_shape(r.shape("/mri/mask"), Shape{ny, nx}, path, "/mri/mask");
+    d.mask = r.read_u8("/mri/mask");
+    for (Index i = 0; i < d.mask.size(); ++i)
+      if (d.mask.data[static_cast<size_t>(i)] > 1)
+        c.bad("/mri/mask", "value " + std::to_string(d.mask.data[static_cast<size_t>(i)]) + " at flat index " +
+                               std::to_string(i) + "; the mask holds only 0 and 1");
+    require_any_nonzero(d.mask.ptr(), d.mask.size(), path, "/mri/mask",
+                        "at least one sampled k-space location (value 1)");
+  }
+  const Shape maps_shape{ks[0], ny, nx};
+  require_shape(r.shape("/mri/coil_maps"), maps_shape, path, "/mri/coil_maps");
+  d.coil_maps = r.read_complex("/mri/coil_maps");
+  require_finite(d.coil_maps.ptr(), d.coil_maps.size(), path, "/mri/coil_maps");
+  require_coil_maps_nonzero(d.coil_maps.ptr(), ks[0], ny * nx, path, "/mri/coil_maps");
+  if (r.has("/mri/spoke_angles_rad")) {
+    const NdArray<double> a = r.read_double("/mri/spoke_angles_rad");
+    require_rank(a.shape, 1, 1, path, "/mri/spoke_angles_rad");
+    require_finite(a.ptr(), a.size(), path, "/mri/spoke_angles_rad");
+    d.spoke_angles_rad = a.data;
+  }
+  d.noise_sigma = c.number("/mri", "noise_sigma", true, 0.0, 0.0);
+  d.pattern = c.text("/mri", "pattern", false, "");
+  d.acceleration = c.number("/mri", "acceleration", false, 1.0, 0.0);
+  d.coil_maps_source = c.text("/mri", "coil_maps_source", false, "synthetic");
+  c.extras("/mri", kMriAttrs, d.numbers, d.texts);
+  return d;
+}
+
 }  // namespace
 
 void write_measurement_file(const std::string& path, const Measurement& m) {
@@ -135,7 +195,17 @@ void write_measurement_file(const std::string& path, const Measurement& m) {
   if (m.mri) {
     const MriData& d = *m.mri;
     w.write("/mri/kspace", d.kspace);
-    w.write("/mri/mask", d.mask);
+    if (d.trajectory) {
+      const Index m_points = d.trajectory->points();
+      if (d.kspace.shape.rank() != 2 || d.kspace.shape[1] != m_points ||
+          static_cast<Index>(d.trajectory->dcf.size()) != m_points)
+        throw WorkError("cannot write " + path + ": non-Cartesian k-space " + d.kspace.shape.to_string() +
+                        " or its " + std::to_string(d.trajectory->dcf.size()) + " weights do not match the " +
+                        std::to_string(m_points) + " trajectory points");
+      write_trajectory_group(w, "/mri/trajectory", *d.trajectory);
+    } else {
+      w.write("/mri/mask", d.mask);
+    }
     w.write("/mri/coil_maps", d.coil_maps);
     if (!d.spoke_angles_rad.empty()) w.write("/mri/spoke_angles_rad", to_nd(d.spoke_angles_rad));
     w.write_attr("/mri", "noise_sigma", d.noise_sigma);
@@ -204,39 +274,7 @@ Measurement read_measurement_file(const std::string& path) {
   }
 
   if (m.modality == Modality::kMri) {
-    if (!r.has("/mri")) c.bad("/mri", "group is missing (modality is mri)");
-    MriData d;
-    const Shape ks = r.shape("/mri/kspace");
-    require_rank(ks, 3, 3, path, "/mri/kspace");
-    if (ks[0] < 1 || ks[1] != m.ny || ks[2] != m.nx)
-      c.bad("/mri/kspace", "shape " + ks.to_string() + ", expected [coils >= 1, " + std::to_string(m.ny) + ", " +
-                               std::to_string(m.nx) + "] (image_shape)");
-    if (!r.is_complex("/mri/kspace")) c.bad("/mri/kspace", "type " + r.type_name("/mri/kspace") + ", expected complex64");
-    d.kspace = r.read_complex("/mri/kspace");
-    require_finite(d.kspace.ptr(), d.kspace.size(), path, "/mri/kspace");
-    require_shape(r.shape("/mri/mask"), image_shape, path, "/mri/mask");
-    d.mask = r.read_u8("/mri/mask");
-    for (Index i = 0; i < d.mask.size(); ++i)
-      if (d.mask.data[static_cast<size_t>(i)] > 1)
-        c.bad("/mri/mask", "value " + std::to_string(d.mask.data[static_cast<size_t>(i)]) + " at flat index " +
-                               std::to_string(i) + "; the mask holds only 0 and 1");
-    require_any_nonzero(d.mask.ptr(), d.mask.size(), path, "/mri/mask", "at least one sampled k-space location (value 1)");
-    require_shape(r.shape("/mri/coil_maps"), ks, path, "/mri/coil_maps");
-    d.coil_maps = r.read_complex("/mri/coil_maps");
-    require_finite(d.coil_maps.ptr(), d.coil_maps.size(), path, "/mri/coil_maps");
-    require_coil_maps_nonzero(d.coil_maps.ptr(), ks[0], m.ny * m.nx, path, "/mri/coil_maps");
-    if (r.has("/mri/spoke_angles_rad")) {
-      const NdArray<double> a = r.read_double("/mri/spoke_angles_rad");
-      require_rank(a.shape, 1, 1, path, "/mri/spoke_angles_rad");
-      require_finite(a.ptr(), a.size(), path, "/mri/spoke_angles_rad");
-      d.spoke_angles_rad = a.data;
-    }
-    d.noise_sigma = c.number("/mri", "noise_sigma", true, 0.0, 0.0);
-    d.pattern = c.text("/mri", "pattern", false, "");
-    d.acceleration = c.number("/mri", "acceleration", false, 1.0, 0.0);
-    d.coil_maps_source = c.text("/mri", "coil_maps_source", false, "synthetic");
-    c.extras("/mri", kMriAttrs, d.numbers, d.texts);
-    m.mri = std::move(d);
+    m.mri = read_mri(r, c, m.ny, m.nx);
   } else if (m.modality == Modality::kDenoise || m.modality == Modality::kInpaint) {
     m.image = read_observed(r, c, image_shape, m.modality);
   } else {

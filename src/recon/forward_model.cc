@@ -6,21 +6,33 @@
 #include "recofold/ops/fourier.h"
 #include "recofold/ops/joseph_projector.h"
 #include "recofold/ops/pixel_mask.h"
+#include "recofold/recon/gridding.h"
 
 namespace recofold {
+
+std::shared_ptr<const NufftPlan> trajectory_plan(const Measurement& m, const std::string& file) {
+  if (!m.mri || !m.mri->trajectory) throw InputError(file, "/mri/trajectory", "the measurement is not non-Cartesian");
+  const Trajectory& t = *m.mri->trajectory;
+  if (t.ny != m.ny || t.nx != m.nx)
+    throw InputError(file, "/mri/trajectory",
+                     "grid " + Shape{t.ny, t.nx}.to_string() + " differs from the measurement's " +
+                         Shape{m.ny, m.nx}.to_string());
+  check_kspace_points(t.kx, t.ky, m.ny, m.nx, file, "/mri/trajectory/k");
+  return std::make_shared<const NufftPlan>(m.ny, m.nx, t.kx, t.ky, NufftOptions{});
+}
 
 ForwardModel make_forward_model(const Measurement& m, const std::string& file) {
   ForwardModel f;
   switch (m.modality) {
     case Modality::kMri: {
       if (!m.mri) throw InputError(file, "/mri", "an mri measurement without MRI data");
+      if (m.mri->non_cartesian()) return make_trajectory_forward_model(trajectory_plan(m, file), m.mri->kspace,
+                                                                      m.mri->coil_maps, m.mri->noise_sigma, file);
       f.op = make_sense_operator(*m.mri, file);
       f.y = kspace_vector(*m.mri);
       f.noise_sigma = m.mri->noise_sigma;
       f.complex_noise = true;
-      Index sampled = 0;
-      for (uint8_t v : m.mri->mask.data) sampled += v != 0;
-      f.measured_values = sampled * m.mri->kspace.shape[0];
+      f.measured_values = m.mri->sample_count() * m.mri->kspace.shape[0];
       return f;
     }
     case Modality::kCt: {

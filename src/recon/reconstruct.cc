@@ -18,6 +18,7 @@
 #include "recofold/recon/fbp.h"
 #include "recofold/recon/fista.h"
 #include "recofold/recon/forward_model.h"
+#include "recofold/recon/gridding.h"
 #include "recofold/recon/ista.h"
 #include "recofold/recon/lambda_discrepancy.h"
 #include "recofold/recon/lambda_held_out.h"
@@ -132,6 +133,34 @@ std::string spec_summary(const ReconSpec& r, const LambdaRecord& l, int iteratio
   return buf;
 }
 
+// zero-filled of non-Cartesian data: gridding, the DCF-weighted adjoint NUFFT (recon/gridding.h).
+void run_gridding(const Measurement& m, Reconstruction& out, const std::string& file) {
+  const ReconSpec& r = out.spec;
+  const MriData& mri = *m.mri;
+  const CoilCombine combine = *r.zero_filled.combine;
+  if (combine == CoilCombine::kSensitivity && *r.zero_filled.maps == CoilMapSource::kEstimated)
+    throw InputError(file, "zero_filled.maps",
+                     "estimated maps need a Cartesian calibration region; this measurement is non-Cartesian "
+                     "(/mri/trajectory): use the measured maps or the sos combination");
+  const std::shared_ptr<const NufftPlan> plan = trajectory_plan(m, file);
+  const Trajectory& t = *mri.trajectory;
+  out.image = gridding(*plan, t.dcf, mri.kspace, mri.coil_maps, combine, file);
+  out.operator_name = "gridding, NUFFT " + plan->kernel().to_string();
+  out.text_attrs["combine"] = std::string(to_string(combine));
+  if (combine == CoilCombine::kSensitivity) out.text_attrs["coil_maps"] = mri.coil_maps_source;
+  out.text_attrs["dcf_method"] = t.dcf_method;
+  out.text_attrs["trajectory"] = std::string(to_string(t.kind));
+  char buf[320];
+  std::snprintf(buf, sizeof buf,
+                "gridding (DCF-weighted adjoint NUFFT, dcf %s), %s coil combination%s, %lld coils, %lld %s points, "
+                "Cartesian-equivalent R %.3f",
+                t.dcf_method.c_str(), std::string(to_string(combine)).c_str(),
+                combine == CoilCombine::kSensitivity ? (" (" + mri.coil_maps_source + " maps)").c_str() : "",
+                static_cast<long long>(mri.kspace.shape[0]), static_cast<long long>(t.points()),
+                std::string(to_string(t.kind)).c_str(), mri.acceleration);
+  out.description = buf;
+}
+
 void run_zero_filled(const Measurement& m, Reconstruction& out, const std::string& file) {
   const ReconSpec& r = out.spec;
   if (m.modality == Modality::kDenoise || m.modality == Modality::kInpaint) {
@@ -147,6 +176,10 @@ void run_zero_filled(const Measurement& m, Reconstruction& out, const std::strin
     throw InputError(file, "method", "zero-filled does not run on " + std::string(to_string(m.modality)) +
                                          " measurements");
   if (!m.mri) throw InputError(file, "/mri", "an mri measurement without MRI data");
+  if (m.mri->non_cartesian()) {
+    run_gridding(m, out, file);
+    return;
+  }
   MriData mri = *m.mri;
   const CoilCombine combine = *r.zero_filled.combine;
   if (combine == CoilCombine::kSensitivity && *r.zero_filled.maps == CoilMapSource::kEstimated) {
@@ -177,6 +210,10 @@ void run_fbp(const Measurement& m, Reconstruction& out, const std::string& file)
 }
 
 void run_unrolled(const Measurement& m, Reconstruction& out, const std::string& file) {
+  if (m.mri && m.mri->non_cartesian())
+    throw InputError(file, "method",
+                     "unrolled models run on Cartesian k-space; this measurement is non-Cartesian (/mri/trajectory): "
+                     "use zero-filled (gridding), cg, ista, fista, admm or pdhg");
   const LearnedBackendLookup found = find_learned_backend();
   if (!found.backend) throw InputError(file, "method", "unrolled: " + found.reason);
   LearnedReconstruction l = found.backend->reconstruct(m, out.spec.model);

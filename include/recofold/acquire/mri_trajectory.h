@@ -6,6 +6,7 @@
 #include <string>
 
 #include "recofold/acquire/mri.h"
+#include "recofold/core/measurement.h"
 #include "recofold/core/trajectory.h"
 #include "recofold/core/types.h"
 #include "recofold/ops/coil_maps.h"
@@ -37,5 +38,15 @@ struct TrajectorySamples {
 // SNR: σ from snr_db as in sigma_from_snr_db, over all M samples of all coils.
 TrajectorySamples simulate_mri_trajectory(const Phantom* analytic, const ImageC& raster, const Trajectory& t,
                                           const MriSimulationOptions& options, const NufftOptions& nufft = {});
+
+// The measurement record of simulate_mri_trajectory: MriData with the
+// trajectory (its dcf must hold one weight per point: InputError
+// "trajectory" otherwise), kspace [C, M], the synthetic coil maps, no mask,
+// pattern = the trajectory kind, acceleration = ny nx / M, numbers/texts as in
+// simulate_mri (snr_db, coil_correlation, seed, coil_ring_radius; kspace_source,
+// truth; discrete: kspace_source names the NUFFT kernel); the truth is the raster.
+Measurement simulate_mri_trajectory_measurement(const Phantom* analytic, const ImageC& raster, double pixel_spacing_mm,
+                                                const Trajectory& t, const MriSimulationOptions& options,
+                                                const NufftOptions& nufft = {});
 
 }  // namespace recofold

@@ -7,6 +7,7 @@
 
 #include "recofold/core/measurement.h"
 #include "recofold/ops/linear_operator.h"
+#include "recofold/ops/nufft.h"
 
 namespace recofold {
 
@@ -15,6 +16,12 @@ namespace recofold {
 //        FFT x the record's coil maps), y = the sampled k-space [coils, ny, nx];
 //        complex noise of std noise_sigma per real and imaginary part on the
 //        sampled points (measured_values = samples x coils);
+//        non-Cartesian (mri->trajectory set): A = the SENSE-NUFFT of
+//        ops/nufft.h on the trajectory's points (default NufftOptions,
+//        ε = 1e-4; normal() by Toeplitz embedding, unweighted: the dcf is not
+//        used), y = kspace [coils, M] coil by coil, noise as above
+//        (measured_values = M x coils), through make_trajectory_forward_model
+//        (recon/gridding.h);
 //   ct   A = Joseph's projector of ops/joseph_projector.h with the attenuation
 //        scale mu, y = the sinogram [views, detectors] (real); the image is in
 //        phantom intensity units; Poisson noise with photons_per_ray
@@ -37,5 +44,10 @@ struct ForwardModel {
 // when the record is inconsistent (no data of its modality, shapes that
 // disagree). This is the only place a modality is mapped to an operator.
 ForwardModel make_forward_model(const Measurement& m, const std::string& file = "");
+
+// The NUFFT plan of a non-Cartesian measurement's points on its grid
+// (default NufftOptions). InputError "/mri/trajectory" when the record has
+// none or its grid differs, "/mri/trajectory/k" for points outside the band.
+std::shared_ptr<const NufftPlan> trajectory_plan(const Measurement& m, const std::string& file = "");
 
 }  // namespace recofold

@@ -57,6 +57,9 @@ struct Reconstruction {
 
 // Reconstructs `m` as `spec` says, after spec.with_defaults(m.modality):
 //   zero-filled  mri: zero_filled() with zero_filled.combine / maps (recon/zero_filled.h);
+//                non-Cartesian mri (mri->trajectory): gridding() with the trajectory's
+//                dcf and zero_filled.combine (recon/gridding.h; estimated maps refused,
+//                InputError field "zero_filled.maps");
 //                denoise, inpaint: the observed image (0 at unobserved pixels)
 //   fbp          fbp() with fbp.filter, in intensity units (recon/fbp.h)
 //   cg .. pdhg   the forward model of make_forward_model (recon/forward_model.h),
@@ -70,7 +73,9 @@ struct Reconstruction {
 //                          recon/lambda_held_out.h), then one solve on all views;
 //                  grid    oracle: every value solved from zero (each image equals the
 //                          fixed-lambda result), the best score (hooks.oracle_score) kept.
-//   unrolled     the learned backend (recon/learned_backend.h) with spec.model.
+//                Non-Cartesian mri: the SENSE-NUFFT forward model (Toeplitz normal).
+//   unrolled     the learned backend (recon/learned_backend.h) with spec.model;
+//                non-Cartesian measurements are refused (InputError field "method").
 // Throws InvalidFields for a spec that fails validate() (field paths), and
 // InputError (file hooks.file) for a measurement that does not fit (no noise
 // for the discrepancy rule, too few views to hold out, no truth for the
