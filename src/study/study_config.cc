@@ -109,6 +109,9 @@ StudyPhantom measurement_object(const Config& t, const StudyConfig& c, const std
   if (m->modality != Modality::kMri || !m->mri)
     throw t.error("file", "'" + path + "' is a " + std::string(to_string(m->modality)) +
                               " measurement; [[measurement]] objects are fully sampled MRI k-space");
+  if (m->mri->non_cartesian())
+    throw t.error("file", "'" + path + "' holds non-Cartesian samples (/mri/trajectory); a [[measurement]] object "
+                              "must be fully sampled Cartesian k-space (it is undersampled with the study's masks)");
   Index sampled = 0;
   for (uint8_t v : m->mri->mask.data) sampled += v ? 1 : 0;
   if (sampled != m->ny * m->nx)

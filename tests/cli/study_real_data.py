@@ -117,6 +117,9 @@ def bad_inputs(tmp):
     run(["phantom", "--table", os.path.join(SRC, "phantoms", "shepp-logan-modified.toml"), "--size", "64", "--out",
          "ph.h5"], tmp)
     run(["simulate", "--phantom", "ph.h5", "--modality", "ct", "--out", "ct.h5"], tmp)
+    run(["trajectory", "--kind", "radial", "--size", "64", "--spokes", "16", "--out", "tr.h5"], tmp)
+    run(["simulate", "--phantom", "ph.h5", "--modality", "mri", "--coils", "2", "--trajectory", "tr.h5", "--out",
+         "radial.h5"], tmp)
     ds = pydicom.dcmread(MR)
     nopix = copy.deepcopy(ds)
     del nopix.PixelData
@@ -129,6 +132,8 @@ def bad_inputs(tmp):
              ["bad.toml", "full.h5", "size = [64, 64]"], tmp)
     bad_case("CT data as a measurement", before + '[[measurement]]\nfile = "ct.h5"\n' + tail,
              ["bad.toml", "ct.h5", "ct measurement"], tmp)
+    bad_case("non-Cartesian measurement", before + '[[measurement]]\nfile = "radial.h5"\n' + tail,
+             ["bad.toml", "radial.h5", "non-Cartesian", "/mri/trajectory"], tmp)
     bad_case("missing measurement file", before + '[[measurement]]\nfile = "none.h5"\n' + tail,
              ["bad.toml", "none.h5", "not found"], tmp)
     bad_case("measurement without [mri]", before + '[[measurement]]\nfile = "full.h5"\n[ct]\nviews = 30\n'
