@@ -227,6 +227,112 @@ void run_unrolled(const Measurement& m, Reconstruction& out, const std::string& 
   out.summary.solver = "unrolled";
 }
 
+// The weights' solves are recorded with their summaries (the chosen solve's history is returned).
+using SolveRecord = std::vector<std::pair<double, SolverSummary>>;
+
+// lambda from a grid by the oracle rule: the best score against the truth (or the caller's).
+void solve_oracle_grid(const Measurement& m, const ForwardModel& fm, Prior& prior, const RegularisedSolve& solve,
+                       VecC& x, Reconstruction& out, const ReconHooks& hooks) {
+  const ReconSpec& r = out.spec;
+  const std::string& file = hooks.file;
+  LambdaRecord& lr = out.lambda;
+  if (!hooks.oracle_score && !m.truth)
+    throw InputError(file, "lambda", "the oracle rule needs the measurement's truth (/truth/image)");
+  const bool magnitude = m.modality == Modality::kMri;
+  LambdaCurve curve;
+  double best = -std::numeric_limits<double>::infinity();
+  for (double lambda : r.lambda.grid) {
+    const auto t = Clock::now();
+    prior.set_weight(lambda);
+    VecC xi;
+    const SolverSummary s = solve(prior, xi);
+    const ImageC img = as_image(xi, m.ny, m.nx, fm.real_object);
+    LambdaPoint pt;
+    pt.lambda = lambda;
+    pt.objective = s.iterations.empty() ? std::nan("") : s.iterations.back().objective;
+    VecC res;
+    fm.op->apply(xi, res);
+    res -= fm.y;
+    pt.residual_squared = static_cast<double>(res.squaredNorm());
+    pt.score = hooks.oracle_score ? hooks.oracle_score(img) : truth_score(m, img, magnitude);
+    pt.iterations = static_cast<int>(s.iterations.size());
+    pt.termination = s.termination;
+    pt.seconds = since(t);
+    curve.points.push_back(pt);
+    if (pt.score > best) {
+      best = pt.score;
+      curve.best = static_cast<int>(curve.points.size()) - 1;
+      x = std::move(xi);
+      out.summary = s;
+      lr.value = lambda;
+    }
+    if (hooks.lambda) hooks.lambda->update(static_cast<int64_t>(curve.points.size()),
+                                           static_cast<int64_t>(r.lambda.grid.size()), "lambda " + format_number(lambda));
+  }
+  lr.mode = "grid";
+  lr.rule_name = "oracle";
+  lr.rule = "oracle: the best of " + std::to_string(r.lambda.grid.size()) + " values against the " +
+            (hooks.oracle_score ? "caller's score" : "measurement's truth (squared error)") +
+            " (uses the ground truth; not available in practice): lambda = " + format_number(lr.value);
+  lr.curve = std::move(curve);
+}
+
+// lambda auto on CT by held-out views: chosen, then solved on all views from the warm start.
+void solve_held_out(const Measurement& m, Prior& prior, const RegularisedSolve& solve, VecC& x, Reconstruction& out,
+                    const ReconHooks& hooks) {
+  const ReconSpec& r = out.spec;
+  LambdaRecord& lr = out.lambda;
+  const ReconSpec* rp = &r;
+  const SolveFactory factory = [rp](const LinearOperator& a, const VecC& y) {
+    return make_solver(*rp, a, y, nullptr, false);
+  };
+  HeldOutChoice h = choose_lambda_held_out_views(m, prior, factory, *r.lambda.max_solves, hooks.file, hooks.lambda);
+  lr.mode = "auto";
+  lr.rule_name = "held-out views";
+  lr.value = h.lambda;
+  lr.rule = h.rule;
+  lr.curve = std::move(h.curve);
+  prior.set_weight(h.lambda);
+  x = std::move(h.warm_start);
+  out.summary = solve(prior, x);
+}
+
+// lambda auto by the discrepancy principle (Gaussian noise sigma, or the CT transmission noise).
+void solve_discrepancy(const Measurement& m, const ForwardModel& fm, Prior& prior, const RegularisedSolve& solve,
+                       VecC& x, Reconstruction& out, const ReconHooks& hooks, const SolveRecord& runs) {
+  const ReconSpec& r = out.spec;
+  const std::string& file = hooks.file;
+  LambdaRecord& lr = out.lambda;
+  DiscrepancyOptions d;
+  d.max_steps = *r.lambda.max_solves;
+  d.complex_noise = fm.complex_noise;
+  d.measurement_count = fm.measured_values;
+  if (m.modality == Modality::kCt) {
+    if (!(m.ct->photons_per_ray > 0.0))
+      throw InputError(file, "lambda",
+                       "the discrepancy rule needs noisy data (/ct photons_per_ray is 0); give a value");
+    d.target = transmission_noise_energy(fm.y, m.ct->photons_per_ray);
+  } else {
+    d.noise_sigma = fm.noise_sigma;
+    if (!(d.noise_sigma > 0.0))
+      throw InputError(file, "lambda",
+                       "auto needs the measurement's noise sigma (it is " + format_number(d.noise_sigma) +
+                           "); give a value");
+  }
+  const DiscrepancyChoice choice = choose_lambda_discrepancy(d, *fm.op, fm.y, prior, solve, x, hooks.lambda);
+  lr.mode = "auto";
+  lr.rule_name = "discrepancy";
+  lr.value = choice.lambda;
+  lr.rule = choice.rule;
+  lr.target = choice.target;
+  lr.curve = choice.curve;
+  for (auto it = runs.rbegin(); it != runs.rend(); ++it)
+    if (it->first == choice.lambda) {
+      out.summary = it->second;
+      break;
+    }
+}
+
 void run_iterative(const Measurement& m, Reconstruction& out, const ReconHooks& hooks) {
   const ReconSpec& r = out.spec;
   const std::string& file = hooks.file;
@@ -240,7 +346,7 @@ void run_iterative(const Measurement& m, Reconstruction& out, const ReconHooks& 
                 : std::make_unique<ZeroPrior>();
 
   // Every solve's summary with its weight, so the chosen solve's history can be returned.
-  std::vector<std::pair<double, SolverSummary>> runs;
+  SolveRecord runs;
   const RegularisedSolve inner = make_solver(r, *fm.op, fm.y, hooks.iterations, hooks.record_history);
   const RegularisedSolve solve = [&inner, &runs](const Prior& p, VecC& x) {
     SolverSummary s = inner(p, x);
@@ -258,88 +364,11 @@ void run_iterative(const Measurement& m, Reconstruction& out, const ReconHooks& 
     lr.value = r.lambda.value;
     lr.rule = "given";
   } else if (mode == LambdaMode::kGrid) {
-    if (!hooks.oracle_score && !m.truth)
-      throw InputError(file, "lambda", "the oracle rule needs the measurement's truth (/truth/image)");
-    const bool magnitude = m.modality == Modality::kMri;
-    LambdaCurve curve;
-    double best = -std::numeric_limits<double>::infinity();
-    for (double lambda : r.lambda.grid) {
-      const auto t = Clock::now();
-      prior->set_weight(lambda);
-      VecC xi;
-      const SolverSummary s = solve(*prior, xi);
-      const ImageC img = as_image(xi, m.ny, m.nx, fm.real_object);
-      LambdaPoint pt;
-      pt.lambda = lambda;
-      pt.objective = s.iterations.empty() ? std::nan("") : s.iterations.back().objective;
-      VecC res;
-      fm.op->apply(xi, res);
-      res -= fm.y;
-      pt.residual_squared = static_cast<double>(res.squaredNorm());
-      pt.score = hooks.oracle_score ? hooks.oracle_score(img) : truth_score(m, img, magnitude);
-      pt.iterations = static_cast<int>(s.iterations.size());
-      pt.termination = s.termination;
-      pt.seconds = since(t);
-      curve.points.push_back(pt);
-      if (pt.score > best) {
-        best = pt.score;
-        curve.best = static_cast<int>(curve.points.size()) - 1;
-        x = std::move(xi);
-        out.summary = s;
-        lr.value = lambda;
-      }
-      if (hooks.lambda) hooks.lambda->update(static_cast<int64_t>(curve.points.size()),
-                                             static_cast<int64_t>(r.lambda.grid.size()), "lambda " + format_number(lambda));
-    }
-    lr.mode = "grid";
-    lr.rule_name = "oracle";
-    lr.rule = "oracle: the best of " + std::to_string(r.lambda.grid.size()) + " values against the " +
-              (hooks.oracle_score ? "caller's score" : "measurement's truth (squared error)") +
-              " (uses the ground truth; not available in practice): lambda = " + format_number(lr.value);
-    lr.curve = std::move(curve);
+    solve_oracle_grid(m, fm, *prior, solve, x, out, hooks);
   } else if (*r.lambda.rule == LambdaRule::kHeldOutViews) {
-    const ReconSpec* rp = &r;
-    const SolveFactory factory = [rp](const LinearOperator& a, const VecC& y) {
-      return make_solver(*rp, a, y, nullptr, false);
-    };
-    HeldOutChoice h = choose_lambda_held_out_views(m, *prior, factory, *r.lambda.max_solves, file, hooks.lambda);
-    lr.mode = "auto";
-    lr.rule_name = "held-out views";
-    lr.value = h.lambda;
-    lr.rule = h.rule;
-    lr.curve = std::move(h.curve);
-    prior->set_weight(h.lambda);
-    x = std::move(h.warm_start);
-    out.summary = solve(*prior, x);
+    solve_held_out(m, *prior, solve, x, out, hooks);
   } else {
-    DiscrepancyOptions d;
-    d.max_steps = *r.lambda.max_solves;
-    d.complex_noise = fm.complex_noise;
-    d.measurement_count = fm.measured_values;
-    if (m.modality == Modality::kCt) {
-      if (!(m.ct->photons_per_ray > 0.0))
-        throw InputError(file, "lambda",
-                         "the discrepancy rule needs noisy data (/ct photons_per_ray is 0); give a value");
-      d.target = transmission_noise_energy(fm.y, m.ct->photons_per_ray);
-    } else {
-      d.noise_sigma = fm.noise_sigma;
-      if (!(d.noise_sigma > 0.0))
-        throw InputError(file, "lambda",
-                         "auto needs the measurement's noise sigma (it is " + format_number(d.noise_sigma) +
-                             "); give a value");
-    }
-    const DiscrepancyChoice choice = choose_lambda_discrepancy(d, *fm.op, fm.y, *prior, solve, x, hooks.lambda);
-    lr.mode = "auto";
-    lr.rule_name = "discrepancy";
-    lr.value = choice.lambda;
-    lr.rule = choice.rule;
-    lr.target = choice.target;
-    lr.curve = choice.curve;
-    for (auto it = runs.rbegin(); it != runs.rend(); ++it)
-      if (it->first == choice.lambda) {
-        out.summary = it->second;
-        break;
-      }
+    solve_discrepancy(m, fm, *prior, solve, x, out, hooks, runs);
   }
   if (has_prior) out.summary.values["lambda"] = lr.value;
   out.image = as_image(x, m.ny, m.nx, fm.real_object);
