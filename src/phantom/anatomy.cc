@@ -1,6 +1,7 @@
 // SPDX-License-Identifier: Apache-2.0
 // The anatomy family: a jittered cartoon of an axial abdominal section with tissue values per contrast.
 #include <algorithm>
+#include <array>
 #include <cmath>
 
 #include "family_internal.h"
@@ -84,6 +85,62 @@ class Builder {
   const FamilyOptions& o_;
   Rng& rng_;
 };
+
+}  // namespace
+
+namespace {
+
+// Texture: fine parenchymal blobs in the solid organs (liver, spleen, kidneys; -1 = absent),
+// medium blobs in the fat, shrunk until the phantom's values are certified within bounds
+// (none when no attempt is; the regions alone are kept).
+void add_anatomy_texture(const FamilyOptions& o, Rng& rng, const RegionTree& tree, const std::array<int, 4>& organs,
+                         int cavity, Phantom& p) {
+  const double scale = o.texture_blobs / 300.0;
+  const size_t regions = p.components.size();
+  for (int attempt = 0; attempt < 12; ++attempt) {
+    const double shrink = attempt < 3 ? 1.0 : std::pow(0.8, attempt - 2);
+    p.components.resize(regions);
+    auto organ_texture = [&](int region, int count, double lo, double hi, bool round) {
+      if (region < 0) return;
+      const double amplitude = shrink * o.texture_contrast * tree.value(region);
+      for (int i = 0; i < count; ++i) {
+        for (int tries = 0; tries < 20; ++tries) {  // in the organ itself, clear of its vessels or pelvis
+          double x = 0.0, y = 0.0;
+          point_inside_region(rng, tree.component(region), 2.0 * hi, &x, &y);
+          if (!tree.disc_clear(x, y, 2.5 * hi, region)) continue;
+          p.components.push_back(texture_blob(rng, lo, hi, round, amplitude, x, y));
+          break;
+        }
+      }
+    };
+    auto fat_texture = [&](int region, int count) {
+      const double amplitude = shrink * o.texture_contrast * tree.value(region);
+      for (int i = 0; i < count; ++i) {
+        for (int tries = 0; tries < 20; ++tries) {
+          double x = 0.0, y = 0.0;
+          point_inside_region(rng, tree.component(region), 0.0, &x, &y);
+          const Component blob = texture_blob(rng, 0.02, 0.045, false, amplitude, x, y);
+          if (!tree.disc_clear(x, y, 2.5 * std::max(blob.a, blob.b), region)) continue;  // clear of the organs
+          p.components.push_back(blob);
+          break;
+        }
+      }
+    };
+    const auto n = [&](double count) { return static_cast<int>(std::lround(count * scale)); };
+    // About 360 parenchymal blobs per unit area (80 in a typical liver).
+    const auto per_area = [&](int region) {
+      return region < 0 ? 0 : n(360.0 * 3.14159265358979 * tree.component(region).a * tree.component(region).b);
+    };
+    organ_texture(organs[0], per_area(organs[0]), 0.006, 0.016, true);  // liver
+    organ_texture(organs[1], per_area(organs[1]), 0.006, 0.016, true);  // spleen
+    organ_texture(organs[2], per_area(organs[2]), 0.006, 0.014, true);  // kidneys
+    organ_texture(organs[3], per_area(organs[3]), 0.006, 0.014, true);
+    if (cavity != 0) fat_texture(cavity, n(30));
+    fat_texture(0, n(16));
+    if (certified_below(p, o.value_bound())) return;
+  }
+  p.components.resize(regions);
+}
 
 }  // namespace
 
@@ -190,52 +247,7 @@ Phantom make_anatomy_object(const FamilyOptions& o, Rng& rng) {
   tree.emit(&p);
   if (!o.texture || o.texture_contrast == 0.0) return p;
 
-  // Texture: fine parenchymal blobs in the solid organs, medium blobs in the fat.
-  const double scale = o.texture_blobs / 300.0;
-  const size_t regions = p.components.size();
-  for (int attempt = 0; attempt < 12; ++attempt) {
-    const double shrink = attempt < 3 ? 1.0 : std::pow(0.8, attempt - 2);
-    p.components.resize(regions);
-    auto organ_texture = [&](int region, int count, double lo, double hi, bool round) {
-      if (region < 0) return;
-      const double amplitude = shrink * o.texture_contrast * tree.value(region);
-      for (int i = 0; i < count; ++i) {
-        for (int tries = 0; tries < 20; ++tries) {  // in the organ itself, clear of its vessels or pelvis
-          double x = 0.0, y = 0.0;
-          point_inside_region(rng, tree.component(region), 2.0 * hi, &x, &y);
-          if (!tree.disc_clear(x, y, 2.5 * hi, region)) continue;
-          p.components.push_back(texture_blob(rng, lo, hi, round, amplitude, x, y));
-          break;
-        }
-      }
-    };
-    auto fat_texture = [&](int region, int count) {
-      const double amplitude = shrink * o.texture_contrast * tree.value(region);
-      for (int i = 0; i < count; ++i) {
-        for (int tries = 0; tries < 20; ++tries) {
-          double x = 0.0, y = 0.0;
-          point_inside_region(rng, tree.component(region), 0.0, &x, &y);
-          const Component blob = texture_blob(rng, 0.02, 0.045, false, amplitude, x, y);
-          if (!tree.disc_clear(x, y, 2.5 * std::max(blob.a, blob.b), region)) continue;  // clear of the organs
-          p.components.push_back(blob);
-          break;
-        }
-      }
-    };
-    const auto n = [&](double count) { return static_cast<int>(std::lround(count * scale)); };
-    // About 360 parenchymal blobs per unit area (80 in a typical liver).
-    const auto per_area = [&](int region) {
-      return region < 0 ? 0 : n(360.0 * 3.14159265358979 * tree.component(region).a * tree.component(region).b);
-    };
-    organ_texture(liver, per_area(liver), 0.006, 0.016, true);
-    organ_texture(spleen, per_area(spleen), 0.006, 0.016, true);
-    organ_texture(kidney[0], per_area(kidney[0]), 0.006, 0.014, true);
-    organ_texture(kidney[1], per_area(kidney[1]), 0.006, 0.014, true);
-    if (cavity != 0) fat_texture(cavity, n(30));
-    fat_texture(0, n(16));
-    if (certified_below(p, o.value_bound())) return p;
-  }
-  p.components.resize(regions);
+  add_anatomy_texture(o, rng, tree, {liver, spleen, kidney[0], kidney[1]}, cavity, p);
   return p;
 }
 
