@@ -58,68 +58,76 @@ double estimate_kspace_noise_sigma(const NdArray<cfloat>& kspace, const NdArray<
   return sigma_image / std::sqrt(fraction);
 }
 
-Measurement measurement_from_raw(const RawCartesian& raw, const RawImportOptions& options, const std::string& file) {
+namespace {
+
+// The noise level of an import and where it came from.
+struct ImportNoise {
+  double sigma = -1.0;  // < 0: not known yet
+  std::string source, whitening = "none (no noise-adjust scans)";
+};
+
+// 1. Pre-whitening of k (in place) by the noise scans' covariance (scaled by the dwell-time
+// ratio), or only their mean level when options.prewhiten is off.
+ImportNoise prewhiten(const RawCartesian& raw, const RawImportOptions& options, const std::string& file,
+                      NdArray<cfloat>& k) {
+  ImportNoise n;
+  if (raw.noise_covariance.empty()) return n;
   const Index coils = raw.coils, ey = raw.ey, ex = raw.ex;
-  RECOFOLD_CHECK(raw.kspace.shape == (Shape{coils, ey, ex})) << raw.kspace.shape.to_string();
-  RECOFOLD_CHECK(raw.sampled.shape == (Shape{ey, ex})) << raw.sampled.shape.to_string();
-  const Index keep = raw.readout_keep > 0 ? std::min(raw.readout_keep, ex) : ex;
-  NdArray<cfloat> k = raw.kspace;
-  MriData mri;
-  std::string noise_source, whitening = "none (no noise-adjust scans)";
-  double sigma = -1.0;
-
-  // 1. Pre-whitening.
-  if (!raw.noise_covariance.empty()) {
-    RECOFOLD_CHECK(raw.noise_covariance.size() == static_cast<size_t>(coils * coils));
-    Eigen::MatrixXcd cov(coils, coils);
-    for (Index a = 0; a < coils; ++a)
-      for (Index b = 0; b < coils; ++b) cov(a, b) = raw.noise_covariance[static_cast<size_t>(a * coils + b)];
-    cov = 0.5 * (cov + cov.adjoint().eval());
-    double dwell_scale = 1.0;
-    if (raw.noise_dwell_us > 0 && raw.dwell_us > 0) dwell_scale = raw.noise_dwell_us / raw.dwell_us;
-    cov *= dwell_scale;
-    const double s2 = cov.trace().real() / static_cast<double>(coils);
-    const std::string scans = std::to_string(raw.noise_samples) + " noise samples per channel";
-    if (options.prewhiten) {
-      if (raw.noise_samples < coils)
-        throw InputError(file, "/dataset/data",
-                         scans + " cannot estimate the " + std::to_string(coils) + " x " + std::to_string(coils) +
-                             " noise covariance (need at least one sample per channel)");
-      Eigen::LLT<Eigen::MatrixXcd> llt(cov);
-      bool ok = llt.info() == Eigen::Success && s2 > 0;
-      Eigen::MatrixXcd w;
-      if (ok) {
-        const Eigen::MatrixXcd l = llt.matrixL();
-        w = l.triangularView<Eigen::Lower>().solve(Eigen::MatrixXcd::Identity(coils, coils)) * std::sqrt(s2);
-        ok = w.allFinite();
-        for (Index a = 0; a < coils && ok; ++a) ok = l(a, a).real() > 1e-9 * std::sqrt(s2);
-      }
-      if (!ok)
-        throw InputError(file, "/dataset/data",
-                         "the noise covariance from " + scans +
-                             " is not positive definite (a channel without noise, or two identical channels); "
-                             "import without pre-whitening");
-      const Index n = ey * ex;
-      Eigen::VectorXcd v(coils);
-      for (Index p = 0; p < n; ++p) {
-        if (!raw.sampled.data[static_cast<size_t>(p)]) continue;
-        for (Index c = 0; c < coils; ++c) v(c) = cdouble(k.data[static_cast<size_t>(c * n + p)]);
-        const Eigen::VectorXcd out = w * v;
-        for (Index c = 0; c < coils; ++c) k.data[static_cast<size_t>(c * n + p)] = cfloat(out(c));
-      }
-      sigma = std::sqrt(s2 / 2.0);
-      noise_source = "noise-adjust scans (" + scans + ", pre-whitened)";
-      whitening = "applied: covariance of " + scans + (dwell_scale != 1.0 ? ", scaled by the dwell-time ratio " + format_sig(dwell_scale, 6) : std::string());
-    } else {
-      sigma = std::sqrt(s2 / 2.0);
-      noise_source = "noise-adjust scans (" + scans + ", channels not whitened: mean level)";
-      whitening = "not applied (asked not to)";
+  RECOFOLD_CHECK(raw.noise_covariance.size() == static_cast<size_t>(coils * coils));
+  Eigen::MatrixXcd cov(coils, coils);
+  for (Index a = 0; a < coils; ++a)
+    for (Index b = 0; b < coils; ++b) cov(a, b) = raw.noise_covariance[static_cast<size_t>(a * coils + b)];
+  cov = 0.5 * (cov + cov.adjoint().eval());
+  double dwell_scale = 1.0;
+  if (raw.noise_dwell_us > 0 && raw.dwell_us > 0) dwell_scale = raw.noise_dwell_us / raw.dwell_us;
+  cov *= dwell_scale;
+  const double s2 = cov.trace().real() / static_cast<double>(coils);
+  const std::string scans = std::to_string(raw.noise_samples) + " noise samples per channel";
+  if (options.prewhiten) {
+    if (raw.noise_samples < coils)
+      throw InputError(file, "/dataset/data",
+                       scans + " cannot estimate the " + std::to_string(coils) + " x " + std::to_string(coils) +
+                           " noise covariance (need at least one sample per channel)");
+    Eigen::LLT<Eigen::MatrixXcd> llt(cov);
+    bool ok = llt.info() == Eigen::Success && s2 > 0;
+    Eigen::MatrixXcd w;
+    if (ok) {
+      const Eigen::MatrixXcd l = llt.matrixL();
+      w = l.triangularView<Eigen::Lower>().solve(Eigen::MatrixXcd::Identity(coils, coils)) * std::sqrt(s2);
+      ok = w.allFinite();
+      for (Index a = 0; a < coils && ok; ++a) ok = l(a, a).real() > 1e-9 * std::sqrt(s2);
     }
+    if (!ok)
+      throw InputError(file, "/dataset/data",
+                       "the noise covariance from " + scans +
+                           " is not positive definite (a channel without noise, or two identical channels); "
+                           "import without pre-whitening");
+    const Index np = ey * ex;
+    Eigen::VectorXcd v(coils);
+    for (Index p = 0; p < np; ++p) {
+      if (!raw.sampled.data[static_cast<size_t>(p)]) continue;
+      for (Index c = 0; c < coils; ++c) v(c) = cdouble(k.data[static_cast<size_t>(c * np + p)]);
+      const Eigen::VectorXcd out = w * v;
+      for (Index c = 0; c < coils; ++c) k.data[static_cast<size_t>(c * np + p)] = cfloat(out(c));
+    }
+    n.sigma = std::sqrt(s2 / 2.0);
+    n.source = "noise-adjust scans (" + scans + ", pre-whitened)";
+    n.whitening = "applied: covariance of " + scans + (dwell_scale != 1.0 ? ", scaled by the dwell-time ratio " + format_sig(dwell_scale, 6) : std::string());
+  } else {
+    n.sigma = std::sqrt(s2 / 2.0);
+    n.source = "noise-adjust scans (" + scans + ", channels not whitened: mean level)";
+    n.whitening = "not applied (asked not to)";
   }
+  return n;
+}
 
-  // 2. Readout oversampling removal.
-  NdArray<cfloat> kspace(Shape{coils, ey, keep});
-  NdArray<uint8_t> mask(Shape{ey, keep});
+// 2. Readout oversampling removal: each sampled line cropped to the central `keep` samples in
+// image space (keep = ex: copied), the mask resampled to the new columns.
+void remove_readout_oversampling(const RawCartesian& raw, const NdArray<cfloat>& k, Index keep,
+                                 NdArray<cfloat>& kspace, NdArray<uint8_t>& mask) {
+  const Index coils = raw.coils, ey = raw.ey, ex = raw.ex;
+  kspace = NdArray<cfloat>(Shape{coils, ey, keep});
+  mask = NdArray<uint8_t>(Shape{ey, keep});
   const Index start = ex / 2 - keep / 2;
   std::vector<cfloat> line(static_cast<size_t>(ex));
   for (Index r = 0; r < ey; ++r) {
@@ -146,7 +154,44 @@ Measurement measurement_from_raw(const RawCartesian& raw, const RawImportOptions
         if (!mask.data[static_cast<size_t>(r * keep + j)]) dst[j] = cfloat(0, 0);
     }
   }
+}
 
+// The raw header's facts in the measurement's provenance ("raw.*").
+void record_raw_provenance(const RawCartesian& raw, Measurement& m) {
+  const Index ey = raw.ey, ex = raw.ex;
+  for (const auto& [key, value] : raw.header_texts) m.provenance.extra["raw." + key] = value;
+  m.provenance.extra["raw.trajectory"] = raw.trajectory;
+  m.provenance.extra["raw.encoded_matrix"] = std::to_string(ex) + " x " + std::to_string(ey);
+  m.provenance.extra["raw.encoded_fov_mm"] = format_sig(raw.encoded_fov_mm[0], 6) + " x " + format_sig(raw.encoded_fov_mm[1], 6) + " x " +
+                                             format_sig(raw.encoded_fov_mm[2], 6);
+  m.provenance.extra["raw.recon_matrix"] = std::to_string(raw.recon_matrix[0]) + " x " + std::to_string(raw.recon_matrix[1]);
+  m.provenance.extra["raw.recon_fov_mm"] = format_sig(raw.recon_fov_mm[0], 6) + " x " + format_sig(raw.recon_fov_mm[1], 6) + " x " +
+                                           format_sig(raw.recon_fov_mm[2], 6);
+  m.provenance.extra["raw.acquisitions"] = std::to_string(raw.acquisitions);
+  m.provenance.extra["raw.noise_acquisitions"] = std::to_string(raw.noise_acquisitions);
+  std::string skipped;
+  for (const auto& [kind, n] : raw.skipped) skipped += (skipped.empty() ? "" : ", ") + kind + " " + std::to_string(n);
+  m.provenance.extra["raw.skipped"] = skipped.empty() ? "none" : skipped;
+}
+
+}  // namespace
+
+Measurement measurement_from_raw(const RawCartesian& raw, const RawImportOptions& options, const std::string& file) {
+  const Index coils = raw.coils, ey = raw.ey, ex = raw.ex;
+  RECOFOLD_CHECK(raw.kspace.shape == (Shape{coils, ey, ex})) << raw.kspace.shape.to_string();
+  RECOFOLD_CHECK(raw.sampled.shape == (Shape{ey, ex})) << raw.sampled.shape.to_string();
+  const Index keep = raw.readout_keep > 0 ? std::min(raw.readout_keep, ex) : ex;
+  NdArray<cfloat> k = raw.kspace;
+  MriData mri;
+  // 1. Pre-whitening.
+  const ImportNoise noise = prewhiten(raw, options, file, k);
+  double sigma = noise.sigma;
+  std::string noise_source = noise.source;
+  const std::string whitening = noise.whitening;
+  // 2. Readout oversampling removal.
+  NdArray<cfloat> kspace;
+  NdArray<uint8_t> mask;
+  remove_readout_oversampling(raw, k, keep, kspace, mask);
   // 3. Noise level without noise scans.
   if (sigma < 0 && raw.header_noise_sigma) {
     sigma = *raw.header_noise_sigma;
@@ -180,19 +225,7 @@ Measurement measurement_from_raw(const RawCartesian& raw, const RawImportOptions
   mri.texts["noise_sigma_source"] = noise_source;
   mri.texts["prewhitening"] = whitening;
   m.mri = std::move(mri);
-  for (const auto& [key, value] : raw.header_texts) m.provenance.extra["raw." + key] = value;
-  m.provenance.extra["raw.trajectory"] = raw.trajectory;
-  m.provenance.extra["raw.encoded_matrix"] = std::to_string(ex) + " x " + std::to_string(ey);
-  m.provenance.extra["raw.encoded_fov_mm"] = format_sig(raw.encoded_fov_mm[0], 6) + " x " + format_sig(raw.encoded_fov_mm[1], 6) + " x " +
-                                             format_sig(raw.encoded_fov_mm[2], 6);
-  m.provenance.extra["raw.recon_matrix"] = std::to_string(raw.recon_matrix[0]) + " x " + std::to_string(raw.recon_matrix[1]);
-  m.provenance.extra["raw.recon_fov_mm"] = format_sig(raw.recon_fov_mm[0], 6) + " x " + format_sig(raw.recon_fov_mm[1], 6) + " x " +
-                                           format_sig(raw.recon_fov_mm[2], 6);
-  m.provenance.extra["raw.acquisitions"] = std::to_string(raw.acquisitions);
-  m.provenance.extra["raw.noise_acquisitions"] = std::to_string(raw.noise_acquisitions);
-  std::string skipped;
-  for (const auto& [kind, n] : raw.skipped) skipped += (skipped.empty() ? "" : ", ") + kind + " " + std::to_string(n);
-  m.provenance.extra["raw.skipped"] = skipped.empty() ? "none" : skipped;
+  record_raw_provenance(raw, m);
   return m;
 }
 
