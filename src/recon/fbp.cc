@@ -340,10 +340,11 @@ std::optional<FbpFilter> parse_fbp_filter(std::string_view text) {
   for (FbpFilter f :
        {FbpFilter::kRamLak, FbpFilter::kSheppLogan, FbpFilter::kCosine, FbpFilter::kHamming, FbpFilter::kHann})
     if (text == to_string(f)) return f;
+  if (text == "ramp") return FbpFilter::kRamLak;  // the common name of the unwindowed ramp
   return std::nullopt;
 }
 
-std::string fbp_filter_names() { return "ram-lak, shepp-logan, cosine, hamming, hann"; }
+std::string fbp_filter_names() { return "ram-lak (or ramp), shepp-logan, cosine, hamming, hann"; }
 
 std::vector<std::string> FbpOptions::validate() const {
   std::vector<std::string> errors;

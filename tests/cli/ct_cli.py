@@ -116,8 +116,13 @@ def main():
         bad_case("negative photons", sim + ["--photons", "-5", "--out", "b.h5"], ["--photons"], tmp)
         bad_case("fan source inside the object circle", sim + ["--geometry", "fan", "--sid", "20", "--out", "b.h5"],
                  ["--sid", "circle"], tmp)
-        bad_case("unknown filter", ["recon", "--meas", "m60.h5", "--method", "fbp", "--filter", "ramp", "--out",
+        bad_case("unknown filter", ["recon", "--meas", "m60.h5", "--method", "fbp", "--filter", "ramlak", "--out",
                                     "b.h5"], ["--filter", "ram-lak"], tmp)
+        # "ramp", the common name, is the unwindowed ram-lak filter.
+        must_succeed(["recon", "--meas", "m60.h5", "--method", "fbp", "--filter", "ramp", "--out", "ramp.h5"], tmp)
+        must_succeed(["recon", "--meas", "m60.h5", "--method", "fbp", "--filter", "ram-lak", "--out", "ramlak.h5"], tmp)
+        with h5py.File(os.path.join(tmp, "ramp.h5"), "r") as a, h5py.File(os.path.join(tmp, "ramlak.h5"), "r") as b:
+            check(np.array_equal(a["image"][...], b["image"][...]), "--filter ramp gives the ram-lak image")
 
     if failures:
         print(f"{len(failures)} check(s) failed")

@@ -258,7 +258,10 @@ TEST(FbpFilter, ParsesEveryNameItPrints) {
   for (FbpFilter f :
        {FbpFilter::kRamLak, FbpFilter::kSheppLogan, FbpFilter::kCosine, FbpFilter::kHamming, FbpFilter::kHann})
     EXPECT_EQ(parse_fbp_filter(to_string(f)), f);
-  EXPECT_FALSE(parse_fbp_filter("ramp").has_value());
+  EXPECT_EQ(parse_fbp_filter("ramp"), FbpFilter::kRamLak);  // the common name
+  EXPECT_EQ(to_string(*parse_fbp_filter("ramp")), "ram-lak");  // files keep one name
+  EXPECT_FALSE(parse_fbp_filter("Ramp").has_value());
+  EXPECT_FALSE(parse_fbp_filter("ram_lak").has_value());
 }
 
 }  // namespace

@@ -27,7 +27,8 @@ enum class FbpFilter { kRamLak, kSheppLogan, kCosine, kHamming, kHann };
 
 std::string_view to_string(FbpFilter filter);
 std::optional<FbpFilter> parse_fbp_filter(std::string_view text);
-// "ram-lak, shepp-logan, cosine, hamming, hann" (for error messages and --help).
+// Parses the names of to_string and "ramp" (= ram-lak). fbp_filter_names():
+// "ram-lak (or ramp), shepp-logan, cosine, hamming, hann" (for error messages and --help).
 std::string fbp_filter_names();
 
 struct FbpOptions {
