@@ -71,4 +71,21 @@ void throw_with_flags(const InputError& e, const std::vector<FieldFlag>& map, co
 
 void say(const Context&, const std::string& text) { std::cout << text << "\n"; }
 
+std::pair<Index, Index> parse_grid_size(const std::string& text, const std::string& flag) {
+  const auto x = text.find('x');
+  try {
+    size_t used = 0, u2 = 0;
+    if (x == std::string::npos) {
+      const long long v = std::stoll(text, &used);
+      if (used == text.size()) return {v, v};
+    } else {
+      const long long a = std::stoll(text.substr(0, x), &used);
+      const long long b = std::stoll(text.substr(x + 1), &u2);
+      if (used == x && u2 == text.size() - x - 1) return {a, b};
+    }
+  } catch (const std::exception&) {
+  }
+  throw InputError("", flag, "'" + text + "' is not a size; expected N or NYxNX (e.g. 256 or 256x192)");
+}
+
 }  // namespace recofold::cli

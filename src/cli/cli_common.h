@@ -6,11 +6,13 @@
 
 #include <memory>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "recofold/core/error.h"
 #include "recofold/core/progress.h"
 #include "recofold/core/provenance.h"
+#include "recofold/core/types.h"
 
 namespace recofold::cli {
 
@@ -55,5 +57,9 @@ std::string flag_of_field(const std::string& field, const std::vector<FieldFlag>
 
 // Prints `text` to stdout with a newline (CLI code may print; library code may not).
 void say(const Context& ctx, const std::string& text);
+
+// A grid size flag: "256" (square) or "256x192" (rows x columns), the one syntax of every
+// --size. InputError naming `flag` for anything else (range checks are the caller's).
+std::pair<Index, Index> parse_grid_size(const std::string& text, const std::string& flag = "--size");
 
 }  // namespace recofold::cli

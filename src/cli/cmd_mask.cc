@@ -47,25 +47,6 @@ struct MaskFlags {
   int spokes = 0;
 };
 
-// "256" or "256x192" (ny x nx).
-std::pair<Index, Index> parse_size(const std::string& text) {
-  const auto x = text.find('x');
-  try {
-    size_t used = 0;
-    if (x == std::string::npos) {
-      const long long v = std::stoll(text, &used);
-      if (used == text.size()) return {v, v};
-    } else {
-      size_t u2 = 0;
-      const long long a = std::stoll(text.substr(0, x), &used);
-      const long long b = std::stoll(text.substr(x + 1), &u2);
-      if (used == x && u2 == text.size() - x - 1) return {a, b};
-    }
-  } catch (const std::exception&) {
-  }
-  throw InputError("", "--size", "'" + text + "' is not a size; expected N or NYxNX (e.g. 256x256)");
-}
-
 void run_mask(const MaskFlags& f, const CLI::App& sub, const Context& ctx) {
   require_output_path(f.out, "--out", {".h5"});
   if (!f.report.empty()) require_output_path(f.report, "--report", {".json"});
@@ -99,7 +80,7 @@ void run_mask(const MaskFlags& f, const CLI::App& sub, const Context& ctx) {
       const auto d = parse_density_profile(f.density);
       if (!d) throw InputError("", "--density", "unknown density '" + f.density + "' (expected polynomial or gaussian)");
       o.pattern = *p;
-      std::tie(o.ny, o.nx) = parse_size(f.size);
+      std::tie(o.ny, o.nx) = parse_grid_size(f.size);
       o.acceleration = f.accel;
       o.center_fraction = f.center;
       o.seed = f.seed;

@@ -25,7 +25,7 @@ struct PhantomFlags {
   std::string family;
   int count = 1;
   uint64_t seed = 0;
-  int size = 0;
+  std::string size;  // N or NYxNX
   int size_x = 0;  // 0: same as --size
   std::string out;
   std::string png;
@@ -51,7 +51,7 @@ std::string format_number(double v) {
   return s.str();
 }
 
-void check_size(int value, const std::string& flag) {
+void check_size(Index value, const std::string& flag) {
   if (value < 1 || value > kMaxSize)
     throw InputError("", flag, "= " + std::to_string(value) + "; must be in 1.." + std::to_string(kMaxSize));
 }
@@ -98,8 +98,12 @@ void run_phantom(const PhantomFlags& f, const CLI::App& sub, const Context& ctx)
   // Every flag is checked before any work, so bad input leaves no output.
   const bool use_table = !f.table.empty(), use_family = !f.family.empty();
   if (use_table == use_family) throw InputError("", "--table", "give exactly one of --table FILE or --family NAME");
-  check_size(f.size, "--size");
-  const int ny = f.size, nx = sub.count("--size-x") > 0 ? f.size_x : f.size;
+  const auto [rows, columns] = parse_grid_size(f.size);
+  if (sub.count("--size-x") > 0 && f.size.find('x') != std::string::npos)
+    throw InputError("", "--size-x", "give the columns once: --size NYxNX or --size N --size-x NX");
+  check_size(rows, "--size");
+  check_size(columns, "--size");
+  const int ny = static_cast<int>(rows), nx = sub.count("--size-x") > 0 ? f.size_x : static_cast<int>(columns);
   if (sub.count("--size-x") > 0) check_size(f.size_x, "--size-x");
   if (sub.count("--fov") > 0 && !(f.fov_mm > 0.0))
     throw InputError("", "--fov", "= " + format_number(f.fov_mm) + "; must be > 0 (mm)");
@@ -172,9 +176,9 @@ void register_cmd_phantom(CLI::App& app, Context& ctx) {
   sub->add_option("--family", flags->family, "Random family: " + family_names());
   sub->add_option("--count", flags->count, "Objects in the family stack [count, ny, nx] (default 1)");
   sub->add_option("--seed", flags->seed, "Family seed; object i depends only on (seed, i) (default 0)");
-  sub->add_option("--size", flags->size, "Rows (and columns unless --size-x), 1.." + std::to_string(kMaxSize))
+  sub->add_option("--size", flags->size, "Grid N or NYxNX (rows x columns), each 1.." + std::to_string(kMaxSize))
       ->required();
-  sub->add_option("--size-x", flags->size_x, "Columns, when different from --size");
+  sub->add_option("--size-x", flags->size_x, "Columns, when different from --size N (same as --size NYxNX)");
   sub->add_option("--out", flags->out, "Output: .h5 (with the component table), .nii.gz, .nii, .mha, .nrrd or .png")
       ->required();
   sub->add_option("--png", flags->png, "Also write a quick-look PNG (object 0 of a stack)");

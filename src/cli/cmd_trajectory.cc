@@ -22,23 +22,6 @@ struct TrajectoryFlags {
   TrajectoryOptions o;
 };
 
-std::pair<Index, Index> parse_grid(const std::string& text) {
-  const auto x = text.find('x');
-  try {
-    size_t used = 0, u2 = 0;
-    if (x == std::string::npos) {
-      const long long v = std::stoll(text, &used);
-      if (used == text.size()) return {v, v};
-    } else {
-      const long long a = std::stoll(text.substr(0, x), &used);
-      const long long b = std::stoll(text.substr(x + 1), &u2);
-      if (used == x && u2 == text.size() - x - 1) return {a, b};
-    }
-  } catch (const std::exception&) {
-  }
-  throw InputError("", "--size", "'" + text + "' is not a size; expected N or NYxNX (e.g. 256 or 256x192)");
-}
-
 void run_trajectory(TrajectoryFlags& f, const CLI::App& sub, const Context& ctx) {
   require_output_path(f.out, "--out", {".h5"});
   if (!f.report.empty()) require_output_path(f.report, "--report", {".json"});
@@ -62,7 +45,7 @@ void run_trajectory(TrajectoryFlags& f, const CLI::App& sub, const Context& ctx)
   if (!f.from.empty()) {
     if (radial_flags || any_spiral) throw InputError("", "--from", "design flags do not apply to --from");
     Index ny = 0, nx = 0;
-    if (sub.count("--size") > 0) std::tie(ny, nx) = parse_grid(f.size);
+    if (sub.count("--size") > 0) std::tie(ny, nx) = parse_grid_size(f.size);
     if (*dcf == DcfMethod::kRadialRamp) throw InputError("", "--dcf", "'ramp' needs a designed radial trajectory");
     t = load_trajectory(f.from, "--from", ny, nx, progress.get());
     if (*dcf == DcfMethod::kPipeMenon && t.dcf_method != "pipe-menon")
@@ -74,7 +57,7 @@ void run_trajectory(TrajectoryFlags& f, const CLI::App& sub, const Context& ctx)
     if (!kind || *kind == TrajectoryKind::kFile)
       throw InputError("", "--kind", "unknown kind '" + f.kind + "' (expected one of: " + accepted_trajectory_kinds() + ")");
     f.o.kind = *kind;
-    std::tie(f.o.ny, f.o.nx) = parse_grid(f.size);
+    std::tie(f.o.ny, f.o.nx) = parse_grid_size(f.size);
     f.o.dcf = *dcf;
     const bool radial = *kind != TrajectoryKind::kSpiral;
     if (radial && any_spiral) throw InputError("", "--interleaves", "spiral flags (--interleaves, --fov-mm, --gmax, ...) apply to --kind spiral only");

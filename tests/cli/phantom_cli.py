@@ -69,6 +69,12 @@ def main():
         with h5py.File(os.path.join(tmp, "qc.h5"), "r") as f:
             check(f["image"].shape == (40, 60), "--size-x gives [40, 60]")
             check(np.allclose(f["image"].attrs["pixel_spacing_mm"], [300 / 40, 300 / 60]), "--fov sets the spacing")
+            qc = f["image"][...]
+        out = run(["--table", os.path.join(TABLES, "qc-disk.toml"), "--size", "40x60", "--fov", "300", "--out", "qc2.h5"],
+                  tmp)
+        check(out.returncode == 0, "--size NYxNX accepted (the syntax of mask and trajectory)")
+        with h5py.File(os.path.join(tmp, "qc2.h5"), "r") as f:
+            check(np.array_equal(f["image"][...], qc), "--size 40x60 equals --size 40 --size-x 60")
 
         for ext in (".nii.gz", ".mha", ".png"):
             out = run(["--table", os.path.join(TABLES, "organ-section.toml"), "--size", "32", "--out", "organ" + ext], tmp)
@@ -110,6 +116,8 @@ def main():
         sl = os.path.join(TABLES, "shepp-logan.toml")
         bad_case("size 0", ["--table", sl, "--size", "0"] + out_h5, ["--size"], bad)
         bad_case("size too large", ["--table", sl, "--size", "16385"] + out_h5, ["--size", "16384"], bad)
+        bad_case("size not a size", ["--table", sl, "--size", "8y8"] + out_h5, ["--size", "NYxNX"], bad)
+        bad_case("size NYxNX with size-x", ["--table", sl, "--size", "8x8", "--size-x", "8"] + out_h5, ["--size-x"], bad)
         bad_case("size-x 0", ["--table", sl, "--size", "8", "--size-x", "0"] + out_h5, ["--size-x"], bad)
         bad_case("unknown component type", ["--table", "unknown.toml", "--size", "16"] + out_h5,
                  ["unknown.toml:6", "triangle"], bad)
