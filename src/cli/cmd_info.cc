@@ -26,9 +26,20 @@ std::string one_line(std::string s, size_t max_len = 160) {
   return s;
 }
 
-void print_attrs(const H5Reader& r, const std::string& object, const std::string& indent, std::ostream& out) {
-  for (const auto& name : r.attr_names(object))
-    out << indent << "@" << name << " = " << one_line(r.attr_as_text(object, name)) << "\n";
+// Whole attribute text, continuation lines indented under the first.
+std::string whole(const std::string& s, const std::string& indent) {
+  std::string out;
+  for (char c : s) out += c == '\n' ? "\n" + indent + "  " : std::string(1, c);
+  return out;
+}
+
+// `full`: attributes whole (--full); otherwise on one line, cut at 160 characters.
+void print_attrs(const H5Reader& r, const std::string& object, const std::string& indent, std::ostream& out,
+                 bool full) {
+  for (const auto& name : r.attr_names(object)) {
+    const std::string text = r.attr_as_text(object, name);
+    out << indent << "@" << name << " = " << (full ? whole(text, indent) : one_line(text)) << "\n";
+  }
 }
 
 std::string value_range(const H5Reader& r, const std::string& path) {
@@ -54,13 +65,13 @@ std::string value_range(const H5Reader& r, const std::string& path) {
   return buf;
 }
 
-void walk(const H5Reader& r, const std::string& group, std::ostream& out) {
+void walk(const H5Reader& r, const std::string& group, std::ostream& out, bool full) {
   for (const auto& child : r.children(group)) {
     const std::string path = (group == "/" ? "" : group) + "/" + child;
     if (r.is_group(path)) {
       out << path << "/  (group)\n";
-      print_attrs(r, path, "    ", out);
-      walk(r, path, out);
+      print_attrs(r, path, "    ", out, full);
+      walk(r, path, out, full);
     } else if (r.has(path)) {
       std::string desc;
       try {
@@ -70,7 +81,7 @@ void walk(const H5Reader& r, const std::string& group, std::ostream& out) {
       }
       out << path << "  " << desc << "\n";
       try {
-        print_attrs(r, path, "    ", out);
+        print_attrs(r, path, "    ", out, full);
       } catch (const InputError&) {
       }
     }
@@ -99,12 +110,12 @@ void trajectory_facts(const H5Reader& r, const std::string& group, std::ostream&
   }
 }
 
-void info_hdf5(const std::string& path, std::ostream& out) {
+void info_hdf5(const std::string& path, std::ostream& out, bool full) {
   H5Reader r(path);
   out << path << ": HDF5 file\n";
   out << "/  (root)\n";
-  print_attrs(r, "/", "    ", out);
-  walk(r, "/", out);
+  print_attrs(r, "/", "    ", out, full);
+  walk(r, "/", out, full);
   trajectory_facts(r, "/trajectory", out);
   trajectory_facts(r, "/mri/trajectory", out);
 }
@@ -122,13 +133,13 @@ void info_itk(const std::string& path, std::ostream& out) {
   out << buf << "\n";
 }
 
-void run_info(const std::string& path, const Context& ctx) {
+void run_info(const std::string& path, bool full, const Context& ctx) {
   struct stat st;
   if (::stat(path.c_str(), &st) != 0) throw InputError(path, "", "file not found");
   const std::string ext = file_extension(path);
   std::ostringstream out;
   if (ext == ".h5" || ext == ".hdf5" || !is_image_extension(ext))
-    info_hdf5(path, out);  // not-HDF5 files are reported by the reader
+    info_hdf5(path, out, full);  // not-HDF5 files are reported by the reader
   else
     info_itk(path, out);
   std::string text = out.str();
@@ -144,8 +155,10 @@ void register_cmd_info(CLI::App& app, Context& ctx) {
       "info", "Show datasets, shapes, types, attributes and provenance of a file (.h5, or an image via ITK)");
   sub->add_option("FILE", *path, "Any recofold HDF5 file (image, measurement, model, ...) or .nii.gz/.nii/.mha/.nrrd/.png")
       ->required();
+  auto full = std::make_shared<bool>(false);
+  sub->add_flag("--full", *full, "Print attributes whole (config texts, provenance) instead of cut to one line");
   sub->footer(kResearchUseLine);
-  sub->callback([path, &ctx] { run_info(*path, ctx); });
+  sub->callback([path, full, &ctx] { run_info(*path, *full, ctx); });
 }
 
 }  // namespace recofold::cli

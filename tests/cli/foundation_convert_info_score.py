@@ -54,6 +54,16 @@ def main():
         r = run("info", "back_nii_gz.h5", cwd=tmp)
         check(r.returncode == 0 and "@research_use_only = 1" in r.stdout and "/provenance/" in r.stdout
               and "@command" in r.stdout, "info shows attributes and provenance")
+        long_text = "first line " + "x" * 300 + "\nsecond line end"
+        with h5py.File(os.path.join(tmp, "long.h5"), "w") as f:
+            f["image"] = img
+            f["image"].attrs["config"] = long_text
+        r = run("info", "long.h5", cwd=tmp)
+        check(r.returncode == 0 and "..." in r.stdout and "second line end" not in r.stdout,
+              "info cuts a long attribute to one line")
+        r = run("info", "--full", "long.h5", cwd=tmp)
+        check(r.returncode == 0 and "x" * 300 in r.stdout and "\n      second line end" in r.stdout,
+              "info --full prints it whole, continuation lines indented")
         r = run("info", "a.mha", cwd=tmp)
         check(r.returncode == 0 and "[20, 28]" in r.stdout and "(0.5, 0.75)" in r.stdout,
               "info a.mha shows shape and spacing")
