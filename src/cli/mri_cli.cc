@@ -36,13 +36,16 @@ std::string mask_summary(const SamplingMask& m, const MaskAnalysis& a) {
   const double db = a.psf_sidelobe_ratio > 0 ? 20.0 * std::log10(a.psf_sidelobe_ratio) : -INFINITY;
   const std::string req =
       m.requested_acceleration > 0 ? "requested " + format_sig(m.requested_acceleration, 10) : "not requested";
+  const std::string tpsf =
+      a.tpsf_sidelobe_ratio > 0 ? format_fixed(20.0 * std::log10(a.tpsf_sidelobe_ratio), 1) + " dB"
+                                : (a.tpsf_sidelobe_ratio == 0 ? "-inf dB" : "n/a");
   std::snprintf(buf, sizeof buf,
                 "%s %lldx%lld: R %.3f (%s), %lld samples, calibration %lldx%lld, PSF side-lobe %.1f dB, "
-                "TPSF side-lobe %s",
+                "TPSF side-lobe %s",  // both side-lobes in dB of their peak
                 m.pattern.c_str(), static_cast<long long>(a.ny), static_cast<long long>(a.nx), m.achieved_acceleration,
                 req.c_str(), static_cast<long long>(m.samples), static_cast<long long>(a.calibration.rows),
                 static_cast<long long>(a.calibration.cols), db,
-                a.tpsf_sidelobe_ratio >= 0 ? format_sig(a.tpsf_sidelobe_ratio, 10).c_str() : "n/a");
+                tpsf.c_str());
   return buf;
 }
 

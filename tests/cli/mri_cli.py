@@ -5,6 +5,7 @@
 # noise -> zero-filled recon -> score; plus spec files, coil-combination
 # variants, and bad input (exit 2, a message naming the problem, no output left).
 import json
+import math
 import os
 import shutil
 import subprocess
@@ -55,6 +56,9 @@ def newcomer_flow(tmp):
         check(key in a, f"report has analysis.{key}")
     check(a["calibration"]["rows"] >= 6, "report: calibration rows found")
     check(0 < a["psf_sidelobe_ratio"] < 1, "report: PSF side-lobe ratio in (0, 1)")
+    # The summary line gives both side-lobes in dB of their peak, one decimal.
+    for name, ratio in (("PSF", a["psf_sidelobe_ratio"]), ("TPSF", a["tpsf_sidelobe_ratio"])):
+        check(f"{name} side-lobe {20 * math.log10(ratio):.1f} dB" in out.stdout, f"mask prints the {name} side-lobe in dB")
     with open(os.path.join(tmp, "m4.png"), "rb") as f:
         check(f.read(8) == b"\x89PNG\r\n\x1a\n", "mask picture is a PNG")
     with h5py.File(os.path.join(tmp, "m4.h5"), "r") as f:
