@@ -17,6 +17,7 @@
 #include "trajectory_cli.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/io/image_export.h"
 #include "recofold/ops/fft.h"
 #include "recofold/io/measurement_file.h"
@@ -193,6 +194,22 @@ Measurement simulate_mri_trajectory_cli(const SimulateFlags& f, const Phantom* a
   return m;
 }
 
+// "CT sinogram [60, 91], parallel beam, 60 views over 180 deg, 91 detectors x 1 mm, 1e+05 photons/ray".
+std::string ct_summary(const CtData& ct) {
+  const auto& a = ct.angles_rad;
+  const double arc_deg = a.size() > 1 ? (a.back() - a.front()) * 180.0 / 3.14159265358979323846 *
+                                            double(a.size()) / double(a.size() - 1)
+                                      : 0.0;
+  std::string s = "CT sinogram " + ct.sinogram.shape.to_string() + ", " + std::string(to_string(ct.beam)) + " beam";
+  if (ct.beam == CtBeam::kFan)
+    s += " (" + std::string(to_string(ct.detector_shape)) + " detector, source " +
+         format_sig(ct.source_to_isocenter_mm, 4) + " mm, detector " + format_sig(ct.source_to_detector_mm, 4) + " mm)";
+  s += ", " + std::to_string(a.size()) + " views over " + format_sig(arc_deg, 4) + " deg, " +
+       std::to_string(ct.detector_count) + " detectors x " + format_sig(ct.detector_spacing_mm, 4) + " mm, " +
+       (ct.photons_per_ray > 0 ? format_sig(ct.photons_per_ray, 3) + " photons/ray" : std::string("noiseless"));
+  return s;
+}
+
 void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
   if (!f.from.empty()) {
     run_simulate_from(SimulateFromFlags{f.from, f.mask, f.out, f.noise, f.seed}, sub, ctx);
@@ -268,7 +285,7 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
     NdArray<cfloat> pix(Shape{ny, nx});
     std::copy(raster.data(), raster.data() + n, pix.data.begin());
     m = simulate_ct_measurement(f.ct, analytic.get(), pix, spacing, analytic_truth, f.seed);
-    summary = "CT sinogram " + m.ct->sinogram.shape.to_string();
+    summary = ct_summary(*m.ct);
   } else if (!f.trajectory.empty()) {
     m = simulate_mri_trajectory_cli(f, analytic.get(), raster, rec.pixel_spacing_mm, analytic_truth, prov, summary);
   } else {

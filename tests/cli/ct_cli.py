@@ -60,6 +60,12 @@ def main():
         # 60-view low-dose parallel beam.
         must_succeed(["simulate", "--phantom", "p.h5", "--modality", "ct", "--views", "60", "--photons", "1e4",
                       "--seed", "1", "--out", "m60.h5"], tmp)
+        # The summary line states geometry, views, detectors and dose.
+        line = subprocess.run([EXE, "simulate", "--phantom", "p.h5", "--modality", "ct", "--views", "60", "--photons",
+                               "1e4", "--geometry", "fan", "--out", "summary.h5"], capture_output=True, text=True,
+                              cwd=tmp).stdout
+        for words in ("fan beam", "60 views over 360 deg", "detectors x", "1e+04 photons/ray", "source "):
+            check(words in line, f"simulate's CT summary names '{words}': {line.strip()}")
         with h5py.File(os.path.join(tmp, "m60.h5"), "r") as f:
             sino = f["ct/sinogram"][()]
             angles = f["ct/angles_rad"][()]
