@@ -9,7 +9,9 @@ recofold / PyTorch (target <= 1.1).
 
 Usage (from the build folder):
   /usr/bin/python3 ../bench/learn_train_step.py [--tool tests/learn_train_step_bench]
-      [--reference /work/shared/bench/ref_torch_unrolled.py] [--rounds 3]
+      --reference PATH/ref_torch_unrolled.py [--rounds 3]
+The PyTorch reference script is not part of recofold: give its path with
+--reference or the environment variable RECOFOLD_TORCH_REFERENCE.
 Output: a table plus RESULT|<bench>|<case>|<metric>|<value>|<unit> lines.
 """
 import argparse
@@ -31,10 +33,12 @@ def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--tool", default=os.path.join(os.environ.get("RECOFOLD_BINARY_DIR", "."), "tests",
                                                    "learn_train_step_bench"))
-    ap.add_argument("--reference", default=os.environ.get("RECOFOLD_TORCH_REFERENCE",
-                                                          "/work/shared/bench/ref_torch_unrolled.py"))
+    ap.add_argument("--reference", default=os.environ.get("RECOFOLD_TORCH_REFERENCE", ""))
     ap.add_argument("--rounds", type=int, default=3)
     args = ap.parse_args()
+    if not args.reference or not os.path.isfile(args.reference):
+        sys.exit("learn_train_step.py: give the PyTorch reference script with --reference or "
+                 "RECOFOLD_TORCH_REFERENCE (got '%s')" % args.reference)
     import torch  # only for the version line
     rows = {}
     for rnd in range(args.rounds):

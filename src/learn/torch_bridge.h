@@ -52,7 +52,7 @@ torch::Tensor op_normal(const torch::Tensor& x, const OperatorBatch& batch);
 // from x = 0 (stopping early when the residual falls below 1e-6 of ||rhs||).
 // mu: a scalar tensor > 0. Differentiable in rhs and mu: the system matrix is
 // self-adjoint, so grad_rhs = (s^2 A^H A + mu I)^{-1} grad_x (a second CG
-// solve) and grad_mu = -<grad_rhs, x> (MoDL, REFERENCES.md).
+// solve) and grad_mu = -<grad_rhs, x> (MoDL, DEVELOPERS.md "Sources").
 torch::Tensor cg_solve(const torch::Tensor& rhs, const torch::Tensor& mu, const OperatorBatch& batch, int iterations);
 
 // Makes torch's intra-op thread count equal to OpenMP's current maximum

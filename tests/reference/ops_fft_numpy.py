@@ -1,7 +1,7 @@
 # SPDX-License-Identifier: Apache-2.0
 # Checks recofold's centred orthonormal 2-D FFT against numpy (Debian
 # python3-numpy): np.fft.fftshift(np.fft.fft2(np.fft.ifftshift(x), norm="ortho"))
-# and the same with ifft2 (REFERENCES.md, "Centred orthonormal DFT"), on odd,
+# and the same with ifft2 (DEVELOPERS.md "Sources", "Centred orthonormal DFT"), on odd,
 # even and mixed sizes, to 1e-5 relative to the largest output value.
 import os
 import subprocess

@@ -7,7 +7,7 @@
 #    intensities): PSNR >= 24 dB, >= 5 dB above the raster flipped upside down
 #    (orientation), >= 97% of pixels within 0.02.
 # 2. The exact Fourier transform at random k against an independent evaluation
-#    of the closed forms in REFERENCES.md (written from memory) using
+#    of the closed forms in DEVELOPERS.md "Sources" (written from memory) using
 #    scipy.special.j1.
 # 3. kspace_on_grid against numpy's centred orthonormal FFT of a fine raster
 #    (np.fft.fftshift(np.fft.fft2(np.fft.ifftshift(x), norm="ortho"))), even and
@@ -65,7 +65,7 @@ def components(name):
 
 
 def fourier_reference(comps, kx, ky):
-    # REFERENCES.md "Objects" (from memory): ellipse rho a b J1(2 pi kappa)/kappa,
+    # DEVELOPERS.md "Sources" "Objects" (from memory): ellipse rho a b J1(2 pi kappa)/kappa,
     # blob 2 pi rho a b exp(-2 pi^2 (a^2 k'x^2 + b^2 k'y^2)), both times exp(-i 2 pi k.c).
     total = np.zeros(kx.shape, dtype=complex)
     for kind, rho, a, b, x0, y0, phi in comps:

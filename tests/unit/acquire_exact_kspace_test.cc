@@ -15,7 +15,7 @@ namespace {
 
 constexpr double kPi = 3.14159265358979323846;
 
-// Shepp-Logan geometry with the higher-contrast intensities (REFERENCES.md), plus a
+// Shepp-Logan geometry with the higher-contrast intensities (DEVELOPERS.md "Sources"), plus a
 // complex phase so that conjugate symmetry cannot hide a sign error.
 Phantom head(bool with_phase) {
   const double t[10][6] = {{1.0, .69, .92, 0, 0, 0},     {-.8, .6624, .874, 0, -.0184, 0},

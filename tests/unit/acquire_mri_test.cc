@@ -13,7 +13,7 @@
 namespace recofold {
 namespace {
 
-// Shepp-Logan geometry with the higher-contrast intensities (REFERENCES.md).
+// Shepp-Logan geometry with the higher-contrast intensities (DEVELOPERS.md "Sources").
 Phantom shepp_logan_modified() {
   const double t[10][6] = {{1.0, .69, .92, 0, 0, 0},          {-.8, .6624, .874, 0, -.0184, 0},
                            {-.2, .11, .31, .22, 0, -18},       {-.2, .16, .41, -.22, 0, 18},

@@ -22,7 +22,7 @@ struct TestEllipse {
   double rho, a, b, x0, y0, phi_deg;  // on the [-1,1] square, y up
 };
 
-// Modified Shepp-Logan (Toft's intensities) in the REFERENCES.md geometry.
+// Modified Shepp-Logan (Toft's intensities) in the DEVELOPERS.md "Sources" geometry.
 inline std::vector<TestEllipse> modified_shepp_logan() {
   return {{1.0, .69, .92, 0, 0, 0},       {-.8, .6624, .874, 0, -.0184, 0}, {-.2, .11, .31, .22, 0, -18},
           {-.2, .16, .41, -.22, 0, 18},   {.1, .21, .25, 0, .35, 0},        {.1, .046, .046, 0, .1, 0},

@@ -76,7 +76,7 @@ TEST(PhantomLineIntegral, BlobMatchesBruteForceQuadratureOn50RandomRays) {
 }
 
 TEST(PhantomLineIntegral, EllipseMatchesKakSlaneyClosedForm) {
-  // Kak & Slaney (1988), ch. 3 (REFERENCES.md, from memory): a centred,
+  // Kak & Slaney (1988), ch. 3 (DEVELOPERS.md "Sources", from memory): a centred,
   // unrotated ellipse gives 2 rho a b / alpha^2 sqrt(alpha^2 - t^2) with
   // alpha^2 = a^2 cos^2 theta + b^2 sin^2 theta; shift t -> t - (x0 cos + y0 sin)
   // and rotation theta -> theta - phi.
@@ -93,7 +93,7 @@ TEST(PhantomLineIntegral, EllipseMatchesKakSlaneyClosedForm) {
 }
 
 TEST(PhantomLineIntegral, BlobMatchesReferenceClosedForm) {
-  // REFERENCES.md (from memory): sqrt(2 pi) rho sx sy / s exp(-t'^2 / 2 s^2),
+  // DEVELOPERS.md "Sources" (from memory): sqrt(2 pi) rho sx sy / s exp(-t'^2 / 2 s^2),
   // s^2 = sx^2 cos^2(theta - phi) + sy^2 sin^2(theta - phi).
   Rng rng(4);
   for (int i = 0; i < 200; ++i) {

@@ -17,7 +17,7 @@
 namespace recofold {
 
 // Largest line integral the automatic attenuation scale aims at: about 200 mm
-// of water at 0.02 / mm (0.2 cm^-1 near 60-70 keV, from memory; REFERENCES.md),
+// of water at 0.02 / mm (0.2 cm^-1 near 60-70 keV, from memory; DEVELOPERS.md "Sources"),
 // i.e. the largest line integrals of an adult head, usually quoted as 3-5.
 constexpr double kAutoLargestLineIntegral = 4.0;
 

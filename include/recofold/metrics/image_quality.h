@@ -3,7 +3,7 @@
 //
 // All functions take real images (for complex data pass the magnitude, see
 // magnitude()), accumulate in double, and compare `image` against `reference`
-// of the same shape. Definitions (REFERENCES.md, "Metrics"):
+// of the same shape. Definitions (DEVELOPERS.md "Sources", "Metrics"):
 //
 //   PSNR  = 10 log10(L^2 / MSE), MSE = mean over the region of (image - reference)^2.
 //           L = data range: ScoreOptions::data_range if > 0, else max - min of the

@@ -19,7 +19,7 @@ namespace recofold {
 // phase_cycles cycles across the object. Maps are then normalised pointwise,
 //   S_c(p) = raw_c(p) / sqrt(Σ_j |raw_j(p)|²),
 // so Σ_c |S_c|² = 1 everywhere (in particular on the object support: the
-// *common practice* normalisation of REFERENCES.md). One coil gives S = 1.
+// *common practice* normalisation of DEVELOPERS.md "Sources"). One coil gives S = 1.
 struct CoilArrayOptions {
   int coils = 1;                 // 1 .. 32 (1: a single uniform coil, S = 1)
   double ring_radius = 1.5;      // > 1: coils sit outside the [-1,1] square

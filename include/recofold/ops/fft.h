@@ -37,7 +37,7 @@ bool export_fft_wisdom(const std::string& path);
 
 enum class FftDirection { kForward, kInverse };
 
-// Centred orthonormal 2-D DFT of one row-major [ny, nx] image (REFERENCES.md):
+// Centred orthonormal 2-D DFT of one row-major [ny, nx] image (DEVELOPERS.md "Sources"):
 //   forward: out = fftshift(fft2(ifftshift(in))) / sqrt(ny nx)
 //   inverse: out = fftshift(ifft2(ifftshift(in))) * sqrt(ny nx)   (= adjoint = inverse)
 // i.e. numpy's np.fft.fftshift(np.fft.fft2(np.fft.ifftshift(x), norm="ortho"))

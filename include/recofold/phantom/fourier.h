@@ -6,7 +6,7 @@
 // (so k = 0.5 is one cycle across the whole square). Values are in
 // intensity x unit^2; multiply by Phantom::mm_per_unit()^2 for intensity x mm^2.
 //
-// Closed forms (REFERENCES.md, "Objects"; written from memory of the standard
+// Closed forms (DEVELOPERS.md "Sources", "Objects"; written from memory of the standard
 // results, checked against scipy.special.j1 and an FFT of a fine raster):
 //   ellipse:  rho a b J1(2 pi kappa)/kappa exp(-i 2 pi k.c),
 //             kappa = |(a k'x, b k'y)|, k' = R(-phi) k, limit rho pi a b at 0

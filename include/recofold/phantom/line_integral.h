@@ -12,7 +12,7 @@
 // Values are in intensity x unit length; multiply by Phantom::mm_per_unit()
 // for intensity x mm (e.g. attenuation per mm -> dimensionless).
 //
-// Closed forms (per component, in its own frame, from memory; REFERENCES.md
+// Closed forms (per component, in its own frame, from memory; DEVELOPERS.md "Sources"
 // quotes the Kak & Slaney version for the ellipse; tests check against
 // brute-force numerical integration):
 //   ellipse: rho x chord length; blob: rho sqrt(2 pi / A) exp(B^2/(2A) - C/2)
