@@ -9,6 +9,7 @@
 #include "output_checks_cli.h"
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
+#include "recofold/study/mpi_dispatch.h"
 #include "recofold/study/study_runner.h"
 #include "study_cli.h"
 
@@ -24,6 +25,10 @@ struct StudyFlags {
 
 void run(const StudyFlags& f, const Context& ctx) {
   if (!f.merge.empty()) {
+    if (const StudyMessenger* mpi = mpi_world(); mpi && mpi->size() > 1) {
+      if (mpi->rank() != 0) throw ReportedByRankZero(2, "");  // rank 0 says it, once
+      throw InputError("", "--merge", "runs in one process: start it without mpirun");
+    }
     if (!f.config.empty()) throw InputError("", "--merge", "give either --config or --merge, not both");
     require_writable_folder(f.out, "--out");  // output_checks_cli.h
     install_learned_backend();  // the merged config may name learned methods
@@ -60,7 +65,10 @@ void register_cmd_study(CLI::App& app, Context& ctx) {
   sub->footer("Writes results.csv (one row per case, as cases finish; lambda_rule says how each weight was chosen:\n"
               "auto, fixed, or oracle = best PSNR against the truth, which no real scan allows), summary.csv\n"
               "(n, mean, std, 95 % t interval), comparisons.csv (paired differences with intervals and Wilcoxon\n"
-              "p-values) and report.html (findings first).\n" +
+              "p-values) and report.html (findings first).\n"
+              "On clusters: 'mpirun -np N recofold study ...' runs one study over N MPI ranks (rank 0 hands out\n"
+              "the cases and writes the tables; leave --jobs out). The --out folder must then be on a\n"
+              "filesystem every rank sees (shared, e.g. NFS or Lustre); it is checked with a probe file.\n" +
               std::string(kResearchUseLine));
   sub->callback([flags, &ctx] { run(*flags, ctx); });
 }

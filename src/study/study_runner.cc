@@ -10,6 +10,8 @@
 #include <algorithm>
 #include <cerrno>
 #include <chrono>
+#include <cstdio>
+#include <cstdlib>
 #include <cstring>
 #include <functional>
 #include <map>
@@ -28,6 +30,7 @@
 #include "recofold/study/case_runner.h"
 #include "recofold/study/folder_lock.h"
 #include "recofold/study/learned_models.h"
+#include "recofold/study/mpi_dispatch.h"
 #include "recofold/study/comparisons.h"
 #include "recofold/study/report.h"
 #include "recofold/study/results_table.h"
@@ -171,7 +174,8 @@ void finish_outputs(const std::string& dir, const StudyConfig& config, const Cas
 }
 
 // ---------------------------------------------------------------- the steps of a run
-// run_study runs them in order.
+// run_study runs them in order; an MPI job (run_study_rank0 / serve_study)
+// runs the same steps, rank 0 the folder steps and every rank the cases.
 
 // One run's state, filled in by the steps.
 struct StudyRun {
@@ -489,17 +493,275 @@ void finish_run(StudyRun& r) {
   if (r.options.progress) r.options.progress->finish(r.s.complete ? "study complete" : "study incomplete");
 }
 
+// ---------------------------------------------------------------- an MPI job (mpi_dispatch.h)
+// Rank 0 runs the folder steps, hands tasks out one at a time (a work queue:
+// slow methods do not hold up the others) and alone writes results.csv and
+// the final outputs; every rank, rank 0 included (on a second thread), runs
+// tasks with the same case runner. Messages:
+//   kStart  0 -> k  "go\n<probe file>\n<token>"  or  "fail\n<code>\n<message>"
+//   kReply  k -> 0  "ok"  or  "error\n<code>\n<field>\n<message>"  (probe seen, own checks)
+//   kBegin  0 -> k  "go"  or  "fail\n<code>\n<message>"  (models ready, cases planned)
+//   kReady  k -> 0  "": send a task
+//   kTask   0 -> k  the task's case indices "3,4,5"; "": no task left
+//   kRow    k -> 0  "<case index>\n<ok 0|1>\n<seconds>\n<row>"
+//   kLeave  k -> 0  "": stopped by a signal, takes no more tasks
+enum MpiTag { kStart = 11, kReply, kBegin, kReady, kTask, kRow, kLeave };
+
+std::vector<std::string> split_message(const std::string& text, size_t parts) {
+  std::vector<std::string> out;
+  size_t at = 0;
+  while (out.size() + 1 < parts) {
+    const size_t nl = text.find('\n', at);
+    if (nl == std::string::npos) break;
+    out.push_back(text.substr(at, nl - at));
+    at = nl + 1;
+  }
+  out.push_back(text.substr(std::min(at, text.size())));
+  return out;
+}
+
+int exit_code_of(const std::exception& e) { return dynamic_cast<const InputError*>(&e) ? 2 : 1; }
+
+std::string failure_message(int code, const std::string& what) { return "fail\n" + std::to_string(code) + "\n" + what; }
+
+// The lines of a "go" message; ReportedByRankZero for "fail".
+std::vector<std::string> expect_go(const StudyMessenger::Message& m) {
+  const std::vector<std::string> p = split_message(m.text, 3);
+  if (p[0] == "go") return p;
+  const int code = p.size() > 1 ? std::atoi(p[1].c_str()) : 1;
+  throw ReportedByRankZero(code > 0 ? code : 1, p.size() > 2 ? p[2] : "rank 0 stopped the study");
+}
+
+void tell_workers(StudyMessenger& m, int tag, const std::string& text) {
+  for (int k = 1; k < m.size(); ++k) m.send(k, tag, text);
+}
+
+// Rank 0: writes a probe file into the folder; every other rank must read it
+// back, else the folder is not shared and the job is refused.
+void check_shared_folder(const StudyRun& r, StudyMessenger& m, bool& started) {
+  const std::string token = std::to_string(::getpid()) + "-" +
+                            std::to_string(std::chrono::steady_clock::now().time_since_epoch().count());
+  const std::string probe = r.dir + "/.rank0-probe-" + token;
+  write_text_atomic(probe, token);
+  tell_workers(m, kStart, "go\n" + probe + "\n" + token);
+  started = true;
+  int code = 0;
+  std::string field, problem;
+  for (int k = 1; k < m.size(); ++k) {
+    const std::vector<std::string> p = split_message(m.wait(k).text, 4);
+    if (p[0] != "ok" && problem.empty() && p.size() == 4) {
+      code = std::atoi(p[1].c_str());
+      field = p[2];
+      problem = "rank " + std::to_string(k) + ": " + p[3];
+    }
+  }
+  ::unlink(probe.c_str());
+  if (problem.empty()) return;
+  if (code == 2) throw InputError("", field, problem);
+  throw WorkError(problem);
+}
+
+// Another rank's answer to kStart: its own checks, then the probe file.
+std::string probe_reply(const StudyRun& r, const std::vector<std::string>& start, const std::string& own_problem,
+                        int own_code) {
+  if (!own_problem.empty()) return "error\n" + std::to_string(own_code) + "\n\n" + own_problem;
+  std::string seen;
+  try {
+    seen = read_text_file(start.size() > 1 ? start[1] : "");
+  } catch (const std::exception&) {
+  }
+  if (start.size() > 2 && seen == start[2]) return "ok";
+  return "error\n2\nout_dir\nthe folder '" + r.dir +
+         "' is not the one rank 0 writes (its probe file is not seen here): the output folder must be on a "
+         "filesystem every rank shares";
+}
+
+void record_remote_row(StudyRun& r, RowWriter& w, const std::string& text) {
+  const std::vector<std::string> p = split_message(text, 4);
+  if (p.size() != 4) throw WorkError("MPI: malformed result message");
+  const size_t index = size_t(std::atol(p[0].c_str()));
+  if (index >= r.grid.cases.size()) throw WorkError("MPI: result message for an unknown case");
+  w.write(r.grid.cases[index], p[1] == "1", std::atof(p[2].c_str()), p[3]);
+}
+
+std::string task_message(const std::vector<const StudyCase*>& task) {
+  std::string s;
+  for (const StudyCase* c : task) s += (s.empty() ? "" : ",") + std::to_string(c->index);
+  return s;
+}
+
+// Rank 0's main thread: answers task requests and records rows until every
+// other rank has taken its last "no task left" (or left on a signal).
+void serve_requests(StudyRun& r, StudyMessenger& m, RowWriter& w, TaskQueue& q) {
+  int active = m.size() - 1;
+  StudyMessenger::Message msg;
+  while (active > 0) {
+    if (!m.poll(-1, msg)) {
+      std::this_thread::sleep_for(std::chrono::microseconds(500));
+      continue;
+    }
+    const auto t0 = std::chrono::steady_clock::now();
+    size_t i = 0;
+    if (msg.tag == kRow) {
+      record_remote_row(r, w, msg.text);
+    } else if (msg.tag == kReady && q.next(i)) {
+      m.send(msg.from, kTask, task_message(r.tasks[i]));
+    } else if (msg.tag == kReady) {
+      m.send(msg.from, kTask, "");
+      --active;
+    } else if (msg.tag == kLeave) {
+      --active;
+    }
+    r.s.dispatch_seconds += std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+    ++r.s.dispatch_messages;
+  }
+}
+
+// Rank 0, step 7: the queue served to the other ranks and to a local thread.
+void dispatch_tasks(StudyRun& r, StudyMessenger& m) {
+  RowWriter w(r);
+  TaskQueue q(r, w);
+  const int threads = std::max(1, r.options.threads_per_job);
+  set_fft_threads(threads);
+  m.workers_active = true;
+  std::thread local([&] { work_from_queue(r, w, q, threads); });
+  try {
+    serve_requests(r, m, w, q);
+  } catch (...) {
+    q.close();
+    local.join();
+    throw;
+  }
+  local.join();
+  m.workers_active = false;
+  w.throw_if_failed();
+}
+
+StudyRunSummary run_study_rank0(const StudyConfig& config, const StudyRunOptions& options, StudyMessenger& m) {
+  const auto t0 = std::chrono::steady_clock::now();
+  StudyRun r(config, options);
+  r.s.ranks = m.size();
+  bool started = false;
+  try {
+    select_cases(r);
+    open_folder(r);
+    check_shared_folder(r, m, started);
+    prepare_models(r);
+    write_folder_files(r);
+    plan_pending(r);
+  } catch (const std::exception& e) {
+    tell_workers(m, started ? kBegin : kStart, failure_message(exit_code_of(e), e.what()));
+    throw;
+  }
+  tell_workers(m, kBegin, "go");
+  dispatch_tasks(r, m);
+  finish_run(r);
+  r.s.wall_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  return r.s;
+}
+
+// A rank other than 0: takes tasks from rank 0 and sends their rows back.
+void take_tasks(StudyRun& r, StudyMessenger& m) {
+  const int threads = std::max(1, r.options.threads_per_job);
+  set_fft_threads(threads);
+  omp_set_num_threads(threads);
+  for (;;) {
+    if (r.options.stop && r.options.stop->load()) {
+      m.send(0, kLeave, "");
+      return;
+    }
+    m.send(0, kReady, "");
+    const std::string text = m.wait(0).text;
+    if (text.empty()) return;
+    std::vector<const StudyCase*> task;
+    for (size_t at = 0; at < text.size();) {
+      const size_t comma = std::min(text.find(',', at), text.size());
+      task.push_back(&r.grid.cases.at(size_t(std::atol(text.substr(at, comma - at).c_str()))));
+      at = comma + 1;
+    }
+    run_task(r, task, [&](const StudyCase& c, const CaseOutcome& o, const std::string& row) {
+      char secs[32];
+      std::snprintf(secs, sizeof secs, "%.9g", o.seconds);
+      m.send(0, kRow, std::to_string(c.index) + "\n" + (o.ok ? "1" : "0") + "\n" + secs + "\n" + row);
+      ++r.s.cases_run;
+      r.s.cases_failed += o.ok ? 0 : 1;
+      r.s.case_seconds += o.seconds;
+      return true;
+    });
+  }
+}
+
+StudyRunSummary serve_study(const StudyConfig& config, const StudyRunOptions& options, StudyMessenger& m) {
+  const auto t0 = std::chrono::steady_clock::now();
+  StudyRun r(config, options);
+  r.s.ranks = m.size();
+  int code = 0;
+  std::string problem;
+  try {
+    select_cases(r);
+  } catch (const std::exception& e) {
+    code = exit_code_of(e);
+    problem = e.what();
+  }
+  const std::vector<std::string> start = expect_go(m.wait(0));
+  m.send(0, kReply, probe_reply(r, start, problem, code));
+  expect_go(m.wait(0));
+  r.learned.prepare(config, r.dir, nullptr, options.stop);  // the models rank 0 checked or trained
+  take_tasks(r, m);
+  r.s.wall_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  return r.s;
+}
+
 }  // namespace
+
+StudyMessenger::Message StudyMessenger::wait(int from) {
+  Message m;
+  while (!poll(from, m)) std::this_thread::sleep_for(std::chrono::milliseconds(1));
+  return m;
+}
+
+int mpi_launch_size() {
+  for (const char* name : {"OMPI_COMM_WORLD_SIZE", "PMI_SIZE"}) {
+    const char* v = std::getenv(name);
+    if (v && *v) return std::max(1, std::atoi(v));
+  }
+  return 1;
+}
+
+#if !RECOFOLD_WITH_MPI
+// This build has no MPI (CMake option RECOFOLD_WITH_MPI off): src/study/mpi_dispatch.cc is not compiled.
+bool mpi_built() { return false; }
+bool mpi_start(int*, char***) { return false; }
+void mpi_stop() {}
+void mpi_abort(int) {}
+StudyMessenger* mpi_world() { return nullptr; }
+#endif
+
+void refuse_study_job(StudyMessenger& m, int exit_code, const std::string& message) {
+  tell_workers(m, kStart, failure_message(exit_code, message));
+}
+
+void decline_study_job(StudyMessenger& m, int exit_code, const std::string& message) {
+  expect_go(m.wait(0));  // rank 0 failed too: it reports
+  m.send(0, kReply, "error\n" + std::to_string(exit_code) + "\n\n" + message);
+  expect_go(m.wait(0));
+  throw ReportedByRankZero(exit_code, message);
+}
 
 std::vector<std::string> StudyRunOptions::validate() const {
   std::vector<std::string> e;
   if (out_dir.empty()) e.push_back("out_dir is empty");
   if (jobs < 1) e.push_back("jobs = " + std::to_string(jobs) + "; must be >= 1");
   if (threads_per_job < 0) e.push_back("threads_per_job = " + std::to_string(threads_per_job) + "; must be >= 0");
+  if (messenger && messenger->size() > 1 && jobs > 1)
+    e.push_back("jobs = " + std::to_string(jobs) + "; must be 1 in an MPI job (every rank runs one case at a time)");
   return e;
 }
 
 StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& options) {
+  if (options.messenger && options.messenger->size() > 1)
+    return options.messenger->rank() == 0 ? run_study_rank0(config, options, *options.messenger)
+                                          : serve_study(config, options, *options.messenger);
   const auto t0 = std::chrono::steady_clock::now();
   StudyRun r(config, options);
   select_cases(r);
