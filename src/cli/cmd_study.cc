@@ -60,15 +60,18 @@ void register_cmd_study(CLI::App& app, Context& ctx) {
   sub->add_option("--config", flags->config, "Study config (TOML; see configs/study-example.toml)");
   sub->add_option("--out", flags->out, "Output folder (created; a rerun into it resumes)");
   sub->add_option("--jobs", flags->jobs, "Cases run in parallel (default 0: all cores)");
-  sub->add_option("--shard", flags->shard, "Run shard I of N (I/N) of the cases, e.g. 2/4");
+  sub->add_option("--shard", flags->shard,
+                  "Run shard I of N (I/N) of the cases, e.g. 2/4; 'auto': from the job-array task of the batch "
+                  "scheduler (Slurm, Grid Engine, PBS Pro, LSF; see README)");
   sub->add_option("--merge", flags->merge, "Merge these shard folders into --out")->expected(1, -1);
   sub->footer("Writes results.csv (one row per case, as cases finish; lambda_rule says how each weight was chosen:\n"
               "auto, fixed, or oracle = best PSNR against the truth, which no real scan allows), summary.csv\n"
               "(n, mean, std, 95 % t interval), comparisons.csv (paired differences with intervals and Wilcoxon\n"
               "p-values) and report.html (findings first).\n"
               "On clusters: 'mpirun -np N recofold study ...' runs one study over N MPI ranks (rank 0 hands out\n"
-              "the cases and writes the tables; leave --jobs out). The --out folder must then be on a\n"
-              "filesystem every rank sees (shared, e.g. NFS or Lustre); it is checked with a probe file.\n" +
+              "the cases and writes the tables; leave --jobs out), '--shard auto' runs one task of a job array\n"
+              "(then --merge the task folders). Either way the --out folder must be on a filesystem every\n"
+              "rank or task sees (shared, e.g. NFS or Lustre); MPI jobs check it with a probe file.\n" +
               std::string(kResearchUseLine));
   sub->callback([flags, &ctx] { run(*flags, ctx); });
 }

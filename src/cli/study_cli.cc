@@ -1,6 +1,6 @@
 // SPDX-License-Identifier: Apache-2.0
 // Running a study from the command line: signals, progress, the closing lines,
-// MPI jobs (rank 0 prints).
+// MPI jobs (rank 0 prints) and job-array shards from the scheduler's environment.
 #include "study_cli.h"
 
 #include "output_checks_cli.h"
@@ -34,6 +34,15 @@ std::string seconds(double s) {
   return buf;
 }
 
+// An environment variable as an integer; false when unset or not one.
+bool env_int(const char* name, long& out) {
+  const char* v = std::getenv(name);
+  if (!v || !*v) return false;
+  char* end = nullptr;
+  out = std::strtol(v, &end, 10);
+  return *end == '\0';
+}
+
 // The MPI job this process is a rank of (more than one process), else null.
 StudyMessenger* mpi_job() {
   StudyMessenger* m = mpi_world();
@@ -56,7 +65,7 @@ PreparedRun prepare_run(const Context& ctx, const std::string& config_path, cons
                      "= " + std::to_string(jobs) + "; in an MPI job every rank runs one case at a time: leave --jobs "
                      "out and start more ranks");
   PreparedRun p;
-  p.shard = shard_text.empty() ? Shard{} : Shard::parse(shard_text, "--shard");
+  p.shard = shard_text.empty() ? Shard{} : shard_text == "auto" ? shard_from_environment() : Shard::parse(shard_text, "--shard");
   install_learned_backend();  // learned methods go through it (none in a build without libtorch)
   p.config = StudyConfig::load(config_path);
   apply_threads(ctx);
@@ -113,6 +122,50 @@ const std::vector<FieldFlag>& study_flags() {
   static const std::vector<FieldFlag> map = {{"out_dir", "--out"}, {"merge", "--merge"}, {"jobs", "--jobs"},
                                              {"shard", "--shard"}};
   return map;
+}
+
+// Job arrays: the array index and size as the common batch schedulers put
+// them in each task's environment (common practice; see README "Studies on
+// clusters"). Index steps other than 1 are allowed where the scheduler says
+// the step.
+Shard shard_from_environment() {
+  long id = 0, first = 1, last = 0, count = 0, step = 1;
+  const auto make = [](long index, long n, const std::string& from) {
+    if (n < 1 || index < 1 || index > n)
+      throw InputError("", "--shard",
+                       "auto: " + from + " gives task " + std::to_string(index) + " of " + std::to_string(n) +
+                           ", not a shard I/N with 1 <= I <= N");
+    return Shard::parse(std::to_string(index) + "/" + std::to_string(n), "--shard");
+  };
+  // Slurm: sbatch --array=1-N (or 0-(N-1)).
+  if (env_int("SLURM_ARRAY_TASK_ID", id) && env_int("SLURM_ARRAY_TASK_COUNT", count)) {
+    env_int("SLURM_ARRAY_TASK_MIN", first);
+    env_int("SLURM_ARRAY_TASK_STEP", step);
+    return make((id - first) / std::max(1L, step) + 1, count, "SLURM_ARRAY_TASK_ID/_MIN/_COUNT");
+  }
+  // Grid Engine (SGE, UGE, OGE): qsub -t 1-N; not an array task: SGE_TASK_ID=undefined.
+  if (env_int("SGE_TASK_ID", id) && env_int("SGE_TASK_FIRST", first) && env_int("SGE_TASK_LAST", last)) {
+    env_int("SGE_TASK_STEPSIZE", step);
+    step = std::max(1L, step);
+    return make((id - first) / step + 1, (last - first) / step + 1, "SGE_TASK_ID/_FIRST/_LAST");
+  }
+  // PBS Pro (qsub -J 1-N) and LSF (bsub -J "name[1-N]") name only the index:
+  // the count comes from RECOFOLD_SHARD_COUNT (and the first index, if not 1,
+  // from RECOFOLD_SHARD_FIRST), set in the job script.
+  for (const char* var : {"PBS_ARRAY_INDEX", "LSB_JOBINDEX"}) {
+    if (!env_int(var, id) || (std::string(var) == "LSB_JOBINDEX" && id == 0)) continue;  // LSF: 0 outside arrays
+    if (!env_int("RECOFOLD_SHARD_COUNT", count))
+      throw InputError("", "--shard",
+                       std::string("auto: ") + var + " is set but the number of array tasks is not; set "
+                       "RECOFOLD_SHARD_COUNT=N in the job script");
+    first = 1;
+    env_int("RECOFOLD_SHARD_FIRST", first);
+    return make(id - first + 1, count, std::string(var) + " and RECOFOLD_SHARD_COUNT");
+  }
+  throw InputError("", "--shard",
+                   "auto: no job-array task in the environment (looked for SLURM_ARRAY_TASK_ID with "
+                   "SLURM_ARRAY_TASK_COUNT, SGE_TASK_ID with SGE_TASK_FIRST/SGE_TASK_LAST, PBS_ARRAY_INDEX or "
+                   "LSB_JOBINDEX with RECOFOLD_SHARD_COUNT); give --shard I/N instead");
 }
 
 std::string run_study_command(const Context& ctx, const std::string& config_path, const std::string& out_dir,

@@ -13,6 +13,11 @@ namespace recofold::cli {
 // The study runner's option fields (out_dir, merge, jobs, shard) and their flags.
 const std::vector<FieldFlag>& study_flags();
 
+// `--shard auto`: the shard of this job-array task from the scheduler's
+// environment (Slurm, Grid Engine, PBS Pro, LSF; see study_cli.cc);
+// InputError naming --shard when none is found.
+Shard shard_from_environment();
+
 // Runs `config_path` into `out_dir` with `jobs` parallel cases (0: all
 // cores) and shard "I/N" ("" = whole study); prints the counts, timings and
 // where the report is. SIGINT/SIGTERM finish the cases in flight and stop

@@ -8,7 +8,10 @@
 # - a worker rank killed (kill -9) mid-study stops the job; the same command
 #   again completes it, equal to the uninterrupted run, without duplicate rows;
 # - --jobs 2 under mpirun is refused naming --jobs, once;
-# - a command other than study under a launcher's environment is refused.
+# - a command other than study under a launcher's environment is refused;
+# - --shard auto from Slurm's array variables equals --shard I/N, three tasks
+#   merged equal the one-process run, and no array variables is refused
+#   naming --shard.
 import csv
 import os
 import shutil
@@ -165,6 +168,37 @@ def mpi_refusals(work):
           f"another command under a 3-process launch is refused (exit {out.returncode}: {out.stderr.strip()})")
 
 
+def shard_auto(work, reference):
+    for task in (1, 2, 3):
+        env = clean_env()
+        env.update(SLURM_ARRAY_TASK_ID=str(task + 4), SLURM_ARRAY_TASK_MIN="5", SLURM_ARRAY_TASK_COUNT="3")
+        out = study(["--out", f"auto{task}", "--shard", "auto"], work, env)
+        check(out.returncode == 0, f"--shard auto, Slurm task {task} of 3, exits 0 ({out.stderr.strip()})")
+    out = study(["--out", "explicit2", "--shard", "2/3"], work, clean_env())
+    check(out.returncode == 0, "--shard 2/3 exits 0")
+    check(rows_without_time(f"{work}/auto2/results.csv") == rows_without_time(f"{work}/explicit2/results.csv"),
+          "--shard auto (SLURM_ARRAY_TASK_ID=6, MIN=5, COUNT=3) equals --shard 2/3")
+    out = subprocess.run([EXE, "--quiet", "study", "--merge", "auto1", "auto2", "auto3", "--out", "merged"],
+                         capture_output=True, text=True, cwd=work, env=clean_env())
+    check(out.returncode == 0, f"merge of the 3 array tasks exits 0 ({out.stderr.strip()})")
+    if out.returncode == 0:
+        check(rows_without_time(f"{work}/merged/results.csv") == reference,
+              "3 array tasks merged equal the one-process run")
+    env = clean_env()
+    env.update(SGE_TASK_ID="3", SGE_TASK_FIRST="1", SGE_TASK_LAST="5", SGE_TASK_STEPSIZE="2")
+    out = study(["--out", "sge", "--shard", "auto"], work, env)
+    check(out.returncode == 0 and "in shard 2/3" in out.stdout,
+          f"--shard auto from Grid Engine (task 3 of 1-5 step 2) is shard 2/3 ({out.stdout.strip()[:120]})")
+    out = study(["--out", "none", "--shard", "auto"], work, clean_env())
+    check(out.returncode == 2 and "--shard" in out.stderr and not os.path.exists(f"{work}/none"),
+          f"--shard auto without array variables: exit 2 naming --shard ({out.stderr.strip()[:200]})")
+    env = clean_env()
+    env["PBS_ARRAY_INDEX"] = "2"
+    out = study(["--out", "pbs", "--shard", "auto"], work, env)
+    check(out.returncode == 2 and "RECOFOLD_SHARD_COUNT" in out.stderr,
+          "--shard auto with PBS_ARRAY_INDEX but no count: exit 2 naming RECOFOLD_SHARD_COUNT")
+
+
 def main():
     if not MPIRUN:
         print("FAIL mpirun not found (install openmpi-bin: scripts/install-deps.sh)")
@@ -181,6 +215,7 @@ def main():
               f"one-process study: {CASES} rows without errors")
         mpi_equal_and_kill(work, reference)
         mpi_refusals(work)
+        shard_auto(work, reference)
     finally:
         shutil.rmtree(work, ignore_errors=True)
     print(f"{len(failures)} failure(s)")
