@@ -106,7 +106,8 @@ void report_run(const Context& ctx, const StudyConfig& config, const StudyRunOpt
                (s.ranks > 1 ? " MPI ranks" : " job(s)") + "; overhead " +
                std::to_string(int(std::round(100.0 * (1.0 - std::min(1.0, busy))))) + "%");
   if (s.ranks > 1)
-    say(ctx, "rank 0 handled " + std::to_string(s.dispatch_messages) + " messages in " + seconds(s.dispatch_seconds));
+    say(ctx, "rank 0 handled " + std::to_string(s.dispatch_messages) + " messages in " +
+                 std::to_string(int(std::round(1e6 * s.dispatch_seconds))) + " us");
   say(ctx, "results: " + s.results_path);
   if (!s.complete)
     throw WorkError("study stopped before every case ran (" + std::to_string(s.cases_skipped + s.cases_run) + " of " +
