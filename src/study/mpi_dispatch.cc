@@ -67,6 +67,7 @@ bool mpi_start(int* argc, char*** argv) {
   int provided = 0;
   if (MPI_Init_thread(argc, argv, MPI_THREAD_FUNNELED, &provided) != MPI_SUCCESS) return false;
   g_started = true;
+  mpi_world();  // collective (the per-host split): made here, where every rank passes
   return true;
 }
 

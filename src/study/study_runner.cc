@@ -651,6 +651,7 @@ StudyRunSummary run_study_rank0(const StudyConfig& config, const StudyRunOptions
     plan_pending(r);
   } catch (const std::exception& e) {
     tell_workers(m, started ? kBegin : kStart, failure_message(exit_code_of(e), e.what()));
+    if (exit_code_of(e) == 2) undo_created_folder(r);  // e.g. a folder not shared: nothing left behind
     throw;
   }
   tell_workers(m, kBegin, "go");

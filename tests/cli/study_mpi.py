@@ -7,7 +7,8 @@
 #   alone prints;
 # - a worker rank killed (kill -9) mid-study stops the job; the same command
 #   again completes it, equal to the uninterrupted run, without duplicate rows;
-# - --jobs 2 under mpirun is refused naming --jobs, once;
+# - --jobs 2 under mpirun is refused naming --jobs, once, and so is (naming
+#   --out) an output folder whose probe file the other ranks do not see;
 # - a command other than study under a launcher's environment is refused;
 # - --shard auto from Slurm's array variables equals --shard I/N, three tasks
 #   merged equal the one-process run, and no array variables is refused
@@ -161,6 +162,19 @@ def mpi_refusals(work):
     check(out.stderr.count("recofold: error:") == 1 and "--jobs" in out.stderr,
           f"--jobs under MPI: one message naming --jobs ({out.stderr.strip()[:300]})")
     check(not os.path.exists(f"{work}/jobs"), "--jobs under MPI: no folder made")
+    # A folder not shared: rank 0 and the other ranks resolve the relative
+    # --out in different working folders, so the others do not see its probe file.
+    for d in ("rank0", "others"):
+        os.makedirs(f"{work}/{d}")
+    args = [EXE, "--quiet", "study", "--config", f"{work}/study.toml", "--out", "unshared"]
+    out = subprocess.run([MPIRUN, "--oversubscribe", "--allow-run-as-root", "-np", "1", "--wdir", f"{work}/rank0"] +
+                         args + [":", "-np", "2", "--wdir", f"{work}/others"] + args, capture_output=True, text=True,
+                         cwd=work, timeout=120)
+    check(out.returncode == 2, f"a folder the ranks do not share: exit 2 (got {out.returncode})")
+    check(out.stderr.count("recofold: error:") == 1 and "--out" in out.stderr and "every rank shares" in out.stderr,
+          f"a folder not shared: one message naming --out ({out.stderr.strip()[:250]})")
+    check(os.listdir(f"{work}/rank0") == [] and os.listdir(f"{work}/others") == [],
+          "a folder not shared: no folder left behind")
     env = clean_env()
     env["OMPI_COMM_WORLD_SIZE"] = "3"
     out = subprocess.run([EXE, "phantom", "--help"], capture_output=True, text=True, cwd=work, env=env)
