@@ -17,6 +17,9 @@ PACKAGES=(
   libismrmrd-dev ismrmrd-tools
   # DICOM test images and an independent DICOM reader (tests/reference/io_dicom_pydicom.py only)
   python3-pydicom
+  # studies as MPI jobs (src/study/mpi_dispatch.cc, CMake option RECOFOLD_WITH_MPI;
+  # mpirun for tests/cli/study_mpi.py)
+  libopenmpi-dev openmpi-bin
   # learning (src/learn only)
   libtorch-dev
   # independent reference checks (tests/reference), run with /usr/bin/python3

@@ -18,6 +18,7 @@
 #include "cli_common.h"
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
+#include "recofold/study/mpi_dispatch.h"
 
 #include "command_registry.inc"
 
@@ -122,10 +123,124 @@ int check_stdout() {
   return 0;
 }
 
+// ---------------------------------------------------------------- MPI jobs
+// Only `study` runs as an MPI job (mpi_dispatch.h), and MPI is started only
+// when the launcher announced more than one process. Rank 0 prints; the other
+// ranks print only their own failures ("rank N: ..."), and a failure that
+// would leave other ranks waiting ends the whole job.
+
+// This process's rank as the launcher announced it (0 when none).
+int launch_rank() {
+  for (const char* name : {"OMPI_COMM_WORLD_RANK", "PMI_RANK"}) {
+    const char* v = std::getenv(name);
+    if (v && *v) return std::atoi(v);
+  }
+  return 0;
+}
+
+// The sub-command word of the command line ("" when none).
+std::string sub_command(int argc, char** argv) {
+  for (int i = 1; i < argc; ++i) {
+    const std::string a = argv[i];
+    if (a == "--threads") ++i;
+    else if (!a.empty() && a[0] != '-') return a;
+  }
+  return "";
+}
+
+// A start under a launcher with more than one process that cannot work as
+// an MPI job: its exit code (2), else 0.
+int refuse_mpi_launch(int argc, char** argv) {
+  const int size = recofold::mpi_launch_size();
+  if (size <= 1) return 0;
+  const bool speak = launch_rank() == 0;
+  if (!recofold::mpi_built()) {
+    if (speak)
+      std::cerr << "recofold: error: this build has no MPI support; started as one of " << size
+                << " MPI processes it would run the whole command " << size
+                << " times: run it without mpirun, or build with -DRECOFOLD_WITH_MPI=ON\n";
+    return 2;
+  }
+  const std::string cmd = sub_command(argc, argv);
+  if (cmd != "study") {
+    if (speak)
+      std::cerr << "recofold: error: only 'study' runs as an MPI job (started as one of " << size
+                << " processes); run '" << (cmd.empty() ? std::string("recofold") : cmd) << "' without mpirun\n";
+    return 2;
+  }
+  return 0;
+}
+
+// Ranks other than 0 of an MPI job.
+bool other_rank() {
+  const recofold::StudyMessenger* m = recofold::mpi_world();
+  return m && m->rank() != 0;
+}
+
+// "rank N: " on the ranks other than 0, else "".
+std::string rank_prefix() { return other_rank() ? "rank " + std::to_string(recofold::mpi_world()->rank()) + ": " : ""; }
+
+// After a failure was printed: a rank other than 0, or rank 0 while other
+// ranks work for it, ends the whole job (they would wait for it forever).
+int failed_with(int code) {
+  const recofold::StudyMessenger* m = recofold::mpi_world();
+  if (m && m->size() > 1 && (m->rank() != 0 || m->workers_active)) {
+    std::cerr.flush();
+    recofold::mpi_abort(code);
+  }
+  return code;
+}
+
+int parse_and_run(CLI::App& app, int argc, char** argv) {
+  using namespace recofold;
+  try {
+    app.parse(argc, argv);
+  } catch (const ReportedByRankZero& e) {
+    return e.exit_code();  // rank 0 printed why
+  } catch (const CLI::ParseError& e) {
+    // Help, version and usage errors: rank 0 prints them, once.
+    if (other_rank()) return e.get_exit_code() == 0 ? 0 : 2;
+    if (e.get_exit_code() == 0) {
+      const int rc = app.exit(e);
+      return check_stdout() ? 1 : rc;
+    }
+    if (e.get_name() == "RequiredError" && app.get_subcommands().empty()) {
+      // Name the word that is not a sub-command, if there is one (skipping --threads' value).
+      const std::string unknown = sub_command(argc, argv);
+      if (!unknown.empty())
+        std::cerr << "recofold: error: unknown sub-command '" << unknown << "'; run 'recofold --help' for the list\n";
+      else
+        std::cerr << "recofold: error: " << single_line(e.what()) << "; run 'recofold --help' for the list of commands\n";
+      return 2;
+    }
+    std::cerr << "recofold: error: " << readable_numbers(single_line(e.what())) << "\n";
+    return 2;
+  } catch (const InputError& e) {
+    std::cerr << "recofold: error: " << rank_prefix() << single_line(e.what()) << "\n";
+    return failed_with(2);
+  } catch (const WorkError& e) {
+    std::cerr << "recofold: failed: " << rank_prefix() << single_line(e.what()) << "\n";
+    return failed_with(1);
+  } catch (const std::bad_alloc&) {
+    std::cerr << "recofold: failed: " << rank_prefix()
+              << "out of memory (the inputs or flags ask for more memory than is available)\n";
+    return failed_with(1);
+  } catch (const std::exception& e) {
+    std::cerr << "recofold: failed: " << rank_prefix() << single_line(e.what()) << "\n";
+    return failed_with(1);
+  }
+  return check_stdout();
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
   using namespace recofold;
+  if (const int refused = refuse_mpi_launch(argc, argv)) return refused;
+  if (mpi_launch_size() > 1 && !mpi_start(&argc, &argv)) {
+    std::cerr << "recofold: failed: MPI could not be started (MPI_Init)\n";
+    return 1;
+  }
   cli::Context ctx;
   for (int i = 0; i < argc; ++i) ctx.command_line += (i ? " " : "") + std::string(argv[i]);
 
@@ -144,46 +259,7 @@ int main(int argc, char** argv) {
   install_flag_limits(app);
   app.footer(kResearchUseLine);
 
-  try {
-    app.parse(argc, argv);
-  } catch (const CLI::CallForHelp& e) {
-    const int rc = app.exit(e);
-    return check_stdout() ? 1 : rc;
-  } catch (const CLI::CallForAllHelp& e) {
-    const int rc = app.exit(e);
-    return check_stdout() ? 1 : rc;
-  } catch (const CLI::CallForVersion& e) {
-    const int rc = app.exit(e);
-    return check_stdout() ? 1 : rc;
-  } catch (const CLI::ParseError& e) {
-    if (e.get_name() == "RequiredError" && app.get_subcommands().empty()) {
-      // Name the word that is not a sub-command, if there is one (skipping --threads' value).
-      std::string unknown;
-      for (int i = 1; i < argc && unknown.empty(); ++i) {
-        const std::string a = argv[i];
-        if (a == "--threads") ++i;
-        else if (!a.empty() && a[0] != '-') unknown = a;
-      }
-      if (!unknown.empty())
-        std::cerr << "recofold: error: unknown sub-command '" << unknown << "'; run 'recofold --help' for the list\n";
-      else
-        std::cerr << "recofold: error: " << single_line(e.what()) << "; run 'recofold --help' for the list of commands\n";
-      return 2;
-    }
-    std::cerr << "recofold: error: " << readable_numbers(single_line(e.what())) << "\n";
-    return 2;
-  } catch (const InputError& e) {
-    std::cerr << "recofold: error: " << single_line(e.what()) << "\n";
-    return 2;
-  } catch (const WorkError& e) {
-    std::cerr << "recofold: failed: " << single_line(e.what()) << "\n";
-    return 1;
-  } catch (const std::bad_alloc&) {
-    std::cerr << "recofold: failed: out of memory (the inputs or flags ask for more memory than is available)\n";
-    return 1;
-  } catch (const std::exception& e) {
-    std::cerr << "recofold: failed: " << single_line(e.what()) << "\n";
-    return 1;
-  }
-  return check_stdout();
+  const int rc = parse_and_run(app, argc, argv);
+  mpi_stop();
+  return rc;
 }

@@ -22,6 +22,7 @@
 
 #include "recofold/core/progress.h"
 #include "recofold/study/case_grid.h"
+#include "recofold/study/mpi_dispatch.h"
 #include "recofold/study/study_config.h"
 
 namespace recofold {
@@ -40,6 +41,15 @@ struct StudyRunOptions {
   // Hold the folder's lock (folder_lock.h) for the run; false only when the
   // caller holds the StudyFolderLock of out_dir itself.
   bool lock = true;
+  // Set (size > 1): this process is one rank of an MPI job (mpi_dispatch.h).
+  // Rank 0 checks and prepares the folder, trains learned models, hands the
+  // pending cases out one at a time and alone writes results.csv and the
+  // final outputs; every rank (rank 0 on a second thread) runs cases and
+  // writes their images into the folder, which must be shared by all ranks
+  // (checked with a probe file: InputError on out_dir otherwise). jobs must
+  // be 1; threads_per_job applies to every rank. Progress goes to rank 0's
+  // `progress` only.
+  StudyMessenger* messenger = nullptr;
   std::vector<std::string> validate() const;  // "jobs = 0; must be >= 1"
 };
 
@@ -56,6 +66,9 @@ struct StudyRunSummary {
   double case_seconds = 0.0;  // sum of the reconstruction times of the cases run here
   double training_seconds = 0.0;  // loading and training learned models (part of wall_seconds)
   std::string results_path, summary_path, report_path;
+  int ranks = 1;                  // processes of the MPI job (1: none)
+  double dispatch_seconds = 0.0;  // rank 0 of an MPI job: time spent handling messages (rows, task requests)
+  int dispatch_messages = 0;      // rank 0: messages handled
 };
 
 // Runs the (shard of the) study into options.out_dir, skipping cases whose
@@ -64,7 +77,17 @@ struct StudyRunSummary {
 // corrupt, or that another run holds (folder_lock.h). Failing cases are
 // recorded in their rows and do not stop the study; rows of cases whose
 // outputs could not be written (is_output_failure) are run again on resume.
+// In an MPI job (options.messenger) every rank calls it with the same config
+// and options; a rank other than 0 whose run rank 0 refused or stopped gets
+// ReportedByRankZero (rank 0 has the error), and returns only its own counts.
 StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& options);
+
+// For an MPI job whose command failed before run_study: rank 0 tells the
+// other ranks (they get ReportedByRankZero) ...
+void refuse_study_job(StudyMessenger& messenger, int exit_code, const std::string& message);
+// ... and any other rank hands its failure to rank 0, which reports it (or
+// its own). Always throws ReportedByRankZero.
+[[noreturn]] void decline_study_job(StudyMessenger& messenger, int exit_code, const std::string& message);
 
 // Combines shard folders into `out_dir`: every folder must hold the same
 // config (same hash) and no case may appear twice; the merged results.csv is
