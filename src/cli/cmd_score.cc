@@ -168,7 +168,7 @@ void register_cmd_score(CLI::App& app, Context& ctx) {
                   "Data range L for PSNR and SSIM (default: max - min of the reference)");
   sub->add_option("--index", flags->index, "Image I of inputs that hold a stack (default 0)")
       ->check(CLI::NonNegativeNumber);
-  sub->footer("Complex images are scored by magnitude. Definitions and sources: DEVELOPERS.md, section "Sources".\n" + std::string(kResearchUseLine));
+  sub->footer("Complex images are scored by magnitude. Definitions and sources: DEVELOPERS.md, section Sources.\n" + std::string(kResearchUseLine));
   sub->callback([flags, sub, &ctx] { run_score(*flags, *sub, ctx); });
 }
 
