@@ -12,6 +12,8 @@
 #include <cstdio>
 #include <cstring>
 #include <iostream>
+#include <vector>
+#include <sstream>
 #include <new>
 #include <regex>
 
@@ -212,6 +214,24 @@ int parse_and_run(CLI::App& app, int argc, char** argv) {
       else
         std::cerr << "recofold: error: " << single_line(e.what()) << "; run 'recofold --help' for the list of commands\n";
       return 2;
+    }
+    if (dynamic_cast<const CLI::ExtrasError*>(&e) != nullptr) {
+      // CLI11 lists the unexpected words last-first; name them in command-line order.
+      const std::string what = single_line(e.what()), marker = "not expected: ";
+      const size_t at = what.find(marker);
+      if (at != std::string::npos) {
+        std::vector<std::string> words;
+        std::istringstream in(what.substr(at + marker.size()));
+        for (std::string w; in >> w;) words.push_back(w);
+        std::string listed;
+        for (auto it = words.rbegin(); it != words.rend(); ++it) listed += (listed.empty() ? "" : " ") + *it;
+        std::cerr << "recofold: error: unexpected argument" << (words.size() == 1 ? "" : "s") << ": " << listed
+                  << " (see 'recofold " << (app.get_subcommands().empty() ? std::string("--help")
+                                                                          : app.get_subcommands().front()->get_name() +
+                                                                                " --help")
+                  << "')\n";
+        return 2;
+      }
     }
     std::cerr << "recofold: error: " << readable_numbers(single_line(e.what())) << "\n";
     return 2;
