@@ -615,9 +615,15 @@ void write_ismrmrd_file(const std::string& path, const Measurement& m, const std
         acq.center_sample() = static_cast<uint16_t>(nx / 2);
         for (Index c = 0; c < coils; ++c) acq.setChannelActive(static_cast<uint16_t>(c));
         acq.idx().kspace_encode_step_1 = static_cast<uint16_t>(r);
-        acq.read_dir()[0] = 1.0f;
-        acq.phase_dir()[1] = 1.0f;
-        acq.slice_dir()[2] = 1.0f;
+        {
+          // The header is packed (2-byte alignment): its float fields are set on a copy, not
+          // through the accessors' float pointers (a misaligned store).
+          ISMRMRD::AcquisitionHeader h = acq.getHead();
+          h.read_dir[0] = 1.0f;
+          h.phase_dir[1] = 1.0f;
+          h.slice_dir[2] = 1.0f;
+          acq.setHead(h);
+        }
         for (Index c = 0; c < coils; ++c)
           for (Index s = 0; s < nx; ++s)
             acq.data(static_cast<uint16_t>(s), static_cast<uint16_t>(c)) =

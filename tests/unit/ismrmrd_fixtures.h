@@ -92,6 +92,13 @@ inline std::string header_xml(const RawSpec& r) {
 
 inline void set_flag(ISMRMRD::Acquisition& a, int bit) { a.setFlag(static_cast<uint64_t>(bit)); }
 
+// The packed header's floats are not 4-byte aligned: set them on a copy of the header.
+inline void set_sample_time_us(ISMRMRD::Acquisition& a, float us) {
+  ISMRMRD::AcquisitionHeader h = a.getHead();
+  h.sample_time_us = us;
+  a.setHead(h);
+}
+
 // Writes `r` to `path` (replacing it).
 inline void write_raw(const std::string& path, const RawSpec& r) {
   std::remove(path.c_str());
@@ -103,7 +110,7 @@ inline void write_raw(const std::string& path, const RawSpec& r) {
   for (int i = 0; i < r.noise_scans; ++i) {
     ISMRMRD::Acquisition a(static_cast<uint16_t>(ex), static_cast<uint16_t>(r.coils));
     set_flag(a, ISMRMRD::ISMRMRD_ACQ_IS_NOISE_MEASUREMENT);
-    a.sample_time_us() = 5.0f;
+    set_sample_time_us(a, 5.0f);
     // Correlated noise: channel c = n_c + 0.5 n_{c-1}, unit std per part of n.
     std::vector<std::complex<float>> prev(static_cast<size_t>(ex));
     for (int c = 0; c < r.coils; ++c)
@@ -136,7 +143,7 @@ inline void write_raw(const std::string& path, const RawSpec& r) {
         const int channels = (line_no == 5 && r.coils_of_line5 > 0) ? r.coils_of_line5 : r.coils;
         ISMRMRD::Acquisition a(static_cast<uint16_t>(ex), static_cast<uint16_t>(channels));
         a.center_sample() = static_cast<uint16_t>(ex / 2);
-        a.sample_time_us() = 5.0f;
+        set_sample_time_us(a, 5.0f);
         a.idx().kspace_encode_step_1 = static_cast<uint16_t>(e1);
         a.idx().slice = static_cast<uint16_t>(z);
         a.idx().average = static_cast<uint16_t>(av);
