@@ -610,15 +610,15 @@ void write_ismrmrd_file(const std::string& path, const Measurement& m, const std
           acq.setFlag(ISMRMRD::ISMRMRD_ACQ_LAST_IN_ENCODE_STEP1);
           acq.setFlag(ISMRMRD::ISMRMRD_ACQ_LAST_IN_MEASUREMENT);
         }
-        acq.scan_counter() = static_cast<uint32_t>(i);
         acq.available_channels() = static_cast<uint16_t>(coils);
         acq.center_sample() = static_cast<uint16_t>(nx / 2);
         for (Index c = 0; c < coils; ++c) acq.setChannelActive(static_cast<uint16_t>(c));
         acq.idx().kspace_encode_step_1 = static_cast<uint16_t>(r);
         {
-          // The header is packed (2-byte alignment): its float fields are set on a copy, not
-          // through the accessors' float pointers (a misaligned store).
+          // The header is packed (2-byte alignment): its 4-byte fields are set on a copy, not
+          // through the accessors' references (a misaligned store).
           ISMRMRD::AcquisitionHeader h = acq.getHead();
+          h.scan_counter = static_cast<uint32_t>(i);
           h.read_dir[0] = 1.0f;
           h.phase_dir[1] = 1.0f;
           h.slice_dir[2] = 1.0f;
