@@ -131,6 +131,17 @@ void add_kspace_noise(NdArray<cfloat>& kspace, const NdArray<uint8_t>& mask, dou
   }
 }
 
+void set_simulated_truth(Measurement& m, const Phantom* analytic, const ImageC& raster, MriTruth truth) {
+  const Index n = raster.size();
+  NdArray<cfloat> t(Shape{raster.rows(), raster.cols()});
+  std::copy(raster.data(), raster.data() + n, t.data.begin());
+  m.truth = std::move(t);
+  m.truth_is_complex = analytic ? analytic->is_complex() : false;
+  if (!analytic)
+    for (Index i = 0; i < n && !m.truth_is_complex; ++i) m.truth_is_complex = raster.data()[i].imag() != 0.0f;
+  m.truth_kind = std::string(to_string(truth));
+}
+
 Measurement simulate_mri(const Phantom* analytic, const ImageC& raster, double pixel_spacing_mm,
                          const SamplingMask& mask, const MriSimulationOptions& o) {
   throw_if_invalid(o.validate());
@@ -193,13 +204,7 @@ Measurement simulate_mri(const Phantom* analytic, const ImageC& raster, double p
   d.texts["kspace_source"] = source;
   d.texts["truth"] = std::string(to_string(o.truth));
   m.mri = std::move(d);
-  NdArray<cfloat> truth(Shape{ny, nx});
-  std::copy(raster.data(), raster.data() + n, truth.data.begin());
-  m.truth = std::move(truth);
-  m.truth_is_complex = analytic ? analytic->is_complex() : false;
-  if (!analytic)
-    for (Index i = 0; i < n && !m.truth_is_complex; ++i) m.truth_is_complex = raster.data()[i].imag() != 0.0f;
-  m.truth_kind = std::string(to_string(o.truth));
+  set_simulated_truth(m, analytic, raster, o.truth);
   return m;
 }
 

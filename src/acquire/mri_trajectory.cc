@@ -88,13 +88,7 @@ Measurement simulate_mri_trajectory_measurement(const Phantom* analytic, const I
   d.texts["kspace_source"] = s.kspace_source;
   d.texts["truth"] = std::string(to_string(o.truth));
   m.mri = std::move(d);
-  NdArray<cfloat> truth(Shape{ny, nx});
-  std::copy(raster.data(), raster.data() + n, truth.data.begin());
-  m.truth = std::move(truth);
-  m.truth_is_complex = analytic ? analytic->is_complex() : false;
-  if (!analytic)
-    for (Index i = 0; i < n && !m.truth_is_complex; ++i) m.truth_is_complex = raster.data()[i].imag() != 0.0f;
-  m.truth_kind = std::string(to_string(o.truth));
+  set_simulated_truth(m, analytic, raster, o.truth);
   return m;
 }
 

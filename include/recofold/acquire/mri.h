@@ -71,6 +71,11 @@ std::string_view to_string(MriTruth t);
 Measurement simulate_mri(const Phantom* analytic, const ImageC& raster, double pixel_spacing_mm,
                          const SamplingMask& mask, const MriSimulationOptions& options);
 
+// The ground truth of a simulated MRI measurement (Cartesian or on a trajectory): the raster
+// [ny, nx]; complex when the analytic object is (or, raster-only, when any pixel has an
+// imaginary part); truth_kind = to_string(truth).
+void set_simulated_truth(Measurement& m, const Phantom* analytic, const ImageC& raster, MriTruth truth);
+
 // Noiseless k-space [C, ny, nx] of the phantom with the given coil maps
 // options, on the full grid, by the multi-coil analytic route above.
 NdArray<cfloat> oversampled_raster_kspace(const Phantom& p, const CoilArrayOptions& coils, Index ny, Index nx,
