@@ -25,6 +25,8 @@ PACKAGES=(
   # independent reference checks (tests/reference), run with /usr/bin/python3
   python3 python3-numpy python3-scipy python3-skimage python3-pywt
   python3-h5py python3-nibabel python3-torch
+  # GNU time: peak memory of a benchmarked process measured from a small parent (bench/run_all.py)
+  time
   # fuzz targets (make fuzz): clang with libFuzzer and the sanitizer runtimes,
   # and clang's OpenMP runtime
   clang-14 libclang-rt-14-dev libomp-14-dev
