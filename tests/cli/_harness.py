@@ -3,6 +3,49 @@
 # One bad-input rule for every command: exit code 2, a message naming each
 # expected word (file, line, key, flag), and no file left behind.
 import os
+import subprocess
+
+
+class Checks:
+    """A test's list of checks: checks(cond, what) prints "ok"/"FAIL" and keeps the failures.
+
+    New CLI tests use one of these (and recofold() / must_succeed() below) instead of their own
+    check/run helpers; summary() prints the count and returns the test's exit code."""
+
+    def __init__(self):
+        self.failures = []
+
+    def __call__(self, cond, what):
+        print(("ok   " if cond else "FAIL ") + what)
+        if not cond:
+            self.failures.append(what)
+        return cond
+
+    def summary(self):
+        print(f"{len(self.failures)} failure(s)")
+        return 1 if self.failures else 0
+
+
+def recofold(exe, args, cwd, env=None, quiet=True):
+    """Runs `exe [--quiet] args` in `cwd`; the subprocess.run result (text output captured)."""
+    return subprocess.run([exe] + (["--quiet"] if quiet else []) + list(args), capture_output=True, text=True,
+                          cwd=cwd, env=env)
+
+
+def must_succeed(exe, args, cwd, checks, env=None):
+    """recofold() that must exit 0 (a failed check naming the command and its message otherwise)."""
+    out = recofold(exe, args, cwd, env)
+    checks(out.returncode == 0, " ".join(list(args)[:5]) + f" exits 0 (got {out.returncode}: {out.stderr.strip()})")
+    return out
+
+
+def launcher_free_env(extra=None):
+    """This process's environment without MPI launcher and job-array variables (so a test
+    decides what the command sees), plus `extra`."""
+    env = {k: v for k, v in os.environ.items()
+           if not k.startswith(("SLURM_", "SGE_", "PBS_", "LSB_", "OMPI_COMM_WORLD", "PMI_", "RECOFOLD_SHARD"))}
+    env.update(extra or {})
+    return env
 
 
 def bad_input_case(name, runner, must_mention, workdir, failures, one_line=False):

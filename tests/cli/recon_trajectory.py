@@ -10,7 +10,6 @@
 # (+8.0); the test asks for CG > gridding + 2 dB and TV > gridding + 6 dB.
 import os
 import shutil
-import subprocess
 import sys
 import tempfile
 
@@ -22,24 +21,17 @@ import _harness  # noqa: E402  (shared bad-input rule)
 
 EXE = os.environ.get("RECOFOLD_EXE", "./recofold")
 SRC = os.environ.get("RECOFOLD_SOURCE_DIR", os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", ".."))
-failures = []
+check = _harness.Checks()
+failures = check.failures
 N, COILS, SPOKES, READOUT, SIGMA = 64, 4, 32, 64, 0.003
 
 
 def run(args, cwd):
-    return subprocess.run([EXE, "--quiet"] + args, capture_output=True, text=True, cwd=cwd)
-
-
-def check(cond, what):
-    print(("ok   " if cond else "FAIL ") + what)
-    if not cond:
-        failures.append(what)
+    return _harness.recofold(EXE, args, cwd)
 
 
 def must_succeed(args, cwd):
-    out = run(args, cwd)
-    check(out.returncode == 0, " ".join(args[:5]) + f" exits 0 (got {out.returncode}: {out.stderr.strip()})")
-    return out
+    return _harness.must_succeed(EXE, args, cwd, check)
 
 
 def bad_case(name, args, must_mention, workdir):
@@ -125,9 +117,10 @@ def reconstructions(tmp):
         check(scores[name] > g + 6.0, f"{name} beats gridding by > 6 dB ({scores[name] - g:.2f})")
 
 
-def edited_copy(tmp, name, edit):
+def edited_copy(tmp, source, name, edit):
+    """A copy `name` of `source` (in tmp) with edit(h5py file) applied."""
     path = os.path.join(tmp, name)
-    shutil.copy(os.path.join(tmp, "meas.h5"), path)
+    shutil.copy(os.path.join(tmp, source), path)
     with h5py.File(path, "r+") as f:
         edit(f)
     return name
@@ -138,12 +131,18 @@ def replace(f, path, data):
     f[path] = data
 
 
-def edited_trajectory(tmp, name, edit):
-    path = os.path.join(tmp, name)
-    shutil.copy(os.path.join(tmp, "tr.h5"), path)
-    with h5py.File(path, "r+") as f:
-        edit(f)
-    return name
+def set_point(dataset, row, col, value):
+    """An edit: one coordinate of the points in `dataset` set to `value`."""
+    def edit(f):
+        k = f[dataset][...]
+        k[row, col] = value
+        replace(f, dataset, k)
+    return edit
+
+
+def shorten(dataset, by):
+    """An edit: the last `by` entries of `dataset`'s last axis dropped."""
+    return lambda f: replace(f, dataset, f[dataset][..., :-by])
 
 
 def bad_inputs(tmp):
@@ -160,40 +159,19 @@ def bad_inputs(tmp):
              ["--oversampling"], tmp)
     bad_case("--trajectory missing", sim + ["--trajectory", "none.h5", "--out", "x.h5"], ["--trajectory", "none.h5"], tmp)
 
-    def outside(f):
-        k = f["trajectory/k"][...]
-        k[5, 0] = N / 2 + 1
-        replace(f, "trajectory/k", k)
-
-    def nan(f):
-        k = f["trajectory/k"][...]
-        k[7, 1] = np.nan
-        replace(f, "trajectory/k", k)
-
-    def short_dcf(f):
-        replace(f, "trajectory/dcf", f["trajectory/dcf"][:-3])
-
+    outside = set_point("trajectory/k", 5, 0, N / 2 + 1)
+    nan = set_point("trajectory/k", 7, 1, np.nan)
+    short_dcf = shorten("trajectory/dcf", 3)
     for name, edit, words in [("t_outside.h5", outside, ["t_outside.h5", "/trajectory/k", "point 5"]),
                               ("t_nan.h5", nan, ["t_nan.h5", "/trajectory/k"]),
                               ("t_dcf.h5", short_dcf, ["t_dcf.h5", "/trajectory/dcf"])]:
-        edited_trajectory(tmp, name, edit)
+        edited_copy(tmp, "tr.h5", name, edit)
         bad_case(f"simulate --trajectory {name}", sim + ["--trajectory", name, "--out", "x.h5"], words, tmp)
 
-    def m_outside(f):
-        k = f["mri/trajectory/k"][...]
-        k[3, 1] = -(N / 2 + 0.5)
-        replace(f, "mri/trajectory/k", k)
-
-    def m_nan(f):
-        k = f["mri/trajectory/k"][...]
-        k[0, 0] = np.nan
-        replace(f, "mri/trajectory/k", k)
-
-    def m_dcf(f):
-        replace(f, "mri/trajectory/dcf", f["mri/trajectory/dcf"][:-1])
-
-    def m_kspace(f):
-        replace(f, "mri/kspace", f["mri/kspace"][:, :-2])
+    m_outside = set_point("mri/trajectory/k", 3, 1, -(N / 2 + 0.5))
+    m_nan = set_point("mri/trajectory/k", 0, 0, np.nan)
+    m_dcf = shorten("mri/trajectory/dcf", 1)
+    m_kspace = shorten("mri/kspace", 2)
 
     def m_grid(f):
         replace(f, "mri/kspace", np.zeros((COILS, N, N), np.complex64))
@@ -203,7 +181,7 @@ def bad_inputs(tmp):
                               ("m_dcf.h5", m_dcf, ["m_dcf.h5", "/mri/trajectory/dcf"]),
                               ("m_kspace.h5", m_kspace, ["m_kspace.h5", "/mri/kspace"]),
                               ("m_grid.h5", m_grid, ["m_grid.h5", "/mri/kspace"])]:
-        edited_copy(tmp, name, edit)
+        edited_copy(tmp, "meas.h5", name, edit)
         bad_case(f"recon of {name}", ["recon", "--meas", name, "--method", "cg", "--out", "x.h5"], words, tmp)
 
     rec = ["recon", "--meas", "meas.h5", "--out", "x.h5"]

@@ -22,10 +22,13 @@ import sys
 import tempfile
 import time
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import _harness  # noqa: E402  (shared checks and environment)
+
 EXE = os.environ.get("RECOFOLD_EXE", "./recofold")
 SRC = os.environ.get("RECOFOLD_SOURCE_DIR", ".")
 MPIRUN = shutil.which("mpirun")
-failures = []
+check = _harness.Checks()
 
 # 24 cases; fista's 3000 iterations make a case last long enough (~0.1-1 s)
 # to kill a rank in the middle of the study.
@@ -56,12 +59,6 @@ iters = 20
 CASES = 24
 
 
-def check(cond, what):
-    print(("ok   " if cond else "FAIL ") + what)
-    if not cond:
-        failures.append(what)
-
-
 def rows_without_time(path):
     with open(path, newline="") as f:
         rows = list(csv.reader(f))
@@ -72,8 +69,7 @@ def rows_without_time(path):
 
 
 def study(args, cwd, env=None):
-    return subprocess.run([EXE, "--quiet", "study", "--config", "study.toml"] + args, capture_output=True,
-                          text=True, cwd=cwd, env=env)
+    return _harness.recofold(EXE, ["study", "--config", "study.toml"] + args, cwd, env)
 
 
 def mpi_cmd(n, args):
@@ -82,11 +78,7 @@ def mpi_cmd(n, args):
 
 
 def clean_env():
-    env = dict(os.environ)
-    for k in list(env):
-        if k.startswith(("SLURM_", "SGE_", "PBS_", "LSB_", "OMPI_COMM_WORLD", "PMI_", "RECOFOLD_SHARD")):
-            del env[k]
-    return env
+    return _harness.launcher_free_env()
 
 
 def rank_pid(rank, out_dir):
@@ -232,8 +224,7 @@ def main():
         shard_auto(work, reference)
     finally:
         shutil.rmtree(work, ignore_errors=True)
-    print(f"{len(failures)} failure(s)")
-    return 1 if failures else 0
+    return check.summary()
 
 
 if __name__ == "__main__":

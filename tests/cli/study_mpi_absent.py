@@ -6,13 +6,15 @@
 # command once per process into one folder; started as the only process it
 # runs the study as usual.
 import os
-import subprocess
 import sys
 import tempfile
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import _harness  # noqa: E402  (shared checks and environment)
+
 EXE = os.environ.get("RECOFOLD_EXE", "./recofold")
 SRC = os.environ.get("RECOFOLD_SOURCE_DIR", ".")
-failures = []
+check = _harness.Checks()
 
 CONFIG = f"""
 name = "no-mpi"
@@ -27,21 +29,17 @@ method = "zero-filled"
 """
 
 
-def check(cond, what):
-    print(("ok   " if cond else "FAIL ") + what)
-    if not cond:
-        failures.append(what)
-
-
 def run(env_extra, out, work):
-    env = {k: v for k, v in os.environ.items() if not k.startswith(("OMPI_COMM_WORLD", "PMI_"))}
-    env.update(env_extra)
-    return subprocess.run([EXE, "--quiet", "study", "--config", "study.toml", "--out", out], capture_output=True,
-                          text=True, cwd=work, env=env)
+    return _harness.recofold(EXE, ["study", "--config", "study.toml", "--out", out], work,
+                             _harness.launcher_free_env(env_extra))
 
 
 def main():
-    work = tempfile.mkdtemp(prefix="study-no-mpi-")
+    with tempfile.TemporaryDirectory(prefix="study-no-mpi-") as work:
+        return checks_in(work)
+
+
+def checks_in(work):
     open(f"{work}/study.toml", "w").write(CONFIG)
     for name, env in (("Open MPI", {"OMPI_COMM_WORLD_SIZE": "3"}), ("PMI", {"PMI_SIZE": "2"})):
         out = run(env, "refused", work)
@@ -53,8 +51,7 @@ def main():
     out = run({"OMPI_COMM_WORLD_SIZE": "1"}, "single", work)
     check(out.returncode == 0 and os.path.isfile(f"{work}/single/summary.csv"),
           f"one MPI process: the study runs ({out.stderr.strip()})")
-    print(f"{len(failures)} failure(s)")
-    return 1 if failures else 0
+    return check.summary()
 
 
 if __name__ == "__main__":
