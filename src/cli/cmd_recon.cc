@@ -68,7 +68,7 @@ const std::vector<FieldFlag>& recon_flags() {
       {"pdhg.sigma", "--sigma"},
       {"fbp.filter", "--filter"},
       {"zero_filled.combine", "--combine"},
-      {"zero_filled.maps", "--maps"},
+      {"maps", "--maps"},
       {"nonneg", "--nonneg"},
       {"model", "--model"},
       {"modality", "--meas"},
@@ -169,8 +169,8 @@ ReconSpec spec_from_flags(const ReconFlags& f, const CLI::App& sub) {
     else errors.add("--combine", "'" + f.combine + "'", "expected sos or sense");
   }
   if (given(sub, "--maps")) {
-    if (const auto c = parse_coil_map_source(f.maps)) s.zero_filled.maps = *c;
-    else errors.add("--maps", "'" + f.maps + "'", "expected measured or estimated");
+    if (const auto c = parse_coil_map_source(f.maps)) s.maps = *c;
+    else errors.add("--maps", "'" + f.maps + "'", "expected one of " + coil_map_source_names());
   }
   if (f.nonneg && f.no_nonneg) errors.add("--nonneg", "", "conflicts with --no-nonneg");
   if (f.nonneg) s.nonneg = true;
@@ -296,9 +296,11 @@ void register_cmd_recon(CLI::App& app, Context& ctx) {
                   "(root sum of squares, magnitude)")
       ->group(z);
   sub->add_option("--maps", f->maps,
-                  "MRI with --combine sense: measured (default; the file's coil maps) | estimated (low-resolution "
-                  "estimate from the fully sampled centre)")
-      ->group(z);
+                  "MRI coil maps of every method (zero-filled: with --combine sense): measured (default; the "
+                  "file's maps) | estimated or lowres (low-resolution estimate from the fully sampled centre) | "
+                  "espirit (ESPIRiT from the calibration data: the fully sampled centre, or the gridded centre of "
+                  "a trajectory)")
+      ->group("MRI");
   sub->add_option("--model", f->model, "Model file of --method unrolled (from `recofold train`)")
       ->group("Learned (--method unrolled)");
   sub->footer("Unset flags take the method's defaults (DEVELOPERS.md: where defaults live); a flag that does not "

@@ -36,14 +36,22 @@ std::optional<LambdaRule> parse_lambda_rule(std::string_view text) {
 std::string accepted_lambda_rules() { return "discrepancy, held-out-views, oracle"; }
 
 std::string_view to_string(CoilMapSource source) {
-  return source == CoilMapSource::kEstimated ? "estimated" : "measured";
+  switch (source) {
+    case CoilMapSource::kEstimated: return "estimated";
+    case CoilMapSource::kEspirit: return "espirit";
+    case CoilMapSource::kMeasured: break;
+  }
+  return "measured";
 }
 
 std::optional<CoilMapSource> parse_coil_map_source(std::string_view text) {
   if (text == "measured") return CoilMapSource::kMeasured;
-  if (text == "estimated") return CoilMapSource::kEstimated;
+  if (text == "estimated" || text == "lowres") return CoilMapSource::kEstimated;
+  if (text == "espirit") return CoilMapSource::kEspirit;
   return std::nullopt;
 }
+
+std::string coil_map_source_names() { return "measured, estimated (or lowres), espirit"; }
 
 int max_wavelet_levels(const Shape& s) {
   if (s.rank() != 2) return 0;
@@ -129,8 +137,8 @@ ReconSpec ReconSpec::with_defaults(Modality modality) const {
   if (method == Method::kFbp && !r.fbp.filter) r.fbp.filter = FbpFilter::kRamLak;
   if (method == Method::kZeroFilled && modality == Modality::kMri) {
     if (!r.zero_filled.combine) r.zero_filled.combine = CoilCombine::kSensitivity;
-    if (!r.zero_filled.maps) r.zero_filled.maps = CoilMapSource::kMeasured;
   }
+  if (modality == Modality::kMri && method != Method::kFbp && !r.maps) r.maps = CoilMapSource::kMeasured;
   return r;
 }
 
@@ -172,12 +180,12 @@ void ReconSpec::check_applicable(Modality modality, const ReconSpec& r, std::vec
   if (method != Method::kZeroFilled || modality != Modality::kMri) {
     if (zero_filled.combine)
       not_for(e, "zero_filled.combine", std::string(to_string(*zero_filled.combine)), "method zero-filled on mri");
-    if (zero_filled.maps)
-      not_for(e, "zero_filled.maps", std::string(to_string(*zero_filled.maps)), "method zero-filled on mri");
   }
-  if (zero_filled.maps && *zero_filled.maps == CoilMapSource::kEstimated && zero_filled.combine &&
+  if (maps && (modality != Modality::kMri || method == Method::kFbp))
+    not_for(e, "maps", std::string(to_string(*maps)), "mri measurements");
+  if (maps && *maps != CoilMapSource::kMeasured && method == Method::kZeroFilled && zero_filled.combine &&
       *zero_filled.combine != CoilCombine::kSensitivity)
-    e.push_back({"zero_filled.maps", "estimated", "applies only with zero_filled.combine = sense"});
+    e.push_back({"maps", std::string(to_string(*maps)), "applies to zero-filled only with zero_filled.combine = sense"});
   if (method != Method::kUnrolled && !model.empty()) not_for(e, "model", "'" + model + "'", "method unrolled");
   if (method == Method::kUnrolled && model.empty())
     e.push_back({"model", "", "missing; method unrolled needs a model file (from `recofold train`)"});

@@ -17,6 +17,7 @@
 #include "recofold/recon/cg.h"
 #include "recofold/recon/fbp.h"
 #include "recofold/recon/fista.h"
+#include "recofold/recon/coil_map_estimate.h"
 #include "recofold/recon/forward_model.h"
 #include "recofold/recon/gridding.h"
 #include "recofold/recon/ista.h"
@@ -138,10 +139,6 @@ void run_gridding(const Measurement& m, Reconstruction& out, const std::string& 
   const ReconSpec& r = out.spec;
   const MriData& mri = *m.mri;
   const CoilCombine combine = *r.zero_filled.combine;
-  if (combine == CoilCombine::kSensitivity && *r.zero_filled.maps == CoilMapSource::kEstimated)
-    throw InputError(file, "zero_filled.maps",
-                     "estimated maps need a Cartesian calibration region; this measurement is non-Cartesian "
-                     "(/mri/trajectory): use the measured maps or the sos combination");
   const std::shared_ptr<const NufftPlan> plan = trajectory_plan(m, file);
   const Trajectory& t = *mri.trajectory;
   out.image = gridding(*plan, t.dcf, mri.kspace, mri.coil_maps, combine, file);
@@ -180,12 +177,8 @@ void run_zero_filled(const Measurement& m, Reconstruction& out, const std::strin
     run_gridding(m, out, file);
     return;
   }
-  MriData mri = *m.mri;
+  const MriData& mri = *m.mri;
   const CoilCombine combine = *r.zero_filled.combine;
-  if (combine == CoilCombine::kSensitivity && *r.zero_filled.maps == CoilMapSource::kEstimated) {
-    mri.coil_maps = estimate_coil_maps(mri.kspace, mri.mask, 0.05, file);
-    mri.coil_maps_source = "estimated";
-  }
   out.image = zero_filled(mri, combine, file);
   out.text_attrs["combine"] = std::string(to_string(combine));
   if (combine == CoilCombine::kSensitivity) out.text_attrs["coil_maps"] = mri.coil_maps_source;
@@ -382,15 +375,23 @@ Reconstruction reconstruct(const Measurement& m, const ReconSpec& spec, const Re
   throw_if_invalid(spec.validate(m.modality, Shape{m.ny, m.nx}), hooks.file);
   Reconstruction out;
   out.spec = spec.with_defaults(m.modality);
+  // Maps other than the file's: estimated once, on a copy, before any method runs.
+  std::optional<Measurement> own_maps;
+  if (out.spec.maps && *out.spec.maps != CoilMapSource::kMeasured) {
+    own_maps = m;
+    out.text_attrs["coil_maps_estimate"] = replace_coil_maps(*own_maps, *out.spec.maps, hooks.file);
+    out.text_attrs["coil_maps"] = own_maps->mri->coil_maps_source;
+  }
+  const Measurement& data = own_maps ? *own_maps : m;
   switch (out.spec.method) {
-    case Method::kZeroFilled: run_zero_filled(m, out, hooks.file); break;
-    case Method::kFbp: run_fbp(m, out, hooks.file); break;
-    case Method::kUnrolled: run_unrolled(m, out, hooks.file); break;
+    case Method::kZeroFilled: run_zero_filled(data, out, hooks.file); break;
+    case Method::kFbp: run_fbp(data, out, hooks.file); break;
+    case Method::kUnrolled: run_unrolled(data, out, hooks.file); break;
     case Method::kCg:
     case Method::kIsta:
     case Method::kFista:
     case Method::kAdmm:
-    case Method::kPdhg: run_iterative(m, out, hooks); break;
+    case Method::kPdhg: run_iterative(data, out, hooks); break;
   }
   out.seconds = since(t0);
   return out;

@@ -189,7 +189,7 @@ const std::vector<std::pair<std::string, std::string>>& spec_keys() {
       {"pdhg.sigma", "sigma"},
       {"fbp.filter", "filter"},
       {"zero_filled.combine", "combine"},
-      {"zero_filled.maps", "maps"},
+      {"maps", "maps"},
       {"nonneg", "nonneg"},
       {"model", "model"},
   };
@@ -291,7 +291,7 @@ StudyMethod parse_method_table(const Config& t, int index, const std::string& ba
   s.pdhg.sigma = double_key(t, "sigma");
   s.fbp.filter = enum_key<FbpFilter>(t, "filter", parse_fbp_filter, fbp_filter_names());
   s.zero_filled.combine = enum_key<CoilCombine>(t, "combine", parse_coil_combine, "sos, sense");
-  s.zero_filled.maps = enum_key<CoilMapSource>(t, "maps", parse_coil_map_source, "measured, estimated");
+  s.maps = enum_key<CoilMapSource>(t, "maps", parse_coil_map_source, coil_map_source_names());
   s.nonneg = bool_key(t, "nonneg");
 
   if (t.has("modality")) {

@@ -90,10 +90,12 @@ def newcomer_flow(tmp):
     s = json.loads(out.stdout)
     print(f"     zero-filled sos at 64^2, R 4, 8 coils: PSNR {s['psnr']:.2f} dB, SSIM {s['ssim']:.3f}")
     check(s["psnr"] > 15, "zero-filled PSNR above 15 dB")
-    for combine in [["--combine", "sense"], ["--combine", "sense", "--maps", "estimated"]]:
-        must_succeed(["recon", "--meas", "meas.h5", "--method", "zero-filled", "--out", "zs.h5"] + combine, tmp)
+    for combine in [["--combine", "sense"], ["--combine", "sense", "--maps", "estimated"],
+                    ["--combine", "sense", "--maps", "espirit"], ["--method", "cg", "--maps", "lowres"]]:
+        method = [] if "--method" in combine else ["--method", "zero-filled"]
+        must_succeed(["recon", "--meas", "meas.h5", "--out", "zs.h5"] + method + combine, tmp)
         out = must_succeed(["score", "--reference", "ph.h5", "--image", "zs.h5", "--json"], tmp)
-        check(json.loads(out.stdout)["psnr"] > 15, "zero-filled " + " ".join(combine) + " PSNR above 15 dB")
+        check(json.loads(out.stdout)["psnr"] > 15, " ".join(method + combine) + " PSNR above 15 dB")
 
     # Fully sampled, noiseless, single coil: the zero-filled image is the object.
     must_succeed(["simulate", "--phantom", "ph.h5", "--modality", "mri", "--out", "full.h5"], tmp)

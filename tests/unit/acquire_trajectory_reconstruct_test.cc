@@ -109,8 +109,8 @@ TEST(TrajectoryReconstruct, CartesianOnlyPathsAreRefusedByField) {
   expect_field([&] { reconstruct(m, unrolled); }, "method", "non-Cartesian");
   ReconSpec estimated;
   estimated.method = Method::kZeroFilled;
-  estimated.zero_filled.maps = CoilMapSource::kEstimated;
-  expect_field([&] { reconstruct(m, estimated); }, "zero_filled.maps", "non-Cartesian");
+  estimated.maps = CoilMapSource::kEstimated;
+  expect_field([&] { reconstruct(m, estimated); }, "maps", "non-Cartesian");
 }
 
 TEST(TrajectoryReconstruct, SimulationNeedsOneWeightPerPoint) {

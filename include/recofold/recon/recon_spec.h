@@ -21,7 +21,8 @@
 //   admm.rho, admm.cg_iterations
 //   pdhg.tau, pdhg.sigma        explicit steps (both or neither)
 //   fbp.filter                  FBP window
-//   zero_filled.combine, zero_filled.maps
+//   zero_filled.combine         coil combination of zero-filled MRI
+//   maps                        coil maps of every MRI method: measured, estimated, espirit
 //   nonneg                      non-negativity (a box x >= 0 around the prior)
 //   model                       the model file of method unrolled
 #pragma once
@@ -59,13 +60,15 @@ std::string_view to_string(LambdaRule rule);
 std::optional<LambdaRule> parse_lambda_rule(std::string_view text);
 std::string accepted_lambda_rules();  // "discrepancy, held-out-views, oracle"
 
-// Where zero-filled SENSE takes its coil maps from.
+// Where an MRI reconstruction takes its coil maps from (recon/coil_map_estimate.h).
 enum class CoilMapSource {
   kMeasured,   // "measured": the file's maps
-  kEstimated,  // "estimated": a low-resolution estimate from the fully sampled centre
+  kEstimated,  // "estimated" (also "lowres"): a low-resolution estimate from the fully sampled centre
+  kEspirit,    // "espirit": ESPIRiT from the calibration data (Cartesian centre or gridded trajectory centre)
 };
 std::string_view to_string(CoilMapSource source);
 std::optional<CoilMapSource> parse_coil_map_source(std::string_view text);
+std::string coil_map_source_names();  // "measured, estimated (or lowres), espirit"
 
 struct LambdaSpec {
   std::optional<LambdaMode> mode;  // unset: auto when there is a prior
@@ -109,8 +112,10 @@ struct ReconSpec {
   } fbp;
   struct {
     std::optional<CoilCombine> combine;
-    std::optional<CoilMapSource> maps;
   } zero_filled;
+  // Coil maps of every MRI method (SENSE in zero-filled, the forward model
+  // of the iterative and unrolled methods); unset on mri: measured.
+  std::optional<CoilMapSource> maps;
   std::optional<bool> nonneg;
   std::string model;  // unrolled: model file
 

@@ -55,11 +55,13 @@ struct Reconstruction {
   std::map<std::string, double> number_attrs;
 };
 
-// Reconstructs `m` as `spec` says, after spec.with_defaults(m.modality):
-//   zero-filled  mri: zero_filled() with zero_filled.combine / maps (recon/zero_filled.h);
+// Reconstructs `m` as `spec` says, after spec.with_defaults(m.modality).
+// On mri, spec.maps other than measured first replaces the coil maps on a
+// copy of `m` (recon/coil_map_estimate.h; estimated maps of non-Cartesian
+// data refused, InputError field "maps"); every method then uses those maps.
+//   zero-filled  mri: zero_filled() with zero_filled.combine (recon/zero_filled.h);
 //                non-Cartesian mri (mri->trajectory): gridding() with the trajectory's
-//                dcf and zero_filled.combine (recon/gridding.h; estimated maps refused,
-//                InputError field "zero_filled.maps");
+//                dcf and zero_filled.combine (recon/gridding.h);
 //                denoise, inpaint: the observed image (0 at unobserved pixels)
 //   fbp          fbp() with fbp.filter, in intensity units (recon/fbp.h)
 //   cg .. pdhg   the forward model of make_forward_model (recon/forward_model.h),
