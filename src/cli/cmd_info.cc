@@ -8,10 +8,12 @@
 #include <memory>
 #include <sstream>
 #include <string>
+#include <vector>
 
 #include "cli_common.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/io/h5_file.h"
 #include "recofold/io/image_export.h"
 #include "recofold/io/trajectory_file.h"
@@ -65,6 +67,47 @@ std::string value_range(const H5Reader& r, const std::string& path) {
   return buf;
 }
 
+// Column names of a 2-D real table with a matching `columns` attribute
+// ("iteration,objective,..."), empty otherwise.
+std::vector<std::string> table_columns(const H5Reader& r, const std::string& path) {
+  const Shape shape = r.shape(path);
+  if (shape.rank() != 2 || r.is_complex(path) || !r.has_attr(path, "columns")) return {};
+  std::vector<std::string> names;
+  std::stringstream list(r.attr_string(path, "columns"));
+  for (std::string name; std::getline(list, name, ',');) names.push_back(name);
+  if (static_cast<Index>(names.size()) != shape[1]) return {};
+  return names;
+}
+
+// A table dataset as rows under its named columns: the first and last five
+// rows (all of them with --full), each column as wide as its name.
+void print_table(const H5Reader& r, const std::string& path, const std::vector<std::string>& names,
+                 std::ostream& out, bool full) {
+  const NdArray<double> a = r.read_double(path);
+  const Index rows = a.shape[0], cols = a.shape[1];
+  std::vector<size_t> width(names.size());
+  for (size_t c = 0; c < names.size(); ++c) width[c] = std::max<size_t>(names[c].size(), 11);
+  const auto row_text = [&](auto cell) {
+    std::string line = "    ";
+    for (Index c = 0; c < cols; ++c) {
+      const std::string v = cell(c);
+      line += std::string(width[static_cast<size_t>(c)] - std::min(v.size(), width[static_cast<size_t>(c)]), ' ') + v;
+      line += c + 1 < cols ? "  " : "";
+    }
+    return line;
+  };
+  out << row_text([&](Index c) { return names[static_cast<size_t>(c)]; }) << "\n";
+  const Index head = 5;
+  for (Index i = 0; i < rows; ++i) {
+    if (!full && rows > 2 * head && i == head) {
+      out << "    ... " << rows - 2 * head << " more rows (--full prints all)\n";
+      i = rows - head - 1;
+      continue;
+    }
+    out << row_text([&](Index c) { return format_sig(a.data[static_cast<size_t>(i * cols + c)], 6); }) << "\n";
+  }
+}
+
 void walk(const H5Reader& r, const std::string& group, std::ostream& out, bool full) {
   for (const auto& child : r.children(group)) {
     const std::string path = (group == "/" ? "" : group) + "/" + child;
@@ -74,14 +117,18 @@ void walk(const H5Reader& r, const std::string& group, std::ostream& out, bool f
       walk(r, path, out, full);
     } else if (r.has(path)) {
       std::string desc;
+      std::vector<std::string> columns;
       try {
-        desc = r.type_name(path) + " " + r.shape(path).to_string() + value_range(r, path);
+        columns = table_columns(r, path);
+        desc = r.type_name(path) + " " + r.shape(path).to_string() +
+               (columns.empty() ? value_range(r, path) : "  table, " + std::to_string(columns.size()) + " columns");
       } catch (const InputError&) {
         desc = "(not a dataset)";
       }
       out << path << "  " << desc << "\n";
       try {
         print_attrs(r, path, "    ", out, full);
+        if (!columns.empty()) print_table(r, path, columns, out, full);
       } catch (const InputError&) {
       }
     }

@@ -64,6 +64,21 @@ def main():
         r = run("info", "--full", "long.h5", cwd=tmp)
         check(r.returncode == 0 and "x" * 300 in r.stdout and "\n      second line end" in r.stdout,
               "info --full prints it whole, continuation lines indented")
+        # A table dataset (columns attribute) prints as rows under its column names, not as one range.
+        hist = np.column_stack([np.arange(1, 21), np.linspace(5.0, 1.0, 20), np.full(20, 1e-3)])
+        with h5py.File(os.path.join(tmp, "hist.h5"), "w") as f:
+            f["recon/history"] = hist
+            f["recon/history"].attrs["columns"] = "iteration,objective,data_residual"
+        r = run("info", "hist.h5", cwd=tmp)
+        lines = r.stdout.splitlines()
+        header = [i for i, l in enumerate(lines) if l.split() == ["iteration", "objective", "data_residual"]]
+        check(r.returncode == 0 and "table, 3 columns" in r.stdout and "range [" not in r.stdout.split("history")[1]
+              and len(header) == 1, "info prints a history as a table under its column names")
+        rows = lines[header[0] + 1:] if header else []
+        check(len(rows) == 11 and rows[0].split() == ["1", "5", "0.001"] and "10 more rows" in rows[5]
+              and rows[-1].split() == ["20", "1", "0.001"], "first and last five rows, the rest counted")
+        r = run("info", "--full", "hist.h5", cwd=tmp)
+        check(r.returncode == 0 and "more rows" not in r.stdout and " 13 " in r.stdout, "info --full prints every row")
         r = run("info", "a.mha", cwd=tmp)
         check(r.returncode == 0 and "[20, 28]" in r.stdout and "(0.5, 0.75)" in r.stdout,
               "info a.mha shows shape and spacing")
