@@ -6,6 +6,7 @@
 
 #include "cli_common.h"
 #include "output_checks_cli.h"
+#include "picture_cli.h"
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
 #include "recofold/io/image_export.h"
@@ -21,6 +22,10 @@ struct ConvertFlags {
   double window_lo = 0.0, window_hi = 0.0;
   int bits = 8;
   int index = -1;  // -1: keep the whole stack
+  std::string dataset;   // --dataset: any array of an HDF5 input
+  bool log = false;      // --log: decibels
+  double floor_db = -80.0;
+  bool montage = false;  // --montage: a stack tiled into one image
 };
 
 const std::vector<std::string> kImageExtensions = {".h5", ".nii.gz", ".nii", ".mha", ".nrrd", ".png", ".dcm"};
@@ -31,13 +36,24 @@ bool ends_with(const std::string& s, const std::string& tail) {
 
 // MEAS.h5 -> OUT.ismrmrd.h5: an MRI measurement as ISMRMRD raw data.
 void export_raw(const ConvertFlags& f, CLI::App& sub, const Context& ctx) {
-  for (const char* flag : {"--window-lo", "--window-hi", "--bits", "--index"})
+  for (const char* flag : {"--window-lo", "--window-hi", "--bits", "--index", "--dataset", "--log", "--montage"})
     if (sub.count(flag) > 0) throw InputError(f.out, flag, "does not apply to an ISMRMRD output");
   if (!file_exists(f.in)) throw InputError(f.in, "IN", "file not found");
   const Measurement m = read_measurement_file(f.in);
   write_ismrmrd_file(f.out, m, f.in);
   say(ctx, "wrote " + f.out + ": ISMRMRD raw data, " + std::to_string(m.mri->kspace.shape[0]) + " coils, " +
                std::to_string(m.ny) + " x " + std::to_string(m.nx));
+}
+
+// The input: an image file, or with --dataset any array of an HDF5 file.
+ImageRecord read_input(const ConvertFlags& f, CLI::App& sub) {
+  if (sub.count("--log-floor") > 0 && !f.log) throw InputError("", "--log-floor", "applies only with --log");
+  if (f.log && !(f.floor_db < 0.0 && f.floor_db >= -300.0))
+    throw InputError("", "--log-floor", std::to_string(f.floor_db) + "; expected a level in [-300, 0) dB");
+  if (f.dataset.empty()) return read_image_any(f.in);
+  if (!file_exists(f.in)) throw InputError(f.in, "IN", "file not found");
+  if (file_extension(f.in) != ".h5") throw InputError(f.in, "--dataset", "needs an HDF5 (.h5) input");
+  return read_dataset_image(f.in, f.dataset.front() == '/' ? f.dataset : "/" + f.dataset);
 }
 
 void run_convert(const ConvertFlags& f, CLI::App& sub, const Context& ctx) {
@@ -62,7 +78,7 @@ void run_convert(const ConvertFlags& f, CLI::App& sub, const Context& ctx) {
     if (!errors.empty()) throw InputError("", "--window-hi", errors.front());
   }
 
-  ImageRecord rec = read_image_any(f.in);
+  ImageRecord rec = read_input(f, sub);
   if (f.index >= 0) {
     ImageRecord one = rec;
     ImageF img;
@@ -80,6 +96,13 @@ void run_convert(const ConvertFlags& f, CLI::App& sub, const Context& ctx) {
       one.pixels.data[i] = keep_complex ? rec.pixels.data[off + i] : cfloat(img.data()[i], 0.f);
     one.is_complex = keep_complex;
     rec = std::move(one);
+  }
+  if (f.log) to_decibels(rec, f.floor_db);
+  if (f.montage) {
+    if (rec.pixels.shape.rank() != 3)
+      throw InputError(f.in, "--montage", "needs a stack [count, ny, nx]; the input is " + rec.pixels.shape.to_string() +
+                                             (f.index >= 0 ? " after --index" : ""));
+    rec = montage(rec);
   }
   Provenance prov = make_provenance(ctx);
   prov.extra["source"] = f.in;
@@ -107,7 +130,15 @@ void register_cmd_convert(CLI::App& app, Context& ctx) {
   sub->add_option("--bits", flags->bits, "PNG: bits per pixel, 8 or 16 (default 8)")->check(CLI::IsMember({8, 16}));
   sub->add_option("--index", flags->index, "Convert only image I of a stack [count, ny, nx]")
       ->check(CLI::NonNegativeNumber);
+  sub->add_option("--dataset", flags->dataset,
+                  "Any array of an HDF5 input instead of /image, e.g. /mri/kspace, /mri/coil_maps, /mri/mask, "
+                  "/ct/sinogram, /truth/image (see `recofold info IN`)");
+  sub->add_flag("--log", flags->log, "Show magnitudes in dB of the largest, 20 log10(|v|/max) (for k-space)");
+  sub->add_option("--log-floor", flags->floor_db, "With --log: the lowest level shown, dB (default -80)");
+  sub->add_flag("--montage", flags->montage, "Tile a stack [count, ny, nx] (coils, objects) into one image");
   sub->footer("Complex images keep their values only in .h5; other formats get the magnitude.\n"
+              "Pictures of measurements: convert meas.h5 k.png --dataset /mri/kspace --log --montage (one tile per "
+              "coil); --dataset /ct/sinogram (views down, detectors across).\n"
               "DICOM in: rescale slope and intercept applied, pixel spacing kept; DICOM out (.dcm): one 2-D image, int16 "
               "with rescale slope/intercept.\n"
               "An MRI measurement file converts to ISMRMRD raw data when OUT ends in .ismrmrd.h5 (line masks only).\n" +

@@ -178,9 +178,38 @@ def bad_inputs(tmp):
                              "--out", "r.h5"], ["--combine"], work)
 
 
+def pictures(tmp):
+    """convert --dataset: k-space in dB and coil maps as a montage, checked against numpy."""
+    with h5py.File(os.path.join(tmp, "meas.h5"), "r") as f:
+        k = f["mri/kspace"][()]
+        maps = f["mri/coil_maps"][()]
+    must_succeed(["convert", "meas.h5", "kdb.h5", "--dataset", "/mri/kspace", "--log", "--log-floor", "-60",
+                  "--index", "3"], tmp)
+    with h5py.File(os.path.join(tmp, "kdb.h5"), "r") as f:
+        got = f["image"][()]
+    a = np.abs(k[3])
+    with np.errstate(divide="ignore"):
+        want = np.maximum(20 * np.log10(a / a.max()), -60.0)
+    check(got.shape == (64, 64) and np.allclose(got, want, atol=1e-3), "--log: 20 log10(|k|/max), floor -60 dB")
+    must_succeed(["convert", "meas.h5", "maps.h5", "--dataset", "mri/coil_maps", "--montage"], tmp)
+    with h5py.File(os.path.join(tmp, "maps.h5"), "r") as f:
+        got = f["image"][()]
+    check(got.shape == (3 * 64 + 2 * 2, 3 * 64 + 2 * 2), "--montage of 8 coils: 3 x 3 tiles with 2-pixel gaps")
+    check(np.allclose(got[66:130, 132:196], np.abs(maps[5]), atol=1e-6) and np.all(got[132:, 132:] == got.min()),
+          "tile 5 holds coil 5's magnitude; the unused tile is the background")
+    must_succeed(["convert", "meas.h5", "k.png", "--dataset", "/mri/kspace", "--log", "--montage"], tmp)
+    bad_case("--dataset that does not exist", ["convert", "meas.h5", "x.png", "--dataset", "/nope"],
+             ["/nope", "no such dataset"], tmp)
+    bad_case("--montage of one image", ["convert", "meas.h5", "x.png", "--dataset", "/mri/mask", "--montage"],
+             ["--montage", "stack"], tmp)
+    bad_case("--log-floor without --log", ["convert", "meas.h5", "x.png", "--dataset", "/mri/mask", "--log-floor",
+                                           "-40"], ["--log-floor"], tmp)
+
+
 def main():
     with tempfile.TemporaryDirectory() as tmp:
         newcomer_flow(tmp)
+        pictures(tmp)
         spec_files(tmp)
         mask_from_png(tmp)
         bad_inputs(tmp)
