@@ -7,6 +7,7 @@
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
 #include "recofold/recon/learned_backend.h"
+#include "recofold/study/held_out.h"
 
 namespace recofold {
 
@@ -50,6 +51,7 @@ void LearnedModelSet::prepare(const StudyConfig& config, const std::string& out_
     if (!m.model_path.empty()) {
       const LearnedModelInfo info = backend.inspect_model(m.model_path);
       check_fits(info.modality, info.ny, info.nx, m, config, m.model_path, "model");
+      check_held_out(config, m, m.model_path, info.trained_on_json);
       paths_[m.name] = m.model_path;
       trained_on_[m.name] = info.trained_on_json;
     } else {
@@ -74,6 +76,7 @@ void LearnedModelSet::prepare(const StudyConfig& config, const std::string& out_
       run.out = path;
       run.resume_if_checkpoint = true;
       run.steps = m.train_steps;
+      run.seed = study_training_seed(config, m);  // no training object is a study object
       run.progress = progress;
       run.stop = stop;
       run.command = "recofold study " + config.file + " (method " + m.name + ")";
@@ -82,6 +85,7 @@ void LearnedModelSet::prepare(const StudyConfig& config, const std::string& out_
     }
     const LearnedModelInfo info = backend.inspect_model(path);
     check_fits(info.modality, info.ny, info.nx, m, config, path, "model");
+    check_held_out(config, m, path, info.trained_on_json);  // also a model kept from an earlier run
     paths_[m.name] = path;
     trained_on_[m.name] = info.trained_on_json;
   }

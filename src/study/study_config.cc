@@ -481,13 +481,15 @@ void parse_study_header(const Config& root, const std::string& name, StudyConfig
 }
 
 // One [[phantom]] table: a phantom table file, or `count` members of a family.
-void parse_phantom_table(const Config& p, const std::string& base_dir, StudyConfig& c) {
+void parse_phantom_table(const Config& p, int table, const std::string& base_dir, StudyConfig& c) {
   p.expect_only({"table", "family", "count", "seed"});
   if (p.has("table") == p.has("family")) throw p.error("table", "give exactly one of table or family");
   if (p.has("table")) {
     for (const char* k : {"count", "seed"})
       if (p.has(k)) throw p.error(k, "only family phantoms take " + std::string(k));
     StudyPhantom sp;
+    sp.table = table;
+    sp.line = p.line();
     sp.table_path = resolve(p.get_string("table"), base_dir);
     if (!file_exists(sp.table_path)) throw p.error("table", "phantom table '" + sp.table_path + "' does not exist");
     std::string stem = sp.table_path.substr(sp.table_path.find_last_of('/') + 1);
@@ -502,6 +504,8 @@ void parse_phantom_table(const Config& p, const std::string& base_dir, StudyConf
     if (fseed < 0) throw p.error("seed", "must be >= 0");
     for (int64_t i = 0; i < count; ++i) {
       StudyPhantom sp;
+      sp.table = table;
+      sp.line = p.line(p.has("seed") ? "seed" : "family");
       sp.family = fam;
       sp.family_seed = static_cast<uint64_t>(fseed);
       sp.family_index = static_cast<int>(i);
@@ -517,7 +521,7 @@ void parse_study_objects(const Config& root, const std::string& base_dir, StudyC
   const std::vector<Config> measured = root.tables("measurement"), images = root.tables("object");
   if (phantoms.empty() && measured.empty() && images.empty())
     throw root.error("phantom", "empty grid: no [[phantom]], [[measurement]] or [[object]] table");
-  for (const Config& p : phantoms) parse_phantom_table(p, base_dir, c);
+  for (size_t k = 0; k < phantoms.size(); ++k) parse_phantom_table(phantoms[k], static_cast<int>(k), base_dir, c);
   for (const Config& t : measured) c.phantoms.push_back(measurement_object(t, c, base_dir));
   for (const Config& t : images) c.phantoms.push_back(image_object(t, c, base_dir));
   for (size_t i = 0; i < c.phantoms.size(); ++i)

@@ -25,7 +25,10 @@ class LearnedModelSet {
   // resumes from its checkpoint). Training progress goes to `progress` (may be
   // null); when `stop` is set the training writes its checkpoint and
   // prepare() throws WorkError. Nothing is trained or written before every
-  // model file passed its checks.
+  // model file passed its checks. Every model is checked for held-out
+  // objects (study/held_out.h): a family object of the study that the model
+  // trained or validated on is an InputError naming both ranges; models
+  // trained here get a training seed no family table of the study uses.
   void prepare(const StudyConfig& config, const std::string& out_dir, ProgressSink* progress,
                const std::atomic<bool>* stop = nullptr);
 
