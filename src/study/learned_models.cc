@@ -8,6 +8,7 @@
 #include "recofold/core/error.h"
 #include "recofold/recon/learned_backend.h"
 #include "recofold/study/held_out.h"
+#include "study_util.h"
 
 namespace recofold {
 
@@ -19,8 +20,8 @@ void check_fits(Modality modality, Index ny, Index nx, const StudyMethod& m, con
                 const std::string& path, const std::string& what) {
   if (!m.applies_to(modality))
     throw InputError(c.file, "method[" + std::to_string(m.index) + "].modality",
-                     "method '" + m.name + "' runs on " + std::string(to_string(m.modalities.front())) + " but " +
-                         what + " '" + path + "' is for " + std::string(to_string(modality)),
+                     "method '" + m.name + "' runs on " + modality_label(m.modalities.front()) + " but " + what +
+                         " '" + path + "' is for " + modality_label(modality),
                      m.line);
   if (ny != c.ny || nx != c.nx)
     throw InputError(c.file, "size",

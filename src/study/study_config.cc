@@ -107,7 +107,7 @@ StudyPhantom measurement_object(const Config& t, const StudyConfig& c, const std
     throw t.error("file", std::string(e.what()));
   }
   if (m->modality != Modality::kMri || !m->mri)
-    throw t.error("file", "'" + path + "' is a " + std::string(to_string(m->modality)) +
+    throw t.error("file", "'" + path + "' is " + modality_phrase(m->modality) +
                               " measurement; [[measurement]] objects are fully sampled MRI k-space");
   if (m->mri->non_cartesian())
     throw t.error("file", "'" + path + "' holds non-Cartesian samples (/mri/trajectory); a [[measurement]] object "
@@ -566,7 +566,7 @@ void parse_study_methods(const Config& root, const std::string& base_dir, StudyC
     for (const StudyMethod& o : c.methods)
       for (const auto& mod : m.modalities)
         if (o.name == m.name && o.applies_to(mod))
-          throw t.error("name", "'" + m.name + "' is used twice for " + std::string(to_string(mod)) +
+          throw t.error("name", "'" + m.name + "' is used twice for " + modality_label(mod) +
                                     "; give the methods distinct names");
     c.methods.push_back(std::move(m));
   }
