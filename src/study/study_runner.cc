@@ -379,6 +379,15 @@ CaseOutcome run_one_case(const StudyRun& r, const StudyCase& c, const TaskMeasur
   } else {
     const StudyMethod& method = r.config.methods[size_t(c.method)];
     o = run_case_method(method, m.data, &r.learned);
+    if (o.ok && method.learned()) {
+      // The object's family and the image size, which the model's own check does not see.
+      const std::string more = r.learned.object_outside(method.name, r.config.phantoms[size_t(c.phantom)],
+                                                        r.config.ny, r.config.nx);
+      if (!more.empty()) {
+        o.outside += (o.outside.empty() ? "" : "; ") + more;
+        o.in_training = "no";
+      }
+    }
     if (o.ok && keep_images) {
       try {
         ImageRecord img = record_of(o.image, "reconstruction of " + c.key, m.data.measurement);

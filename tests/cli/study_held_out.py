@@ -4,6 +4,7 @@
 # runs, naming the study's [[phantom]] range and the model's range; other seeds run; a model the study
 # trains itself gets a training seed none of its family tables uses, even when the training config's
 # seed equals the study's family seed.
+import csv
 import json
 import os
 import sys
@@ -104,6 +105,12 @@ def main():
         if check(os.path.exists(model), "the study trained its model"):
             seeds = seeds_of(model)
             check(all(s["seed"] != 5 for s in seeds), f"its training and validation seeds avoid 5: {seeds}")
+        # "Inside training conditions" also compares the object family: the model trained on textured
+        # objects at this acquisition is inside on the textured objects only, not on the phantom table.
+        with open(os.path.join(tmp, "o3", "results.csv"), newline="") as f:
+            inside = {r["phantom"]: r["in_training_conditions"] for r in csv.DictReader(f) if r["case"].split("|")[2] == "net"}
+        check(inside == {"qc-disk": "no", "textured-5-0": "yes", "textured-5-1": "yes"},
+              f"in_training_conditions by object family: {inside}")
         # A rerun of the same folder reuses (and checks) the model and finds nothing to do.
         must_succeed(EXE, ["study", "--config", "own.toml", "--out", "o3"], tmp, check)
     return check.summary()

@@ -11,6 +11,7 @@
 #include <atomic>
 #include <map>
 #include <string>
+#include <vector>
 
 #include "recofold/core/progress.h"
 #include "recofold/study/study_config.h"
@@ -36,8 +37,22 @@ class LearnedModelSet {
   std::string model_path(const std::string& name) const;
   std::string trained_on_json(const std::string& name) const;
 
+  // The conditions of a case the model's own check (acquisition: pattern,
+  // acceleration, noise, coils; CT views, photons) does not see: the object's
+  // family against the training families, and the image size. "" inside;
+  // else one phrase each, e.g. "object set qc-disk (a phantom table) not
+  // among the training families [textured]". Empty for a model whose
+  // trained_on does not record families.
+  std::string object_outside(const std::string& name, const StudyPhantom& object, Index ny, Index nx) const;
+
  private:
+  struct Trained {
+    std::vector<std::string> families;
+    Index ny = 0, nx = 0;
+  };
+  void remember(const StudyMethod& m, const std::string& path, const std::string& trained_on_json);
   std::map<std::string, std::string> paths_, trained_on_;
+  std::map<std::string, Trained> trained_;
 };
 
 }  // namespace recofold
