@@ -521,7 +521,8 @@ std::string head_html(const ReportContext& x) {
     h += "<tr><th>metric region</th><td>centred disc, radius " + format_number(c.region_radius) +
          " of the half-width</td></tr>\n";
   h += "<tr><th>files</th><td>results.csv (one row per case), summary.csv (n, mean, std, 95 % interval per method "
-       "and condition), comparisons.csv (paired differences, intervals, Wilcoxon p-values), figures/ (SVG plots, "
+       "and condition), comparisons.csv (paired differences, intervals, Wilcoxon p-values), robustness.csv (with a "
+       "learned method inside its training condition: drops under each shift), figures/ (SVG plots, "
        "PNG montages), images/ (montage reconstructions)</td></tr>\n</table>\n";
   for (const StudyMethod& m : c.methods)
     if (m.learned() && x.in.learned != nullptr) {
