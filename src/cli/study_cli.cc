@@ -98,13 +98,17 @@ void report_run(const Context& ctx, const StudyConfig& config, const StudyRunOpt
   // Overhead: the share of the cases' wall time (without model loading and
   // training) that the job slots (threads, or MPI ranks) did not spend reconstructing.
   const int slots = s.ranks > 1 ? s.ranks : o.jobs;
-  const double cases_wall = std::max(1e-9, s.wall_seconds - s.training_seconds);
-  const double busy = s.case_seconds / (cases_wall * double(std::min(slots, std::max(1, s.cases_run))));
-  say(ctx, "wall " + seconds(s.wall_seconds) +
-               (s.training_seconds > 0.05 ? " (learned models " + seconds(s.training_seconds) + ")" : "") +
-               ", reconstruction " + seconds(s.case_seconds) + " over " + std::to_string(slots) +
-               (s.ranks > 1 ? " MPI ranks" : " job(s)") + "; overhead " +
-               std::to_string(int(std::round(100.0 * (1.0 - std::min(1.0, busy))))) + "%");
+  const std::string wall = "wall " + seconds(s.wall_seconds) +
+                           (s.training_seconds > 0.05 ? " (learned models " + seconds(s.training_seconds) + ")" : "");
+  if (s.cases_run == 0) {
+    say(ctx, wall + "; no case left to run");  // no reconstruction time to compare the wall time with
+  } else {
+    const double cases_wall = std::max(1e-9, s.wall_seconds - s.training_seconds);
+    const double busy = s.case_seconds / (cases_wall * double(std::min(slots, s.cases_run)));
+    say(ctx, wall + ", reconstruction " + seconds(s.case_seconds) + " over " + std::to_string(slots) +
+                 (s.ranks > 1 ? " MPI ranks" : " job(s)") + "; overhead " +
+                 std::to_string(int(std::round(100.0 * (1.0 - std::min(1.0, busy))))) + "%");
+  }
   if (s.ranks > 1)
     say(ctx, "rank 0 handled " + std::to_string(s.dispatch_messages) + " messages in " +
                  std::to_string(int(std::round(1e6 * s.dispatch_seconds))) + " us");

@@ -65,6 +65,7 @@ class LearnBackend final : public LearnedBackend {
   LearnedTrainingOutcome train(const LearnedTrainingRun& run) const override {
     TrainingConfig tc = TrainingConfig::load(run.config_file);
     if (run.steps > 0) tc.train.steps = run.steps;
+    if (run.seed > 0) tc.train.seed = run.seed;
     if (tc.train.threads == 0 && run.threads > 0) tc.train.threads = run.threads;
     TrainRun t;
     t.out = run.out;

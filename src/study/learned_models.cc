@@ -4,9 +4,14 @@
 
 #include <sys/stat.h>
 
+#include <algorithm>
+
 #include "recofold/core/atomic_file.h"
 #include "recofold/core/error.h"
+#include "recofold/core/json.h"
 #include "recofold/recon/learned_backend.h"
+#include "recofold/study/held_out.h"
+#include "study_util.h"
 
 namespace recofold {
 
@@ -18,8 +23,8 @@ void check_fits(Modality modality, Index ny, Index nx, const StudyMethod& m, con
                 const std::string& path, const std::string& what) {
   if (!m.applies_to(modality))
     throw InputError(c.file, "method[" + std::to_string(m.index) + "].modality",
-                     "method '" + m.name + "' runs on " + std::string(to_string(m.modalities.front())) + " but " +
-                         what + " '" + path + "' is for " + std::string(to_string(modality)),
+                     "method '" + m.name + "' runs on " + modality_label(m.modalities.front()) + " but " + what +
+                         " '" + path + "' is for " + modality_label(modality),
                      m.line);
   if (ny != c.ny || nx != c.nx)
     throw InputError(c.file, "size",
@@ -50,8 +55,8 @@ void LearnedModelSet::prepare(const StudyConfig& config, const std::string& out_
     if (!m.model_path.empty()) {
       const LearnedModelInfo info = backend.inspect_model(m.model_path);
       check_fits(info.modality, info.ny, info.nx, m, config, m.model_path, "model");
-      paths_[m.name] = m.model_path;
-      trained_on_[m.name] = info.trained_on_json;
+      check_held_out(config, m, m.model_path, info.trained_on_json);
+      remember(m, m.model_path, info.trained_on_json);
     } else {
       const LearnedTrainingPlan plan = backend.inspect_training(m.train_config);
       if (plan.kind != "unrolled")
@@ -74,6 +79,7 @@ void LearnedModelSet::prepare(const StudyConfig& config, const std::string& out_
       run.out = path;
       run.resume_if_checkpoint = true;
       run.steps = m.train_steps;
+      run.seed = study_training_seed(config, m);  // no training object is a study object
       run.progress = progress;
       run.stop = stop;
       run.command = "recofold study " + config.file + " (method " + m.name + ")";
@@ -82,9 +88,49 @@ void LearnedModelSet::prepare(const StudyConfig& config, const std::string& out_
     }
     const LearnedModelInfo info = backend.inspect_model(path);
     check_fits(info.modality, info.ny, info.nx, m, config, path, "model");
-    paths_[m.name] = path;
-    trained_on_[m.name] = info.trained_on_json;
+    check_held_out(config, m, path, info.trained_on_json);  // also a model kept from an earlier run
+    remember(m, path, info.trained_on_json);
   }
+}
+
+void LearnedModelSet::remember(const StudyMethod& m, const std::string& path, const std::string& trained_on_json) {
+  paths_[m.name] = path;
+  trained_on_[m.name] = trained_on_json;
+  Trained t;
+  if (!trained_on_json.empty()) {
+    const JsonValue j = parse_json(trained_on_json, path, "/model@trained_on");
+    if (const JsonValue* f = j.find("families"); f && f->kind == JsonValue::Kind::kArray)
+      for (const JsonValue& v : f->items)
+        if (v.kind == JsonValue::Kind::kString) t.families.push_back(v.text);
+    const JsonValue *ny = j.find("ny"), *nx = j.find("nx");
+    if (ny && nx && ny->kind == JsonValue::Kind::kNumber && nx->kind == JsonValue::Kind::kNumber) {
+      t.ny = static_cast<Index>(ny->number);
+      t.nx = static_cast<Index>(nx->number);
+    }
+  }
+  trained_[m.name] = t;
+}
+
+std::string LearnedModelSet::object_outside(const std::string& name, const StudyPhantom& object, Index ny,
+                                            Index nx) const {
+  const auto it = trained_.find(name);
+  if (it == trained_.end()) return "";
+  const Trained& t = it->second;
+  std::string out;
+  if (!t.families.empty() &&
+      std::find(t.families.begin(), t.families.end(), object.family) == t.families.end()) {
+    std::string list;
+    for (const std::string& f : t.families) list += (list.empty() ? "" : ", ") + f;
+    const std::string what = !object.family.empty()           ? "family " + object.family
+                             : !object.table_path.empty()     ? "object " + object.label + " (a phantom table)"
+                             : !object.measurement_path.empty() ? "object " + object.label + " (a measurement)"
+                                                                : "object " + object.label + " (an image)";
+    out = what + " not among the training families [" + list + "]";
+  }
+  if (t.ny > 0 && (t.ny != ny || t.nx != nx))
+    out += (out.empty() ? "" : "; ") + std::string("size ") + std::to_string(ny) + "x" + std::to_string(nx) +
+           " (trained " + std::to_string(t.ny) + "x" + std::to_string(t.nx) + ")";
+  return out;
 }
 
 std::string LearnedModelSet::model_path(const std::string& name) const {

@@ -3,6 +3,7 @@
 #include "png_plot.h"
 
 #include <algorithm>
+#include <cctype>
 #include <cmath>
 #include <cstdint>
 #include <cstdlib>
@@ -57,7 +58,8 @@ class Canvas {
         if (std::fabs(d - r) <= 0.8) dot(x, y, c);
       }
   }
-  // Text of digits, '.', '-', '+', 'e' in a 3x5 font scaled by `s`; x is the left edge.
+  // Text in a 3x5 font scaled by `scale` (digits, '.', '-', '+', 'e', capital letters and some
+  // punctuation; other characters are blank); x is the left edge.
   int text(int x, int y, const std::string& s, Rgb c, int scale = 2) {
     for (char ch : s) {
       const uint16_t g = glyph(ch);
@@ -91,6 +93,47 @@ class Canvas {
       case '-': return 0b000000111000000;
       case '+': return 0b000010111010000;
       case 'e': return 0b000111111100111;
+      // Capital letters and punctuation for titles and axis labels (label_text upper-cases them).
+      case 'A': return 0b010101111101101;
+      case 'B': return 0b110101110101110;
+      case 'C': return 0b011100100100011;
+      case 'D': return 0b110101101101110;
+      case 'E': return 0b111100110100111;
+      case 'F': return 0b111100110100100;
+      case 'G': return 0b011100101101011;
+      case 'H': return 0b101101111101101;
+      case 'I': return 0b111010010010111;
+      case 'J': return 0b001001001101010;
+      case 'K': return 0b101101110101101;
+      case 'L': return 0b100100100100111;
+      case 'M': return 0b101111111101101;
+      case 'N': return 0b110101101101101;
+      case 'O': return 0b010101101101010;
+      case 'P': return 0b110101110100100;
+      case 'Q': return 0b010101101110011;
+      case 'R': return 0b110101110101101;
+      case 'S': return 0b011100010001110;
+      case 'T': return 0b111010010010010;
+      case 'U': return 0b101101101101111;
+      case 'V': return 0b101101101101010;
+      case 'W': return 0b101101111111101;
+      case 'X': return 0b101101010101101;
+      case 'Y': return 0b101101010010010;
+      case 'Z': return 0b111001010100111;
+      case '(': return 0b010100100100010;
+      case ')': return 0b010001001001010;
+      case '/': return 0b001001010100100;
+      case ':': return 0b000010000010000;
+      case ',': return 0b000000000010100;
+      case '%': return 0b101001010100101;
+      case '=': return 0b000111000111000;
+      case '_': return 0b000000000000111;
+      case '[': return 0b110100100100110;
+      case ']': return 0b011001001001011;
+      case '\'': return 0b010010000000000;
+      case '>': return 0b100010001010100;
+      case '<': return 0b001010100010001;
+      case '|': return 0b010010010010010;
       default: return 0;
     }
   }
@@ -126,6 +169,26 @@ void chunk(std::string& png, const std::string& type, const std::string& data) {
   const std::string body = type + data;
   png += body;
   put32(png, crc32(body));
+}
+
+// A title or label for the 3x5 font: capitals; Greek lambda and arrows spelled out.
+std::string label_text(const std::string& s) {
+  std::string out;
+  for (size_t i = 0; i < s.size(); ++i) {
+    const unsigned char ch = static_cast<unsigned char>(s[i]);
+    if (s.compare(i, 2, "\xce\xbb") == 0) {  // U+03BB lambda
+      out += "LAMBDA";
+      ++i;
+    } else if (s.compare(i, 3, "\xe2\x86\x92") == 0) {  // U+2192 arrow
+      out += "->";
+      i += 2;
+    } else if (ch >= 0x80) {
+      out += ' ';
+    } else {
+      out += static_cast<char>(std::toupper(ch));
+    }
+  }
+  return out;
 }
 
 std::vector<double> ticks(double lo, double hi) {
@@ -188,7 +251,8 @@ std::string encode_png_rgb(int width, int height, const std::string& rgb) {
 
 void write_png_plot(const std::string& path, const LinePlot& p) {
   const int w = p.width, h = p.height;
-  const double left = 70, right = 60, top = 20, bottom = 40;
+  // Title at the top, the y label above the plot area, the x label under the tick labels.
+  const double left = 70, right = 60, top = 44, bottom = 46;
   const double pw = w - left - right, ph = h - top - bottom;
   Canvas cv(w, h);
   double xmin = std::numeric_limits<double>::infinity(), xmax = -xmin, ymin = xmin, ymax = -xmin;
@@ -250,6 +314,10 @@ void write_png_plot(const std::string& path, const LinePlot& p) {
       cv.text(int(left + pw) + 34, ly, std::to_string(si + 1), dark);
     }
   }
+  const std::string title = label_text(p.title), xl = label_text(p.x_label), yl = label_text(p.y_label);
+  cv.text(std::max(2, (w - Canvas::text_width(title)) / 2), 6, title, dark);
+  cv.text(4, int(top) - 16, yl, dark);
+  cv.text(int(left + pw / 2) - Canvas::text_width(xl) / 2, int(top + ph) + 26, xl, dark);
   cv.line(left, top, left + pw, top, dark);
   cv.line(left, top + ph, left + pw, top + ph, dark);
   cv.line(left, top, left, top + ph, dark);

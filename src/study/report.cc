@@ -6,6 +6,7 @@
 
 #include <algorithm>
 #include <array>
+#include <cctype>
 #include <cmath>
 #include <cstdlib>
 #include <limits>
@@ -177,7 +178,80 @@ struct Drop {
   PairedComparison learned, classical, difference;  // difference: learned drop - classical drop
 };
 
+// Mean of a minus mean of b for two independent samples: Welch's t interval
+// and two-sided p (Welch, Biometrika 1947); n = both sample sizes together.
+PairedComparison compare_unpaired(const std::vector<double>& a, const std::vector<double>& b) {
+  PairedComparison r;
+  r.test = "welch t";
+  r.n = int(a.size() + b.size());
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  if (a.size() < 2 || b.size() < 2) {
+    r.mean_diff = r.ci_low = r.ci_high = r.p_value = nan;
+    return r;
+  }
+  auto moments = [](const std::vector<double>& v, double& mean, double& var) {
+    mean = 0;
+    for (double x : v) mean += x;
+    mean /= double(v.size());
+    var = 0;
+    for (double x : v) var += (x - mean) * (x - mean);
+    var /= double(v.size() - 1);
+  };
+  double ma, va, mb, vb;
+  moments(a, ma, va);
+  moments(b, mb, vb);
+  const double na = double(a.size()), nb = double(b.size());
+  r.mean_diff = ma - mb;
+  const double se2 = va / na + vb / nb;
+  if (!(se2 > 0)) {
+    r.ci_low = r.ci_high = r.mean_diff;
+    r.p_value = r.mean_diff == 0 ? 1.0 : 0.0;
+    return r;
+  }
+  const double se = std::sqrt(se2);
+  const double dof = se2 * se2 / ((va / na) * (va / na) / (na - 1) + (vb / nb) * (vb / nb) / (nb - 1));
+  const double q = student_t_quantile(0.975, dof);
+  r.ci_low = r.mean_diff - q * se;
+  r.ci_high = r.mean_diff + q * se;
+  r.p_value = std::min(1.0, 2.0 * (1.0 - student_t_cdf(std::fabs(r.mean_diff / se), dof)));
+  return r;
+}
+
+// The values of metric k of rows a and b for the sample keys both have (a[i] and b[i] share a key).
+void pair_samples(const SummaryRow& a, const SummaryRow& b, size_t k, std::vector<double>& va, std::vector<double>& vb) {
+  std::map<std::string, double> of_b;
+  for (size_t i = 0; i < b.sample_keys.size(); ++i) of_b[b.sample_keys[i]] = b.samples[k][i];
+  for (size_t i = 0; i < a.sample_keys.size(); ++i) {
+    const auto it = of_b.find(a.sample_keys[i]);
+    if (it == of_b.end()) continue;
+    va.push_back(a.samples[k][i]);
+    vb.push_back(it->second);
+  }
+}
+
+// Drops between conditions on different objects (an object-set shift): the
+// means of the two conditions compared unpaired, and the learned-minus-classical
+// differences (paired within each condition) compared unpaired.
+Drop unpaired_drops(const SummaryRow& lt, const SummaryRow& ls, const SummaryRow& ct, const SummaryRow& cs, size_t k) {
+  Drop r;
+  r.learned = compare_unpaired(lt.samples[k], ls.samples[k]);
+  r.classical = compare_unpaired(ct.samples[k], cs.samples[k]);
+  std::vector<double> a, b, gt, gs;
+  pair_samples(lt, ct, k, a, b);
+  for (size_t i = 0; i < a.size(); ++i) gt.push_back(a[i] - b[i]);
+  a.clear();
+  b.clear();
+  pair_samples(ls, cs, k, a, b);
+  for (size_t i = 0; i < a.size(); ++i) gs.push_back(a[i] - b[i]);
+  r.difference = compare_unpaired(gt, gs);
+  return r;
+}
+
+// "Wilcoxon p" for paired comparisons, "Welch t p" for unpaired ones.
+std::string p_label(const PairedComparison& c) { return c.test == "welch t" ? "Welch t p " : "Wilcoxon p "; }
+
 Drop drops(const SummaryRow& lt, const SummaryRow& ls, const SummaryRow& ct, const SummaryRow& cs, size_t k) {
+  if (lt.object_set != ls.object_set) return unpaired_drops(lt, ls, ct, cs, k);
   std::map<std::string, std::array<double, 4>> by_key;
   std::map<std::string, int> seen;
   const SummaryRow* rows[4] = {&lt, &ls, &ct, &cs};
@@ -344,7 +418,8 @@ std::string findings_html(const std::vector<SummaryRow>& summary, const std::vec
            val(metric, d.classical.mean_diff) + unit(metric) + " (" +
            interval(metric, d.classical.ci_low, d.classical.ci_high) + "): " + verdict + " classical (difference " +
            val(metric, d.difference.mean_diff) + unit(metric) + ", " +
-           interval(metric, d.difference.ci_low, d.difference.ci_high) + ", Wilcoxon p " + pval(d.difference.p_value) +
+           interval(metric, d.difference.ci_low, d.difference.ci_high) + ", " + p_label(d.difference) +
+           pval(d.difference.p_value) +
            ", n " + std::to_string(d.difference.n) + ").</li>\n";
     }
     h += "</ul>\n";
@@ -446,7 +521,8 @@ std::string head_html(const ReportContext& x) {
     h += "<tr><th>metric region</th><td>centred disc, radius " + format_number(c.region_radius) +
          " of the half-width</td></tr>\n";
   h += "<tr><th>files</th><td>results.csv (one row per case), summary.csv (n, mean, std, 95 % interval per method "
-       "and condition), comparisons.csv (paired differences, intervals, Wilcoxon p-values), figures/ (SVG plots, "
+       "and condition), comparisons.csv (paired differences, intervals, Wilcoxon p-values), robustness.csv (with a "
+       "learned method inside its training condition: drops under each shift), figures/ (SVG plots, "
        "PNG montages), images/ (montage reconstructions)</td></tr>\n</table>\n";
   for (const StudyMethod& m : c.methods)
     if (m.learned() && x.in.learned != nullptr) {
@@ -674,6 +750,159 @@ std::string montage_html(ReportContext& x, const SectionParts& s, const Acquisit
          "], colour bar at the right (figures/" + name + ").</figcaption></figure>\n";
 }
 
+// ---------------------------------------------------------------- robustness
+// The drops of robustness() as a table, robustness.csv and figures (metric
+// against each single shift, the training condition ringed).
+
+// The one dimension in which two conditions differ ("object set" or an
+// acquisition axis); "" when they differ in none or in more than one.
+std::string shifted_dimension(const SummaryRow& from, const SummaryRow& to) {
+  std::string dim;
+  int count = from.object_set != to.object_set ? 1 : 0;
+  if (count) dim = "object set";
+  const auto& names = acquisition_axes();
+  for (size_t i = 0; i < names.size(); ++i)
+    if (from.axes[i] != to.axes[i]) {
+      ++count;
+      dim = names[i];
+    }
+  return count == 1 ? dim : "";
+}
+
+std::string plain_shift(const SummaryRow& from, const SummaryRow& to) {
+  std::string t = shift_text(from, to);
+  for (size_t k; (k = t.find("&rarr;")) != std::string::npos;) t.replace(k, 6, "->");
+  return t;
+}
+
+// robustness.csv: every learned method, shifted condition and metric.
+void write_robustness_csv(const std::string& path, const std::vector<SummaryRow>& summary,
+                          const std::vector<std::string>& metrics) {
+  std::string out =
+      "learned_method,classical_method,metric,training_condition,shifted_condition,shift,n,learned_drop,"
+      "learned_ci95_low,learned_ci95_high,classical_drop,classical_ci95_low,classical_ci95_high,drop_difference,"
+      "difference_ci95_low,difference_ci95_high,p_value,test\n";
+  auto num = [](double v) { return std::isnan(v) ? std::string() : format_number(v); };
+  for (const std::string& metric : metrics)
+    for (const RobustnessLine& l : robustness(summary, metric)) {
+      const Drop& d = l.drop;
+      out += csv_field(l.learned_train->method) + "," + csv_field(l.classical_train->method) + "," + metric + "," +
+             csv_field(l.learned_train->condition()) + "," + csv_field(l.learned_shift->condition()) + "," +
+             csv_field(plain_shift(*l.learned_train, *l.learned_shift)) + "," + std::to_string(d.difference.n) + "," +
+             num(d.learned.mean_diff) + "," + num(d.learned.ci_low) + "," + num(d.learned.ci_high) + "," +
+             num(d.classical.mean_diff) + "," + num(d.classical.ci_low) + "," + num(d.classical.ci_high) + "," +
+             num(d.difference.mean_diff) + "," + num(d.difference.ci_low) + "," + num(d.difference.ci_high) + "," +
+             num(d.difference.p_value) + "," + csv_field(d.difference.test) + "\n";
+    }
+  write_text_atomic(path, out);
+}
+
+std::string robustness_table_html(const std::vector<RobustnessLine>& rob, const std::string& metric) {
+  std::string h = "<table>\n<tr><th>learned method</th><th>shift from its training condition</th><th>learned drop</th>"
+                  "<th>best classical (at training)</th><th>classical drop</th><th>learned minus classical drop</th>"
+                  "<th>p (test)</th><th>n</th></tr>\n";
+  for (const RobustnessLine& l : rob) {
+    const Drop& d = l.drop;
+    const bool sig = excludes_zero(d.difference);
+    h += "<tr><td>" + method_html(*l.learned_train) + "</td><td>" + shift_text(*l.learned_train, *l.learned_shift) +
+         "</td><td>" + val(metric, d.learned.mean_diff) + unit(metric) + "<br><small>" +
+         interval(metric, d.learned.ci_low, d.learned.ci_high) + "</small></td><td>" + method_html(*l.classical_train) +
+         "</td><td>" + val(metric, d.classical.mean_diff) + unit(metric) + "<br><small>" +
+         interval(metric, d.classical.ci_low, d.classical.ci_high) + "</small></td><td>" + (sig ? "<b>" : "") +
+         val(metric, d.difference.mean_diff) + unit(metric) + (sig ? "</b>" : "") + "<br><small>" +
+         interval(metric, d.difference.ci_low, d.difference.ci_high) + "</small></td><td>" +
+         pval(d.difference.p_value) + " (" + (d.difference.test == "welch t" ? "Welch t, unpaired" : "Wilcoxon") +
+         ")</td><td>" + std::to_string(d.difference.n) + "</td></tr>\n";
+  }
+  return h + "</table>\n";
+}
+
+// x position of a condition along `dim`: the axis value, or for object sets
+// the position in `sets` (training set first).
+double shift_x(const SummaryRow& r, const std::string& dim, const std::vector<std::string>& sets) {
+  if (dim == "object set") return double(std::find(sets.begin(), sets.end(), r.object_set) - sets.begin());
+  const auto& names = acquisition_axes();
+  const size_t i = size_t(std::find(names.begin(), names.end(), dim) - names.begin());
+  return std::strtod(r.axes[i].c_str(), nullptr);
+}
+
+// One figure: `metric` of the learned method and of the best classical one against `dim`.
+std::string robustness_figure_html(ReportContext& x, const std::vector<const RobustnessLine*>& lines,
+                                   const std::string& dim, const std::string& metric) {
+  const RobustnessLine& first = *lines.front();
+  std::vector<std::string> sets = {first.learned_train->object_set};
+  for (const RobustnessLine* l : lines)
+    if (std::find(sets.begin(), sets.end(), l->learned_shift->object_set) == sets.end())
+      sets.push_back(l->learned_shift->object_set);
+  const size_t k = metric_index(metric);
+  LinePlot plot;
+  plot.title = metric_label(metric) + " of " + first.learned_train->method + " against " +
+               (dim == "object set" ? std::string("object set") : axis_label(dim));
+  plot.x_label = dim == "object set" ? "object set (0 = training set)" : axis_label(dim);
+  plot.y_label = metric_label(metric);
+  plot.marked_label = "training condition";
+  for (int which = 0; which < 2; ++which) {
+    std::vector<std::pair<double, std::pair<double, bool>>> pts;
+    const SummaryRow* train = which == 0 ? first.learned_train : first.classical_train;
+    pts.push_back({shift_x(*train, dim, sets), {train->mean[k], true}});
+    for (const RobustnessLine* l : lines) {
+      const SummaryRow* r = which == 0 ? l->learned_shift : l->classical_shift;
+      pts.push_back({shift_x(*r, dim, sets), {r->mean[k], false}});
+    }
+    std::sort(pts.begin(), pts.end());
+    PlotSeries series;
+    series.name = which == 0 ? train->method + " (learned)" : train->label() + " (best classical at training)";
+    series.dashed = which == 0;
+    for (const auto& [px, p] : pts) {
+      series.x.push_back(px);
+      series.y.push_back(p.first);
+      series.marked.push_back(p.second);
+    }
+    plot.series.push_back(std::move(series));
+  }
+  std::string stem = "robustness-" + first.learned_train->method + "-" + metric + "-vs-" + dim;
+  for (char& ch : stem) ch = std::isalnum(static_cast<unsigned char>(ch)) || ch == '-' ? ch : '-';
+  const std::string svg = svg_line_plot(plot);
+  write_text_atomic(x.fig_dir + "/" + stem + ".svg", "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n" + svg);
+  write_png_plot(x.fig_dir + "/" + stem + ".png", plot);
+  std::string set_note;
+  if (dim == "object set")
+    for (size_t i = 0; i < sets.size(); ++i) set_note += (i ? ", " : "; object sets: ") + std::to_string(i) + " " + sets[i];
+  ++x.figure;
+  return "<figure>" + svg + "<figcaption>Figure " + std::to_string(x.figure) + ": " + html_escape(plot.title) +
+         ", mean over objects and repetitions, ringed: the training condition (" +
+         html_escape(first.learned_train->condition()) + ")" + html_escape(set_note) + " (figures/" + stem +
+         ".svg; PNG copy figures/" + stem + ".png, legend 1 " + html_escape(plot.series[0].name) + ", 2 " +
+         html_escape(plot.series[1].name) + ").</figcaption></figure>\n";
+}
+
+// The robustness section: table of drops for the main metric, robustness.csv for every metric, and one figure
+// per learned method, training condition and single shifted dimension.
+std::string robustness_section_html(ReportContext& x) {
+  const std::vector<RobustnessLine> rob = robustness(*x.in.summary, x.main_metric);
+  if (rob.empty()) return "";
+  write_robustness_csv(x.in.dir + "/robustness.csv", *x.in.summary, x.c.metrics);
+  std::string h = "<section id=\"robustness\">\n<h2>Robustness of the learned methods</h2>\n<p>Drop of " +
+                  html_escape(metric_label(x.main_metric)) +
+                  " from the learned method's training condition to each shifted condition (training minus shifted, "
+                  "paired by object and repetition; another object set has other objects, so those drops compare "
+                  "means unpaired, Welch's t; 95 % intervals), next to the drop of the best classical method "
+                  "of the training condition between the same two conditions. Bold: the two drops differ "
+                  "significantly. Every metric: robustness.csv.</p>\n";
+  h += robustness_table_html(rob, x.main_metric);
+  std::map<std::pair<const SummaryRow*, std::string>, std::vector<const RobustnessLine*>> groups;
+  std::vector<std::pair<const SummaryRow*, std::string>> order;
+  for (const RobustnessLine& l : rob) {
+    const std::string dim = shifted_dimension(*l.learned_train, *l.learned_shift);
+    if (dim.empty()) continue;
+    const auto key = std::make_pair(l.learned_train, dim);
+    if (groups.count(key) == 0) order.push_back(key);
+    groups[key].push_back(&l);
+  }
+  for (const auto& key : order) h += robustness_figure_html(x, groups[key], key.second, x.main_metric);
+  return h + "</section>\n";
+}
+
 // One modality: table, plots against each varied axis, montages.
 std::string modality_section_html(ReportContext& x, Modality modality) {
   SectionParts s{modality, std::string(to_string(modality)), {}, {}};
@@ -701,6 +930,7 @@ std::string write_study_report(const ReportInputs& in) {
   ReportContext x(in);
   ::mkdir(x.fig_dir.c_str(), 0777);
   std::string h = head_html(x);
+  h += robustness_section_html(x);
   for (const Modality modality : all_modalities()) h += modality_section_html(x, modality);
   h += "<h2>Study config</h2>\n<pre>" + html_escape(x.c.text) + "</pre>\n";
   h += "<p class=\"ruo\">" + html_escape(kResearchUseLine) + "</p>\n</body>\n</html>\n";

@@ -107,7 +107,7 @@ StudyPhantom measurement_object(const Config& t, const StudyConfig& c, const std
     throw t.error("file", std::string(e.what()));
   }
   if (m->modality != Modality::kMri || !m->mri)
-    throw t.error("file", "'" + path + "' is a " + std::string(to_string(m->modality)) +
+    throw t.error("file", "'" + path + "' is " + modality_phrase(m->modality) +
                               " measurement; [[measurement]] objects are fully sampled MRI k-space");
   if (m->mri->non_cartesian())
     throw t.error("file", "'" + path + "' holds non-Cartesian samples (/mri/trajectory); a [[measurement]] object "
@@ -481,13 +481,15 @@ void parse_study_header(const Config& root, const std::string& name, StudyConfig
 }
 
 // One [[phantom]] table: a phantom table file, or `count` members of a family.
-void parse_phantom_table(const Config& p, const std::string& base_dir, StudyConfig& c) {
+void parse_phantom_table(const Config& p, int table, const std::string& base_dir, StudyConfig& c) {
   p.expect_only({"table", "family", "count", "seed"});
   if (p.has("table") == p.has("family")) throw p.error("table", "give exactly one of table or family");
   if (p.has("table")) {
     for (const char* k : {"count", "seed"})
       if (p.has(k)) throw p.error(k, "only family phantoms take " + std::string(k));
     StudyPhantom sp;
+    sp.table = table;
+    sp.line = p.line();
     sp.table_path = resolve(p.get_string("table"), base_dir);
     if (!file_exists(sp.table_path)) throw p.error("table", "phantom table '" + sp.table_path + "' does not exist");
     std::string stem = sp.table_path.substr(sp.table_path.find_last_of('/') + 1);
@@ -502,6 +504,8 @@ void parse_phantom_table(const Config& p, const std::string& base_dir, StudyConf
     if (fseed < 0) throw p.error("seed", "must be >= 0");
     for (int64_t i = 0; i < count; ++i) {
       StudyPhantom sp;
+      sp.table = table;
+      sp.line = p.line(p.has("seed") ? "seed" : "family");
       sp.family = fam;
       sp.family_seed = static_cast<uint64_t>(fseed);
       sp.family_index = static_cast<int>(i);
@@ -517,7 +521,7 @@ void parse_study_objects(const Config& root, const std::string& base_dir, StudyC
   const std::vector<Config> measured = root.tables("measurement"), images = root.tables("object");
   if (phantoms.empty() && measured.empty() && images.empty())
     throw root.error("phantom", "empty grid: no [[phantom]], [[measurement]] or [[object]] table");
-  for (const Config& p : phantoms) parse_phantom_table(p, base_dir, c);
+  for (size_t k = 0; k < phantoms.size(); ++k) parse_phantom_table(phantoms[k], static_cast<int>(k), base_dir, c);
   for (const Config& t : measured) c.phantoms.push_back(measurement_object(t, c, base_dir));
   for (const Config& t : images) c.phantoms.push_back(image_object(t, c, base_dir));
   for (size_t i = 0; i < c.phantoms.size(); ++i)
@@ -562,7 +566,7 @@ void parse_study_methods(const Config& root, const std::string& base_dir, StudyC
     for (const StudyMethod& o : c.methods)
       for (const auto& mod : m.modalities)
         if (o.name == m.name && o.applies_to(mod))
-          throw t.error("name", "'" + m.name + "' is used twice for " + std::string(to_string(mod)) +
+          throw t.error("name", "'" + m.name + "' is used twice for " + modality_label(mod) +
                                     "; give the methods distinct names");
     c.methods.push_back(std::move(m));
   }

@@ -10,6 +10,7 @@
 #include <algorithm>
 #include <cerrno>
 #include <chrono>
+#include <cmath>
 #include <cstdio>
 #include <cstdlib>
 #include <cstring>
@@ -61,7 +62,7 @@ std::string parent_of(const std::string& p) {
 
 // The keys of manifest.json a run or a merge checks.
 struct ManifestKeys {
-  std::string config_hash, shard, config_dir;
+  std::string config_hash, shard, config_dir, name;
 };
 
 // Reads `path` (written by write_manifest). Text that is not a JSON object
@@ -86,6 +87,7 @@ ManifestKeys read_manifest(const std::string& path) {
   m.config_hash = text("config_hash", true);
   m.shard = text("shard", true);
   m.config_dir = text("config_dir", false);
+  m.name = text("name", false);
   return m;
 }
 
@@ -132,12 +134,29 @@ bool append_row(int fd, const std::string& line) {
   return true;
 }
 
-ImageRecord record_of(const ImageF& img, const std::string& description) {
+// A montage image (truth or a scored reconstruction) on the measurement's pixel grid.
+ImageRecord record_of(const ImageF& img, const std::string& description, const Measurement& m) {
   ImageRecord r;
   r.pixels = NdArray<cfloat>(Shape{img.rows(), img.cols()});
   for (Index k = 0; k < img.size(); ++k) r.pixels.data[size_t(k)] = cfloat(img.data()[k], 0.0f);
   r.description = description;
+  r.pixel_spacing_mm[0] = m.pixel_spacing_mm[0];
+  r.pixel_spacing_mm[1] = m.pixel_spacing_mm[1];
   return r;
+}
+
+// The attributes that say which study case an image belongs to: the study
+// method's name and the spec's method, prior and lambda attributes (those of
+// the reconstruction record, which `recofold recon` writes too).
+void add_case_attrs(ImageRecord& img, const StudyMethod& method, Modality modality, const StudyCase& c,
+                    const CaseOutcome& o) {
+  for (const auto& [k, v] : o.record.text_attrs) img.text_attrs.emplace(k, v);
+  for (const auto& [k, v] : o.record.number_attrs) img.number_attrs.emplace(k, v);
+  img.text_attrs["study_method"] = method.name;
+  img.text_attrs["study_case"] = c.key;
+  if (!img.text_attrs.count("method")) img.text_attrs["method"] = method.method_name();
+  if (!img.text_attrs.count("prior")) img.text_attrs["prior"] = method.prior_name(modality);
+  if (std::isfinite(o.lambda)) img.number_attrs["lambda"] = o.lambda;
 }
 
 // Rows sorted in canonical case order (cases not in the grid go last, by key).
@@ -307,6 +326,18 @@ struct TaskMeasurement {
   std::string error, measurement_file;
 };
 
+// Provenance of a study's image files: the study command, the config hash,
+// the case (or measurement) key and its seeds.
+Provenance image_provenance(const StudyRun& r, const std::string& key, const StudyCase& c) {
+  Provenance p;
+  p.command = r.options.command.empty() ? "recofold study --config " + r.config.file : r.options.command;
+  p.extra["study_config_hash"] = r.config.hash;
+  p.extra["study_key"] = key;
+  p.extra["mask_seed"] = std::to_string(c.mask_seed);
+  p.extra["noise_seed"] = std::to_string(c.noise_seed);
+  return p;
+}
+
 TaskMeasurement simulate_task(const StudyRun& r, const StudyCase& first, bool keep_images) {
   TaskMeasurement t;
   try {
@@ -329,8 +360,10 @@ TaskMeasurement simulate_task(const StudyRun& r, const StudyCase& first, bool ke
   }
   if (keep_images) {
     try {
-      write_image_file(study_image_path(r.dir, "truth|" + first.measurement_key),
-                       record_of(t.data.truth, "truth of " + first.measurement_key), Provenance{});
+      ImageRecord truth = record_of(t.data.truth, "truth of " + first.measurement_key, t.data.measurement);
+      truth.text_attrs["study_measurement"] = first.measurement_key;
+      write_image_file(study_image_path(r.dir, "truth|" + first.measurement_key), truth,
+                       image_provenance(r, first.measurement_key, first));
     } catch (const std::exception& e) {
       t.error = output_failure("writing the truth image: " + std::string(e.what()));
     }
@@ -344,11 +377,22 @@ CaseOutcome run_one_case(const StudyRun& r, const StudyCase& c, const TaskMeasur
   if (!m.error.empty()) {
     o.error = m.error;
   } else {
-    o = run_case_method(r.config.methods[size_t(c.method)], m.data, &r.learned);
+    const StudyMethod& method = r.config.methods[size_t(c.method)];
+    o = run_case_method(method, m.data, &r.learned);
+    if (o.ok && method.learned()) {
+      // The object's family and the image size, which the model's own check does not see.
+      const std::string more = r.learned.object_outside(method.name, r.config.phantoms[size_t(c.phantom)],
+                                                        r.config.ny, r.config.nx);
+      if (!more.empty()) {
+        o.outside += (o.outside.empty() ? "" : "; ") + more;
+        o.in_training = "no";
+      }
+    }
     if (o.ok && keep_images) {
       try {
-        write_image_file(study_image_path(r.dir, c.key), record_of(o.image, "reconstruction of " + c.key),
-                         Provenance{});
+        ImageRecord img = record_of(o.image, "reconstruction of " + c.key, m.data.measurement);
+        add_case_attrs(img, method, m.data.measurement.modality, c, o);
+        write_image_file(study_image_path(r.dir, c.key), img, image_provenance(r, c.key, c));
       } catch (const std::exception& e) {
         o.ok = false;
         o.error = output_failure("writing the montage image: " + std::string(e.what()));
@@ -357,7 +401,9 @@ CaseOutcome run_one_case(const StudyRun& r, const StudyCase& c, const TaskMeasur
     if (o.ok && r.config.keep_all) {
       try {
         o.image_file = kept_image_file(c.key);
-        write_image_file(r.dir + "/" + o.image_file, o.record, Provenance{});
+        ImageRecord kept = o.record;
+        add_case_attrs(kept, method, m.data.measurement.modality, c, o);
+        write_image_file(r.dir + "/" + o.image_file, kept, image_provenance(r, c.key, c));
       } catch (const std::exception& e) {
         o.ok = false;
         o.image_file.clear();
@@ -776,12 +822,29 @@ StudyRunSummary run_study(const StudyConfig& config, const StudyRunOptions& opti
   return r.s;
 }
 
+// A merge may write into a new folder or into one that holds the same
+// study (a full run, or an earlier merge): its rows are replaced by the
+// merged ones and it stays resumable. A folder of another config is refused.
+void check_merge_target(const std::string& out_dir, const std::string& hash) {
+  const std::string manifest = out_dir + "/manifest.json";
+  if (!file_exists(manifest)) {
+    if (file_exists(out_dir + "/results.csv"))
+      throw InputError(out_dir, "out_dir", "holds a results.csv but no manifest.json; choose a new folder to merge into");
+    return;
+  }
+  const ManifestKeys keys = read_manifest(manifest);
+  if (keys.config_hash != hash)
+    throw InputError(manifest, "config_hash",
+                     "the folder holds results of a different config (" + keys.config_hash + ", the shards " + hash +
+                         "); choose another folder to merge into");
+}
+
 StudyRunSummary merge_studies(const std::vector<std::string>& dirs, const std::string& out_dir,
                               const std::string& command) {
   const auto t0 = std::chrono::steady_clock::now();
   if (dirs.size() < 2) throw InputError("", "merge", "give at least two study folders to merge");
   if (!is_dir(parent_of(out_dir))) throw InputError("", "out_dir", "the folder '" + parent_of(out_dir) + "' does not exist");
-  std::string hash, config_text, cdir;
+  std::string hash, config_text, cdir, name;
   ResultsTable merged;
   std::map<std::string, std::string> owner;
   for (const std::string& d : dirs) {
@@ -793,6 +856,7 @@ StudyRunSummary merge_studies(const std::vector<std::string>& dirs, const std::s
       hash = h;
       config_text = read_text_file(d + "/study.toml");
       cdir = keys.config_dir;
+      name = keys.name;
     } else if (h != hash) {
       throw InputError(manifest, "config_hash",
                        "shard of a different config (" + h + ", first folder " + hash + "); refusing to merge");
@@ -815,6 +879,7 @@ StudyRunSummary merge_studies(const std::vector<std::string>& dirs, const std::s
   // The config (its relative paths resolve against its original folder).
   StudyConfig config = StudyConfig::parse(config_text, cdir + "/study.toml", cdir);
   config.file = cdir + "/study.toml";
+  if (!name.empty()) config.name = name;  // a name from the config file's stem, not "study"
   if (config.hash != hash)
     throw InputError(dirs.front() + "/study.toml", "config_hash",
                      "the config or a file it names changed since the shards ran (" + config.hash + " now, " + hash +
@@ -827,6 +892,7 @@ StudyRunSummary merge_studies(const std::vector<std::string>& dirs, const std::s
                                                                  d + "/" + study_lock_file_name()) +
                            "; merge when it has finished");
 
+  check_merge_target(out_dir, hash);
   make_dir(out_dir);
   const StudyFolderLock out_lock(out_dir, command);
   make_dir(out_dir + "/images");

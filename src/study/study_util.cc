@@ -88,4 +88,19 @@ std::string html_escape(const std::string& s) {
   return out;
 }
 
+std::string modality_label(Modality m) {
+  switch (m) {
+    case Modality::kMri: return "MRI";
+    case Modality::kCt: return "CT";
+    case Modality::kDenoise: return "denoising";
+    case Modality::kInpaint: return "inpainting";
+  }
+  return std::string(to_string(m));
+}
+
+std::string modality_phrase(Modality m) {
+  const std::string label = modality_label(m);
+  return (label == "MRI" || label == "inpainting" ? "an " : "a ") + label;
+}
+
 }  // namespace recofold

@@ -8,6 +8,7 @@
 
 // Hashing and number text come from core (core/hash.h, core/number_format.h).
 #include "recofold/core/hash.h"
+#include "recofold/core/measurement.h"
 #include "recofold/core/number_format.h"
 
 namespace recofold {
@@ -18,6 +19,11 @@ std::vector<std::string> csv_split(const std::string& line);
 
 // Standard base64 (RFC 4648) of bytes, for images embedded in the report.
 std::string base64(const std::string& bytes);
+
+// Modalities in messages: "MRI", "CT", "denoising", "inpainting", and with
+// the article: "an MRI", "a CT", "a denoising", "an inpainting".
+std::string modality_label(Modality m);
+std::string modality_phrase(Modality m);
 
 // HTML text escaping (& < > ").
 std::string html_escape(const std::string& s);

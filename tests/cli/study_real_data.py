@@ -131,7 +131,7 @@ def bad_inputs(tmp):
     bad_case("measurement on another grid", 'size = 32\n[[measurement]]\nfile = "full.h5"\n' + tail,
              ["bad.toml", "full.h5", "size = [64, 64]"], tmp)
     bad_case("CT data as a measurement", before + '[[measurement]]\nfile = "ct.h5"\n' + tail,
-             ["bad.toml", "ct.h5", "ct measurement"], tmp)
+             ["bad.toml", "ct.h5", "a CT measurement"], tmp)
     bad_case("non-Cartesian measurement", before + '[[measurement]]\nfile = "radial.h5"\n' + tail,
              ["bad.toml", "radial.h5", "non-Cartesian", "/mri/trajectory"], tmp)
     bad_case("missing measurement file", before + '[[measurement]]\nfile = "none.h5"\n' + tail,

@@ -57,6 +57,7 @@ struct LearnedTrainingRun {
   bool resume = false;                      // continue from the checkpoint (an error when there is none)
   bool resume_if_checkpoint = false;        // continue when a checkpoint of `out` exists, else start fresh
   int64_t steps = 0;                        // > 0 overrides the config's train.steps
+  uint64_t seed = 0;                        // > 0 overrides the config's train.seed (objects, noise, weights)
   int threads = 0;                          // > 0: torch/OpenMP threads when the config's train.threads is 0
   ProgressSink* progress = nullptr;         // may be null
   const std::atomic<bool>* stop = nullptr;  // set: write the checkpoint and return interrupted

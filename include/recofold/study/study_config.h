@@ -24,6 +24,12 @@
 //   family = "textured"             a seeded family (phantom/family.h)
 //   count  = 2                      objects 0..count-1 (1..1000)
 //   seed   = 7                      family seed (default: the study seed)
+//                                   Held out: a learned method's model must not have
+//                                   trained or validated on these objects (same family,
+//                                   seed and index, from its trained_on seed ranges);
+//                                   the study exits 2 naming both ranges otherwise
+//                                   (study/held_out.h). Models the study trains get a
+//                                   seed no family table uses.
 //
 //   [[measurement]]                 measured data as an object (MRI only): a fully
 //   file = "scan-full.h5"           sampled measurement file (e.g. from `recofold import`;
@@ -105,6 +111,8 @@
 //                                   (into DIR/models/<name>.h5; its trained_on
 //                                   conditions mark the results)
 //   train_steps = 200               optional override of the training config's steps
+//                                   (the study also sets the training seed: from the
+//                                   study seed and the name, apart from every family seed)
 //   optional  = true                unrolled: leave the method out (with a note in the
 //                                   report) when this build has no learn module
 //
@@ -136,6 +144,8 @@ struct StudyPhantom {
   std::string family;       // set for family objects
   uint64_t family_seed = 0;
   int family_index = 0;
+  int table = -1;           // position among the [[phantom]] tables (-1 for other objects)
+  int line = 0;             // line of its [[phantom]] table (families: of its seed key, if given)
   std::string measurement_path;  // [[measurement]]: fully sampled MRI measurement file (resolved)
   int measured_coils = 0;        // its coil count
   std::string image_path;        // [[object]]: image file or DICOM folder (resolved)
