@@ -1,7 +1,8 @@
 #!/usr/bin/python3
 # SPDX-License-Identifier: Apache-2.0
 # `recofold train` end to end: bad configs exit 2 naming the key and write nothing; a tiny run writes a model
-# file readable with h5py; SIGINT writes a checkpoint and --resume finishes the run.
+# file readable with h5py; SIGINT writes a checkpoint and --resume finishes the run. In a build without the
+# learn module (RECOFOLD_TEST_LEARN=0, set by src/cli/CMakeLists.txt) `train` must refuse instead.
 import json
 import os
 import signal
@@ -52,7 +53,27 @@ def bad_case(name, args, words, workdir):
     check(name, ok, f"exit {out.returncode}, stderr {out.stderr.strip()!r}, new files {sorted(left)}")
 
 
+def refusal_without_learn():
+    """A build without the learn module (RECOFOLD_TEST_LEARN=0) refuses `train` with exit 2, one line naming
+    the missing learn module, and writes nothing."""
+    with tempfile.TemporaryDirectory() as tmp:
+        with open(os.path.join(tmp, "tiny.toml"), "w") as f:
+            f.write(TINY.format(steps=4, minutes=0))
+        bad_case("train refused without the learn module", ["train", "--config", "tiny.toml", "--out", "m.h5"],
+                 ["train", "no learn module", "RECOFOLD_WITH_LIBTORCH"], tmp)
+        out = subprocess.run([EXE, "--quiet", "train", "--config", "tiny.toml", "--out", "m.h5"],
+                             capture_output=True, text=True, cwd=tmp)
+        check("the refusal is one line", len(out.stderr.strip().splitlines()) == 1, out.stderr.strip())
+    if failures:
+        print("FAILED:", ", ".join(failures))
+        return 1
+    print("this build has no learn module: only the refusal of `train` is checked")
+    return 0
+
+
 def main():
+    if os.environ.get("RECOFOLD_TEST_LEARN") == "0":
+        return refusal_without_learn()
     with tempfile.TemporaryDirectory() as tmp:
         def write(name, text):
             with open(os.path.join(tmp, name), "w") as f:

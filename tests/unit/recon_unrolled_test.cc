@@ -124,11 +124,15 @@ TEST(UnrolledScheme, CgDataConsistencyStepSolvesRegularisedNormalEquations) {
 }
 
 // A = diag(mask) Q with Q unitary: A A^H = diag(mask) is a projection, like a
-// single-coil Cartesian masked orthonormal FFT.
+// single-coil Cartesian masked orthonormal FFT. Q comes from a double
+// precision QR: Eigen's single-precision complex QR loads a 4-byte aligned
+// complex<float> constant as a double (_mm_load_sd in Eigen's SSE
+// pset1<Packet2cf>), which UndefinedBehaviorSanitizer reports as misaligned.
 DenseOperator masked_unitary(Index n, uint64_t seed, VecC* mask_out) {
-  const Eigen::MatrixXcf g = random_matrix(n, n, seed);
-  Eigen::HouseholderQR<Eigen::MatrixXcf> qr(g);
-  Eigen::MatrixXcf q = qr.householderQ() * Eigen::MatrixXcf::Identity(n, n);
+  const Eigen::MatrixXcd g = random_matrix(n, n, seed).cast<cdouble>();
+  Eigen::HouseholderQR<Eigen::MatrixXcd> qr(g);
+  const Eigen::MatrixXcd qd = qr.householderQ() * Eigen::MatrixXcd::Identity(n, n);
+  Eigen::MatrixXcf q = qd.cast<cfloat>();
   VecC mask(n);
   for (Index i = 0; i < n; ++i) mask[i] = cfloat(i % 3 == 0 ? 1.f : 0.f, 0.f);
   if (mask_out) *mask_out = mask;
