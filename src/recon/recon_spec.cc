@@ -245,7 +245,7 @@ void ReconSpec::check_lambda(Modality modality, const ReconSpec& r, std::vector<
     if (mode == LambdaMode::kAuto && r.lambda.rule == LambdaRule::kOracle)
       e.push_back({"lambda.rule", "oracle", "chooses from a grid of values; give lambda as a list"});
     if (mode == LambdaMode::kAuto && r.lambda.rule == LambdaRule::kHeldOutViews && modality != Modality::kCt)
-      e.push_back({"lambda.rule", "held-out-views", "needs a ct measurement (it holds out views)"});
+      e.push_back({"lambda.rule", "held-out-views", "needs a CT measurement (it holds out views)"});
     if (mode == LambdaMode::kGrid && r.lambda.rule != LambdaRule::kOracle)
       e.push_back({"lambda.rule", std::string(to_string(*r.lambda.rule)), "a grid is chosen by the oracle rule"});
     if (lambda.max_solves && mode != LambdaMode::kAuto)

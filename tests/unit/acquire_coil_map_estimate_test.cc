@@ -5,7 +5,6 @@
 // them comes close to CG-SENSE with the true maps.
 #include <gtest/gtest.h>
 
-#include <cstdlib>
 #include <string>
 
 #include "recofold/acquire/mri.h"
@@ -18,20 +17,15 @@
 #include "recofold/recon/reconstruct.h"
 #include "recofold/sampling/mask.h"
 #include "recofold/sampling/trajectory.h"
+#include "phantom_test_util.h"
 
 namespace recofold {
 namespace {
 
-std::string source_dir() {
-  if (const char* env = std::getenv("RECOFOLD_SOURCE_DIR")) return env;
-  const std::string here = __FILE__;
-  return here.substr(0, here.rfind("/tests/"));
-}
-
 constexpr Index kN = 64;
 
 struct Object {
-  Phantom phantom = load_phantom_table(source_dir() + "/phantoms/shepp-logan-modified.toml");
+  Phantom phantom = testing::load_repo_phantom("shepp-logan-modified");
   ImageC raster = rasterize(phantom, static_cast<int>(kN), static_cast<int>(kN));
 };
 
