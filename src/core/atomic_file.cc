@@ -2,7 +2,9 @@
 // Temporary-file-then-rename writes.
 #include "recofold/core/atomic_file.h"
 
+#include <dirent.h>
 #include <fcntl.h>
+#include <signal.h>
 #include <unistd.h>
 
 #include <algorithm>
@@ -21,6 +23,53 @@ namespace recofold {
 
 namespace {
 std::atomic<unsigned> g_counter{0};
+
+bool starts_with(const std::string& s, const std::string& p) { return s.compare(0, p.size(), p) == 0; }
+
+// Parses "<pid>-<n>" at the front of `rest`; returns the pid, or 0 if `rest`
+// does not start that way. `tail` receives what follows "<n>".
+long parse_pid_counter(const std::string& rest, std::string& tail) {
+  size_t i = 0;
+  while (i < rest.size() && std::isdigit(static_cast<unsigned char>(rest[i]))) ++i;
+  if (i == 0 || i > 9 || i >= rest.size() || rest[i] != '-') return 0;
+  const long pid = std::stol(rest.substr(0, i));
+  size_t j = i + 1;
+  while (j < rest.size() && std::isdigit(static_cast<unsigned char>(rest[j]))) ++j;
+  if (j == i + 1) return 0;
+  tail = rest.substr(j);
+  return pid;
+}
+
+bool process_is_gone(long pid) {
+  if (pid <= 0 || pid == static_cast<long>(::getpid())) return false;
+  return ::kill(static_cast<pid_t>(pid), 0) != 0 && errno == ESRCH;
+}
+}  // namespace
+
+int remove_orphaned_temporaries(const std::string& target) {
+  const auto slash = target.find_last_of('/');
+  const std::string dir = slash == std::string::npos ? "" : target.substr(0, slash + 1);
+  const std::string base = slash == std::string::npos ? target : target.substr(slash + 1);
+  if (base.empty()) return 0;
+  DIR* d = ::opendir(dir.empty() ? "." : dir.c_str());
+  if (!d) return 0;
+  const std::string own_prefix = "." + base + ".tmp-";
+  int removed = 0;
+  while (const dirent* e = ::readdir(d)) {
+    const std::string name = e->d_name;
+    std::string tail;
+    long pid = 0;
+    if (starts_with(name, own_prefix)) {
+      pid = parse_pid_counter(name.substr(own_prefix.size()), tail);
+      if (!tail.empty()) pid = 0;
+    } else if (starts_with(name, ".tmp-")) {
+      pid = parse_pid_counter(name.substr(5), tail);
+      if (tail != "-" + base) pid = 0;
+    }
+    if (process_is_gone(pid) && std::remove((dir + name).c_str()) == 0) ++removed;
+  }
+  ::closedir(d);
+  return removed;
 }
 
 AtomicFile::AtomicFile(std::string target) : target_(std::move(target)) {
@@ -41,6 +90,7 @@ void AtomicFile::commit() {
     throw WorkError("cannot move finished output into place at " + target_ + ": " + why);
   }
   committed_ = true;
+  remove_orphaned_temporaries(target_);
 }
 
 void write_bytes_checked(const std::string& path, const void* data, size_t size, const std::string& target) {

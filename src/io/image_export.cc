@@ -51,6 +51,7 @@ class TempSibling {
     if (std::rename(temp_.c_str(), target_.c_str()) != 0)
       throw WorkError("cannot move finished output into place at " + target_ + ": " + std::strerror(errno));
     committed_ = true;
+    remove_orphaned_temporaries(target_);
   }
 
  private:

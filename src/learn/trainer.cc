@@ -314,6 +314,7 @@ TrainResult train_unrolled_model(const TrainingConfig& cfg, const TrainRun& run)
   record_training(state.info, cfg, run, result, elapsed_before + result.seconds);
   model.save(run.out);
   if (file_exists(result.checkpoint)) std::remove(result.checkpoint.c_str());
+  remove_orphaned_temporaries(result.checkpoint);  // a run killed while writing one
   if (run.progress) run.progress->finish(status());
   return result;
 }

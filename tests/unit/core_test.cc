@@ -5,6 +5,7 @@
 #include <cmath>
 #include <cstdio>
 #include <fstream>
+#include <sys/wait.h>
 #include <unistd.h>
 
 #include "recofold/core/atomic_file.h"
@@ -158,6 +159,32 @@ TEST(AtomicFile, UncommittedWriteLeavesNothingBehind) {
   EXPECT_EQ(read_text_file(target), "whole");
   // Only the target remains in the folder.
   EXPECT_EQ(std::system(("test $(ls -A " + dir + " | wc -l) -eq 1").c_str()), 0);
+}
+
+TEST(AtomicFile, CommitRemovesTemporariesOfDeadWritersOnly) {
+  const std::string dir = temp_dir();
+  const std::string target = dir + "/model.h5";
+  // A process that has exited: its pid is free (reaped) and not ours.
+  const pid_t child = fork();
+  if (child == 0) _exit(0);
+  int status = 0;
+  waitpid(child, &status, 0);
+  const std::string dead = std::to_string(child), alive = std::to_string(getppid());
+  const std::string orphan1 = dir + "/.model.h5.tmp-" + dead + "-4";
+  const std::string orphan2 = dir + "/.tmp-" + dead + "-0-model.h5";
+  const std::string live = dir + "/.model.h5.tmp-" + alive + "-1";      // a writer that still runs
+  const std::string other = dir + "/.other.h5.tmp-" + dead + "-2";      // another target's
+  const std::string lookalike = dir + "/.model.h5.tmp-" + dead + "-x";  // not our pattern
+  for (const auto& p : {orphan1, orphan2, live, other, lookalike}) std::ofstream(p) << "x";
+  write_text_atomic(target, "whole");
+  EXPECT_FALSE(file_exists(orphan1));
+  EXPECT_FALSE(file_exists(orphan2));
+  EXPECT_TRUE(file_exists(live));
+  EXPECT_TRUE(file_exists(other));
+  EXPECT_TRUE(file_exists(lookalike));
+  EXPECT_EQ(remove_orphaned_temporaries(dir + "/other.h5"), 1);
+  EXPECT_FALSE(file_exists(other));
+  EXPECT_EQ(remove_orphaned_temporaries(target), 0);
 }
 
 TEST(FileExtension, RecognisesCompoundNiftiExtension) {

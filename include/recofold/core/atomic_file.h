@@ -28,6 +28,15 @@ class AtomicFile {
   bool committed_ = false;
 };
 
+// Removes temporary files of `target` left by processes that no longer run
+// (killed with SIGKILL, or by a power cut, while writing): the names
+// ".NAME.tmp-<pid>-<n>" (AtomicFile) and ".tmp-<pid>-<n>-NAME" (image
+// exports) in the target's folder whose <pid> is not a live process. A live
+// writer's temporary file is never touched. Returns how many were removed.
+// AtomicFile::commit() calls it, so the next finished write of a target
+// clears what an interrupted one left.
+int remove_orphaned_temporaries(const std::string& target);
+
 // Writes `text` to `path` atomically. Every write and the close are checked
 // (a full disk, a quota, a read-only folder): WorkError naming `path`, and
 // neither the temporary file nor a partial target is left.
