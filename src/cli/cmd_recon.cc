@@ -33,6 +33,7 @@ struct ReconFlags {
   bool restart = true;
   std::string rho, cg_iters, tau, sigma;
   std::string filter, combine, maps;
+  std::string espirit_kernel, espirit_calib, espirit_threshold, espirit_crop;
   bool nonneg = false, no_nonneg = false;
   std::string model;
 };
@@ -69,6 +70,10 @@ const std::vector<FieldFlag>& recon_flags() {
       {"fbp.filter", "--filter"},
       {"zero_filled.combine", "--combine"},
       {"maps", "--maps"},
+      {"espirit.kernel_size", "--espirit-kernel"},
+      {"espirit.calibration_size", "--espirit-calib"},
+      {"espirit.singular_threshold", "--espirit-threshold"},
+      {"espirit.crop_threshold", "--espirit-crop"},
       {"nonneg", "--nonneg"},
       {"model", "--model"},
       {"modality", "--meas"},
@@ -172,6 +177,10 @@ ReconSpec spec_from_flags(const ReconFlags& f, const CLI::App& sub) {
     if (const auto c = parse_coil_map_source(f.maps)) s.maps = *c;
     else errors.add("--maps", "'" + f.maps + "'", "expected one of " + coil_map_source_names());
   }
+  int_flag("--espirit-kernel", f.espirit_kernel, s.espirit.kernel_size);
+  int_flag("--espirit-calib", f.espirit_calib, s.espirit.calibration_size);
+  num_flag("--espirit-threshold", f.espirit_threshold, s.espirit.singular_threshold);
+  num_flag("--espirit-crop", f.espirit_crop, s.espirit.crop_threshold);
   if (f.nonneg && f.no_nonneg) errors.add("--nonneg", "", "conflicts with --no-nonneg");
   if (f.nonneg) s.nonneg = true;
   if (f.no_nonneg) s.nonneg = false;
@@ -200,10 +209,11 @@ void run_recon(const ReconFlags& f, const CLI::App& sub, const Context& ctx) {
     throw InputError(f.meas, "--method",
                      "unrolled models run on Cartesian k-space; this measurement is non-Cartesian (/mri/trajectory): "
                      "use zero-filled (gridding), cg, ista, fista, admm or pdhg");
-  if (spec.method == Method::kUnrolled) {
+  const bool flow_prior = spec.prior.kind && *spec.prior.kind == PriorKind::kFlow;
+  if (spec.method == Method::kUnrolled || flow_prior) {
     install_learned_backend();
     const LearnedBackendLookup found = find_learned_backend();
-    if (!found.backend) throw InputError("", "--method unrolled", found.reason);
+    if (!found.backend) throw InputError("", flow_prior ? "--prior flow" : "--method unrolled", found.reason);
   }
   apply_threads(ctx);
   // Direct methods are a few one-off transforms: instant, deterministic
@@ -258,7 +268,8 @@ void register_cmd_recon(CLI::App& app, Context& ctx) {
   const std::string g = "Iterative (--method cg|ista|fista|admm|pdhg)";
   sub->add_option("--prior", f->prior,
                   "Prior: " + accepted_priors() +
-                      " (default: fista/ista wavelet for MRI and tv otherwise; admm/pdhg tv; cg none, l2 = Tikhonov)")
+                      " (default: fista/ista wavelet for MRI and tv otherwise; admm/pdhg tv; cg none, l2 = Tikhonov; "
+                      "flow = -log p of a flow model given by --model, ista/fista only)")
       ->group(g);
   sub->add_option("--lambda", f->lambda, kLambdaHelp)->group(g);
   sub->add_option("--lambda-rule", f->lambda_rule,
@@ -301,8 +312,22 @@ void register_cmd_recon(CLI::App& app, Context& ctx) {
                   "espirit (ESPIRiT from the calibration data: the fully sampled centre, or the gridded centre of "
                   "a trajectory)")
       ->group("MRI");
-  sub->add_option("--model", f->model, "Model file of --method unrolled (from `recofold train`)")
-      ->group("Learned (--method unrolled)");
+  const std::string e = "ESPIRiT (--maps espirit)";
+  sub->add_option("--espirit-kernel", f->espirit_kernel, "Kernel (window) size in k-space samples per axis, 2..16 "
+                                                          "(default 6)")
+      ->group(e);
+  sub->add_option("--espirit-calib", f->espirit_calib,
+                  "Calibration block: at most this many central samples per axis, kernel..256 (default 24)")
+      ->group(e);
+  sub->add_option("--espirit-threshold", f->espirit_threshold,
+                  "Keep singular vectors above this fraction of the largest, in (0, 1) (default 0.02)")
+      ->group(e);
+  sub->add_option("--espirit-crop", f->espirit_crop,
+                  "Maps are zero where the largest eigenvalue is below this, in [0, 1) (default 0.9)")
+      ->group(e);
+  sub->add_option("--model", f->model,
+                  "Model file of --method unrolled, or the flow of --prior flow (both from `recofold train`)")
+      ->group("Learned (--method unrolled, --prior flow)");
   sub->footer("Unset flags take the method's defaults (DEVELOPERS.md: where defaults live); a flag that does not "
               "apply to the method is refused.\n" +
               std::string(kResearchUseLine));

@@ -103,7 +103,37 @@ class LearnBackend final : public LearnedBackend {
     return flow.bits_per_dim(x, image_file).at(0);
   }
 
+  double flow_neg_log_density(const std::string& model_file, Index ny, Index nx, const VecC& x,
+                              VecC* gradient) const override {
+    FlowEntry& e = flow_entry(model_file);
+    const FlowArchitecture& a = e.flow->architecture();
+    if (a.channels != 1 || a.ny != ny || a.nx != nx)
+      throw InputError(model_file, "model",
+                       "the flow models " + std::to_string(a.channels) + "-channel " + std::to_string(a.ny) + "x" +
+                           std::to_string(a.nx) + " images; prior flow needs a 1-channel " + std::to_string(ny) +
+                           "x" + std::to_string(nx) + " flow for this measurement");
+    std::lock_guard<std::mutex> lock(e.mutex);
+    return e.flow->neg_log_density(x, gradient);
+  }
+
  private:
+  struct FlowEntry {
+    std::unique_ptr<FlowModel> flow;
+    std::mutex mutex;  // one evaluation of this flow at a time
+  };
+
+  FlowEntry& flow_entry(const std::string& path) const {
+    std::lock_guard<std::mutex> lock(mutex_);
+    auto it = flows_.find(path);
+    if (it == flows_.end()) {
+      if (!file_exists(path)) throw InputError(path, "model", "model file not found");
+      auto e = std::make_unique<FlowEntry>();
+      e->flow = std::make_unique<FlowModel>(FlowModel::load(path));
+      it = flows_.emplace(path, std::move(e)).first;
+    }
+    return *it->second;
+  }
+
   struct Entry {
     std::unique_ptr<UnrolledModel> model;
     std::string checksum;
@@ -126,6 +156,7 @@ class LearnBackend final : public LearnedBackend {
 
   mutable std::mutex mutex_;
   mutable std::map<std::string, std::unique_ptr<Entry>> models_;
+  mutable std::map<std::string, std::unique_ptr<FlowEntry>> flows_;
 };
 
 }  // namespace

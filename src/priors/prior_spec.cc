@@ -6,6 +6,7 @@
 
 #include "recofold/priors/constrained.h"
 #include "recofold/priors/l2.h"
+#include "recofold/core/error.h"
 #include "recofold/core/field_error.h"
 #include "recofold/priors/zero_prior.h"
 
@@ -18,17 +19,19 @@ std::string_view to_string(PriorKind kind) {
     case PriorKind::kWavelet: return "wavelet";
     case PriorKind::kTv: return "tv";
     case PriorKind::kTvAniso: return "tv-aniso";
+    case PriorKind::kFlow: return "flow";
   }
   return "none";
 }
 
 std::optional<PriorKind> parse_prior(std::string_view text) {
-  for (PriorKind k : {PriorKind::kNone, PriorKind::kL2, PriorKind::kWavelet, PriorKind::kTv, PriorKind::kTvAniso})
+  for (PriorKind k : {PriorKind::kNone, PriorKind::kL2, PriorKind::kWavelet, PriorKind::kTv, PriorKind::kTvAniso,
+                      PriorKind::kFlow})
     if (text == to_string(k)) return k;
   return std::nullopt;
 }
 
-std::string accepted_priors() { return "none, l2, wavelet, tv, tv-aniso"; }
+std::string accepted_priors() { return "none, l2, wavelet, tv, tv-aniso, flow"; }
 
 std::vector<std::string> PriorSpec::validate(const Shape& image_shape) const {
   std::vector<std::string> errors;
@@ -63,6 +66,9 @@ std::unique_ptr<Prior> make_prior(const PriorSpec& spec, const Shape& image_shap
       prior = std::make_unique<TvPrior>(image_shape, spec.lambda, tv);
       break;
     }
+    case PriorKind::kFlow:
+      throw InputError("", "prior", "flow: the likelihood of a flow model is built by the reconstruction from its "
+                                    "model file, not from a prior description alone");
   }
   if (spec.box) prior = std::make_unique<ConstrainedPrior>(std::move(prior), *spec.box);
   return prior;

@@ -139,7 +139,23 @@ ReconSpec ReconSpec::with_defaults(Modality modality) const {
     if (!r.zero_filled.combine) r.zero_filled.combine = CoilCombine::kSensitivity;
   }
   if (modality == Modality::kMri && method != Method::kFbp && !r.maps) r.maps = CoilMapSource::kMeasured;
+  if (r.maps == CoilMapSource::kEspirit) {
+    const EspiritOptions d;
+    if (!r.espirit.kernel_size) r.espirit.kernel_size = d.kernel_size;
+    if (!r.espirit.calibration_size) r.espirit.calibration_size = d.calibration_size;
+    if (!r.espirit.singular_threshold) r.espirit.singular_threshold = d.singular_threshold;
+    if (!r.espirit.crop_threshold) r.espirit.crop_threshold = d.crop_threshold;
+  }
   return r;
+}
+
+EspiritOptions ReconSpec::espirit_options() const {
+  EspiritOptions o;
+  if (espirit.kernel_size) o.kernel_size = *espirit.kernel_size;
+  if (espirit.calibration_size) o.calibration_size = *espirit.calibration_size;
+  if (espirit.singular_threshold) o.singular_threshold = *espirit.singular_threshold;
+  if (espirit.crop_threshold) o.crop_threshold = *espirit.crop_threshold;
+  return o;
 }
 
 namespace {
@@ -186,7 +202,19 @@ void ReconSpec::check_applicable(Modality modality, const ReconSpec& r, std::vec
   if (maps && *maps != CoilMapSource::kMeasured && method == Method::kZeroFilled && zero_filled.combine &&
       *zero_filled.combine != CoilCombine::kSensitivity)
     e.push_back({"maps", std::string(to_string(*maps)), "applies to zero-filled only with zero_filled.combine = sense"});
-  if (method != Method::kUnrolled && !model.empty()) not_for(e, "model", "'" + model + "'", "method unrolled");
+  if (r.maps == CoilMapSource::kEspirit) {
+    for (FieldError& f : parse_field_messages(r.espirit_options().validate())) e.push_back(std::move(f));
+  } else {
+    const char* const where = "maps = espirit";
+    if (espirit.kernel_size) not_for(e, "espirit.kernel_size", std::to_string(*espirit.kernel_size), where);
+    if (espirit.calibration_size)
+      not_for(e, "espirit.calibration_size", std::to_string(*espirit.calibration_size), where);
+    if (espirit.singular_threshold) not_for(e, "espirit.singular_threshold", num(*espirit.singular_threshold), where);
+    if (espirit.crop_threshold) not_for(e, "espirit.crop_threshold", num(*espirit.crop_threshold), where);
+  }
+  const bool flow_prior = r.prior.kind && *r.prior.kind == PriorKind::kFlow;
+  if (method != Method::kUnrolled && !flow_prior && !model.empty())
+    not_for(e, "model", "'" + model + "'", "method unrolled and prior flow");
   if (method == Method::kUnrolled && model.empty())
     e.push_back({"model", "", "missing; method unrolled needs a model file (from `recofold train`)"});
 
@@ -208,7 +236,14 @@ void ReconSpec::check_prior_choice(const ReconSpec& r, const Shape& shape, std::
   if (kind == PriorKind::kNone && method != Method::kCg)
     e.push_back({"prior", "none",
                  "method " + method_name +
-                     " needs a prior (l2, wavelet, tv, tv-aniso); without one it is plain least squares: use method cg"});
+                     " needs a prior (l2, wavelet, tv, tv-aniso, flow); without one it is plain least squares: use method cg"});
+  if (kind == PriorKind::kFlow) {
+    if (method != Method::kIsta && method != Method::kFista)
+      e.push_back({"prior", "flow",
+                   "is a smooth likelihood prior (gradient steps on -log p): method " + method_name +
+                       " needs a prior with an analysis form; use method ista or fista"});
+    if (model.empty()) e.push_back({"model", "", "missing; prior flow needs a flow model file (from `recofold train`)"});
+  }
   if (kind == PriorKind::kWavelet) {
     const int top = max_wavelet_levels(shape);
     const int levels = *r.prior.wavelet.levels;

@@ -12,11 +12,13 @@
 #include "recofold/core/number_format.h"
 #include "recofold/ops/coil_maps.h"
 #include "recofold/ops/ct_geometry.h"
+#include "recofold/priors/constrained.h"
 #include "recofold/priors/zero_prior.h"
 #include "recofold/recon/admm.h"
 #include "recofold/recon/cg.h"
 #include "recofold/recon/fbp.h"
 #include "recofold/recon/fista.h"
+#include "recofold/recon/flow_prior.h"
 #include "recofold/recon/coil_map_estimate.h"
 #include "recofold/recon/forward_model.h"
 #include "recofold/recon/gridding.h"
@@ -312,6 +314,9 @@ void solve_discrepancy(const Measurement& m, const ForwardModel& fm, Prior& prio
                        "auto needs the measurement's noise sigma (it is " + format_number(d.noise_sigma) +
                            "); give a value");
   }
+  // A likelihood prior's natural weight is the noise variance: 1/2||Ax - y||^2 + sigma^2 (-log p(x)) is
+  // sigma^2 times -log of the posterior (Gaussian noise of sigma per real value), so the sweep starts there.
+  if (*r.prior.kind == PriorKind::kFlow && d.noise_sigma > 0.0) d.lambda_start = d.noise_sigma * d.noise_sigma;
   const DiscrepancyChoice choice = choose_lambda_discrepancy(d, *fm.op, fm.y, prior, solve, x, hooks.lambda);
   lr.mode = "auto";
   lr.rule_name = "discrepancy";
@@ -326,6 +331,17 @@ void solve_discrepancy(const Measurement& m, const ForwardModel& fm, Prior& prio
     }
 }
 
+// Prior flow: the likelihood of the flow in spec.model, served by the learn module; in a box when nonneg.
+std::unique_ptr<Prior> make_flow_prior(const ReconSpec& r, const Measurement& m, double weight, const std::string& file) {
+  const LearnedBackendLookup found = find_learned_backend();
+  if (!found.backend) throw InputError(file, "prior", "flow: " + found.reason);
+  std::unique_ptr<Prior> p = std::make_unique<FlowPrior>(*found.backend, r.model, m.ny, m.nx, weight);
+  p->value(VecC::Zero(m.ny * m.nx));  // reads the model now: a wrong file or grid fails before any solve
+  const PriorSpec spec = r.prior_spec(weight);
+  if (spec.box) p = std::make_unique<ConstrainedPrior>(std::move(p), *spec.box);
+  return p;
+}
+
 void run_iterative(const Measurement& m, Reconstruction& out, const ReconHooks& hooks) {
   const ReconSpec& r = out.spec;
   const std::string& file = hooks.file;
@@ -334,9 +350,10 @@ void run_iterative(const Measurement& m, Reconstruction& out, const ReconHooks& 
   out.operator_name = fm.op->name();
   const bool has_prior = *r.prior.kind != PriorKind::kNone;
   const LambdaMode mode = has_prior ? *r.lambda.mode : LambdaMode::kValue;
-  std::unique_ptr<Prior> prior =
-      has_prior ? make_prior(r.prior_spec(mode == LambdaMode::kValue ? r.lambda.value : 1.0), shape)
-                : std::make_unique<ZeroPrior>();
+  const double start_weight = mode == LambdaMode::kValue ? r.lambda.value : 1.0;
+  std::unique_ptr<Prior> prior = !has_prior                          ? std::make_unique<ZeroPrior>()
+                                 : *r.prior.kind == PriorKind::kFlow ? make_flow_prior(r, m, start_weight, file)
+                                                                     : make_prior(r.prior_spec(start_weight), shape);
 
   // Every solve's summary with its weight, so the chosen solve's history can be returned.
   SolveRecord runs;
@@ -379,7 +396,8 @@ Reconstruction reconstruct(const Measurement& m, const ReconSpec& spec, const Re
   std::optional<Measurement> own_maps;
   if (out.spec.maps && *out.spec.maps != CoilMapSource::kMeasured) {
     own_maps = m;
-    out.text_attrs["coil_maps_estimate"] = replace_coil_maps(*own_maps, *out.spec.maps, hooks.file);
+    out.text_attrs["coil_maps_estimate"] = replace_coil_maps(*own_maps, *out.spec.maps, hooks.file,
+                                                             out.spec.espirit_options());
     out.text_attrs["coil_maps"] = own_maps->mri->coil_maps_source;
   }
   const Measurement& data = own_maps ? *own_maps : m;
@@ -432,6 +450,7 @@ ImageRecord reconstruction_record(const Measurement& m, const Reconstruction& r)
     rec.number_attrs["wavelet_levels"] = *s.prior.wavelet.levels;
     rec.text_attrs["cycle_spin"] = *s.prior.wavelet.cycle_spin ? "on" : "off";
   }
+  if (kind == PriorKind::kFlow) rec.text_attrs["prior_model"] = s.model;
   rec.text_attrs["nonneg"] = *s.nonneg ? "on" : "off";
   // "lambda" is the weight used (as text, so that "learned" fits the same
   // attribute for unrolled models); "lambda_mode" says where it came from.

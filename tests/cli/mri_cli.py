@@ -97,6 +97,28 @@ def newcomer_flow(tmp):
         out = must_succeed(["score", "--reference", "ph.h5", "--image", "zs.h5", "--json"], tmp)
         check(json.loads(out.stdout)["psnr"] > 15, " ".join(method + combine) + " PSNR above 15 dB")
 
+    # ESPIRiT options as flags: they reach the estimate (its summary names the kernel) and change the maps;
+    # out of range or without --maps espirit -> exit 2 naming the flag.
+    must_succeed(["recon", "--meas", "meas.h5", "--method", "zero-filled", "--maps", "espirit", "--espirit-kernel",
+                  "4", "--espirit-calib", "16", "--espirit-threshold", "0.05", "--espirit-crop", "0.8",
+                  "--out", "e4.h5"], tmp)
+    must_succeed(["recon", "--meas", "meas.h5", "--method", "zero-filled", "--maps", "espirit", "--out", "e6.h5"], tmp)
+    with h5py.File(os.path.join(tmp, "e4.h5"), "r") as f4, h5py.File(os.path.join(tmp, "e6.h5"), "r") as f6:
+        s4 = f4["/image"].attrs["coil_maps_estimate"]
+        s6 = f6["/image"].attrs["coil_maps_estimate"]
+        s4, s6 = (x.decode() if isinstance(x, bytes) else x for x in (s4, s6))
+        check("4x4 kernel" in s4 and "6x6 kernel" in s6, f"ESPIRiT flags reach the estimate: '{s4}' / '{s6}'")
+        check(not np.array_equal(f4["/image"][()], f6["/image"][()]), "other ESPIRiT options give another image")
+    out = must_succeed(["score", "--reference", "ph.h5", "--image", "e4.h5", "--json"], tmp)
+    check(json.loads(out.stdout)["psnr"] > 15, "ESPIRiT 4x4 kernel, 16 calibration: PSNR above 15 dB")
+    for args, flag in ((["--maps", "espirit", "--espirit-kernel", "1"], "--espirit-kernel"),
+                       (["--maps", "espirit", "--espirit-kernel", "8", "--espirit-calib", "6"], "--espirit-calib"),
+                       (["--maps", "espirit", "--espirit-crop", "1.5"], "--espirit-crop"),
+                       (["--maps", "lowres", "--espirit-threshold", "0.1"], "--espirit-threshold")):
+        out = run(["recon", "--meas", "meas.h5", "--method", "zero-filled", "--out", "bad.h5"] + args, tmp)
+        check(out.returncode == 2 and flag in out.stderr and not os.path.exists(os.path.join(tmp, "bad.h5")),
+              f"{' '.join(args)}: exit 2 naming {flag} (got {out.returncode}: {out.stderr.strip()})")
+
     # Fully sampled, noiseless, single coil: the zero-filled image is the object.
     must_succeed(["simulate", "--phantom", "ph.h5", "--modality", "mri", "--out", "full.h5"], tmp)
     must_succeed(["recon", "--meas", "full.h5", "--method", "zero-filled", "--combine", "sense", "--out", "f.h5"], tmp)

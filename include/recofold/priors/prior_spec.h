@@ -15,12 +15,15 @@
 
 namespace recofold {
 
-// The CLI/config names: "none", "l2", "wavelet", "tv", "tv-aniso".
-enum class PriorKind { kNone, kL2, kWavelet, kTv, kTvAniso };
+// The CLI/config names: "none", "l2", "wavelet", "tv", "tv-aniso", "flow".
+// kFlow is the likelihood of a trained normalising flow (-log p(x)); it needs
+// a model file and the learn module, so the reconstruction builds it
+// (recon/flow_prior.h), never make_prior.
+enum class PriorKind { kNone, kL2, kWavelet, kTv, kTvAniso, kFlow };
 
 std::string_view to_string(PriorKind kind);
 std::optional<PriorKind> parse_prior(std::string_view text);
-std::string accepted_priors();  // "none, l2, wavelet, tv, tv-aniso"
+std::string accepted_priors();  // "none, l2, wavelet, tv, tv-aniso, flow"
 
 // Everything needed to build a prior for an image shape.
 struct PriorSpec {
@@ -34,7 +37,8 @@ struct PriorSpec {
   std::vector<std::string> validate(const Shape& image_shape) const;
 };
 
-// Throws InputError (file "", field of the first violation, all messages in the reason) when invalid.
+// Throws InputError (file "", field of the first violation, all messages in the reason) when invalid,
+// and for kFlow (built by the reconstruction from its model file).
 std::unique_ptr<Prior> make_prior(const PriorSpec& spec, const Shape& image_shape);
 
 }  // namespace recofold

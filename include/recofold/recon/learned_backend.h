@@ -97,6 +97,14 @@ class LearnedBackend {
   // naming `image_file` (field "image size") when the image does not fit it.
   virtual double bits_per_dim(const std::string& model_file, const ImageF& image,
                               const std::string& image_file) const = 0;
+  // -log p(x) of the image `x` (flat [ny * nx]; the real part under the flow,
+  // the imaginary part under the flow's Gaussian of width imag_sigma) under
+  // the flow in `model_file`, in nats, and its gradient with respect to x
+  // (d/dRe + i d/dIm) when `gradient` is not null. The flow is loaded once and
+  // kept; safe to call from several threads. InputError naming `model_file`
+  // when it is no flow model or its grid is not ny x nx.
+  virtual double flow_neg_log_density(const std::string& model_file, Index ny, Index nx, const VecC& x,
+                                      VecC* gradient) const = 0;
 };
 
 struct LearnedBackendLookup {

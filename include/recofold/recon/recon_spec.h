@@ -9,7 +9,7 @@
 //
 // Field paths (errors, the CLI's flag map, the study's TOML key map):
 //   method                      Method
-//   prior                       PriorKind (none, l2, wavelet, tv, tv-aniso)
+//   prior                       PriorKind (none, l2, wavelet, tv, tv-aniso, flow)
 //   prior.wavelet.family        db1 .. db4
 //   prior.wavelet.levels        decomposition levels
 //   prior.wavelet.cycle_spin    random cycle spinning per prox call
@@ -23,8 +23,10 @@
 //   fbp.filter                  FBP window
 //   zero_filled.combine         coil combination of zero-filled MRI
 //   maps                        coil maps of every MRI method: measured, estimated, espirit
+//   espirit.kernel_size, espirit.calibration_size, espirit.singular_threshold, espirit.crop_threshold
+//                               ESPIRiT options (maps = espirit only; ops/espirit.h)
 //   nonneg                      non-negativity (a box x >= 0 around the prior)
-//   model                       the model file of method unrolled
+//   model                       the model file of method unrolled, or the flow of prior flow
 #pragma once
 
 #include <cstdint>
@@ -35,6 +37,7 @@
 
 #include "recofold/core/field_error.h"
 #include "recofold/core/measurement.h"
+#include "recofold/ops/espirit.h"
 #include "recofold/ops/wavelet.h"
 #include "recofold/priors/prior_spec.h"
 #include "recofold/recon/fbp.h"
@@ -116,8 +119,12 @@ struct ReconSpec {
   // Coil maps of every MRI method (SENSE in zero-filled, the forward model
   // of the iterative and unrolled methods); unset on mri: measured.
   std::optional<CoilMapSource> maps;
+  struct {
+    std::optional<int> kernel_size, calibration_size;
+    std::optional<double> singular_threshold, crop_threshold;
+  } espirit;  // only with maps = espirit
   std::optional<bool> nonneg;
-  std::string model;  // unrolled: model file
+  std::string model;  // unrolled: model file; prior flow: the flow model file
 
   // A copy with every field that applies to `method` on `modality` and is
   // unset filled in. THE defaults (DEVELOPERS.md, "Where defaults live"):
@@ -131,6 +138,7 @@ struct ReconSpec {
   //   fista.restart     on;  admm.rho 0 (automatic), admm.cg_iterations 4;  pdhg.tau, sigma 0 (automatic)
   //   fbp.filter        ram-lak
   //   zero_filled       combine sense (sum conj(S) x / sum |S|^2), maps measured
+  //   espirit           (maps = espirit) kernel 6, calibration 24, singular threshold 0.02, crop 0.9
   //   nonneg            on for ct with a prior (not cg: it keeps no box), off otherwise
   // Fields that do not apply stay unset.
   ReconSpec with_defaults(Modality modality) const;
@@ -145,6 +153,9 @@ struct ReconSpec {
   // The prior of a spec after with_defaults, with weight `lambda`, as the
   // priors module builds it (kind none gives PriorKind::kNone; nonneg the box).
   PriorSpec prior_spec(double lambda) const;
+
+  // The ESPIRiT options of a spec after with_defaults (the defaults of ops/espirit.h when maps != espirit).
+  EspiritOptions espirit_options() const;
 
  private:
   // The parts of validate(); `r` is with_defaults(modality) of this spec.
