@@ -530,16 +530,10 @@ RawCartesian read_ismrmrd_file(const std::string& path, const IsmrmrdSelection& 
   return raw;
 }
 
-void write_ismrmrd_file(const std::string& path, const Measurement& m, const std::string& source) {
-  quiet_ismrmrd();
-  if (!m.mri) throw InputError(source, "/mri", "only MRI measurements can be written as ISMRMRD raw data");
-  const MriData& mri = *m.mri;
-  const Shape& ks = mri.kspace.shape;
-  if (ks.rank() != 3 || ks[1] != m.ny || ks[2] != m.nx || mri.mask.shape != (Shape{m.ny, m.nx}))
-    throw InputError(source, "/mri/kspace", "shape " + ks.to_string() + " does not match the grid and mask");
-  const Index coils = ks[0], ny = m.ny, nx = m.nx;
-  if (nx > 65535 || ny > 65535 || coils > 65535)
-    throw InputError(source, "/mri/kspace", "shape " + ks.to_string() + " exceeds the format's 16-bit sizes");
+namespace {
+
+// The rows of a line mask (every sampled row fully sampled); InputError otherwise.
+std::vector<Index> exported_rows(const MriData& mri, Index ny, Index nx, const std::string& source) {
   std::vector<Index> rows;
   for (Index r = 0; r < ny; ++r) {
     Index sampled = 0;
@@ -554,7 +548,13 @@ void write_ismrmrd_file(const std::string& path, const Measurement& m, const std
     rows.push_back(r);
   }
   if (rows.empty()) throw InputError(source, "/mri/mask", "samples nothing; there is no line to export");
+  return rows;
+}
 
+// The XML header of a Cartesian single-slice measurement, with our user parameters.
+std::string export_header_xml(const Measurement& m, Index coils, const std::string& source) {
+  const MriData& mri = *m.mri;
+  const Index ny = m.ny, nx = m.nx;
   ISMRMRD::IsmrmrdHeader h;
   h.version = ISMRMRD_XMLHDR_VERSION;
   h.experimentalConditions.H1resonanceFrequency_Hz = 0;  // not known for simulated data
@@ -591,57 +591,84 @@ void write_ismrmrd_file(const std::string& path, const Measurement& m, const std
   h.userParameters = up;
   std::ostringstream xml;
   ISMRMRD::serialize(h, xml);
+  return xml.str();
+}
+
+// Acquisition i of `rows` (row r of every coil), with the first/last flags.
+void fill_acquisition(ISMRMRD::Acquisition& acq, const MriData& mri, Index ny, Index nx, Index coils,
+                      const std::vector<Index>& rows, size_t i) {
+  const Index r = rows[i];
+  acq.clearAllFlags();
+  if (i == 0) {
+    acq.setFlag(ISMRMRD::ISMRMRD_ACQ_FIRST_IN_SLICE);
+    acq.setFlag(ISMRMRD::ISMRMRD_ACQ_FIRST_IN_ENCODE_STEP1);
+  }
+  if (i + 1 == rows.size()) {
+    acq.setFlag(ISMRMRD::ISMRMRD_ACQ_LAST_IN_SLICE);
+    acq.setFlag(ISMRMRD::ISMRMRD_ACQ_LAST_IN_ENCODE_STEP1);
+    acq.setFlag(ISMRMRD::ISMRMRD_ACQ_LAST_IN_MEASUREMENT);
+  }
+  acq.available_channels() = static_cast<uint16_t>(coils);
+  acq.center_sample() = static_cast<uint16_t>(nx / 2);
+  for (Index c = 0; c < coils; ++c) acq.setChannelActive(static_cast<uint16_t>(c));
+  acq.idx().kspace_encode_step_1 = static_cast<uint16_t>(r);
+  {
+    // The header is packed (2-byte alignment): its 4-byte fields are set on a copy, not
+    // through the accessors' references (a misaligned store).
+    ISMRMRD::AcquisitionHeader h = acq.getHead();
+    h.scan_counter = static_cast<uint32_t>(i);
+    h.read_dir[0] = 1.0f;
+    h.phase_dir[1] = 1.0f;
+    h.slice_dir[2] = 1.0f;
+    acq.setHead(h);
+  }
+  for (Index c = 0; c < coils; ++c)
+    for (Index s = 0; s < nx; ++s)
+      acq.data(static_cast<uint16_t>(s), static_cast<uint16_t>(c)) =
+          mri.kspace.data[static_cast<size_t>((c * ny + r) * nx + s)];
+}
+
+// The research-use mark on the file itself (SAFETY.md), beside the XML user parameter.
+void mark_research_use(const std::string& file) {
+  const hid_t f = H5Fopen(file.c_str(), H5F_ACC_RDWR, H5P_DEFAULT);
+  if (f < 0) throw WorkError("cannot reopen the temporary file to mark it");
+  const hid_t space = H5Screate(H5S_SCALAR);
+  const int64_t one = 1;
+  const hid_t a = H5Acreate2(f, "research_use_only", H5T_STD_I64LE, space, H5P_DEFAULT, H5P_DEFAULT);
+  const herr_t ok = a >= 0 ? H5Awrite(a, H5T_NATIVE_INT64, &one) : -1;
+  if (a >= 0) H5Aclose(a);
+  H5Sclose(space);
+  H5Fclose(f);
+  if (ok < 0) throw WorkError("cannot write the research_use_only attribute");
+}
+
+}  // namespace
+
+void write_ismrmrd_file(const std::string& path, const Measurement& m, const std::string& source) {
+  quiet_ismrmrd();
+  if (!m.mri) throw InputError(source, "/mri", "only MRI measurements can be written as ISMRMRD raw data");
+  const MriData& mri = *m.mri;
+  const Shape& ks = mri.kspace.shape;
+  if (ks.rank() != 3 || ks[1] != m.ny || ks[2] != m.nx || mri.mask.shape != (Shape{m.ny, m.nx}))
+    throw InputError(source, "/mri/kspace", "shape " + ks.to_string() + " does not match the grid and mask");
+  const Index coils = ks[0], ny = m.ny, nx = m.nx;
+  if (nx > 65535 || ny > 65535 || coils > 65535)
+    throw InputError(source, "/mri/kspace", "shape " + ks.to_string() + " exceeds the format's 16-bit sizes");
+  const std::vector<Index> rows = exported_rows(mri, ny, nx, source);
+  const std::string xml = export_header_xml(m, coils, source);
 
   AtomicFile out(path);
   try {
     {
       ISMRMRD::Dataset d(out.temp_path().c_str(), "dataset", true);
-      d.writeHeader(xml.str());
+      d.writeHeader(xml);
       ISMRMRD::Acquisition acq(static_cast<uint16_t>(nx), static_cast<uint16_t>(coils));
       for (size_t i = 0; i < rows.size(); ++i) {
-        const Index r = rows[i];
-        acq.clearAllFlags();
-        if (i == 0) {
-          acq.setFlag(ISMRMRD::ISMRMRD_ACQ_FIRST_IN_SLICE);
-          acq.setFlag(ISMRMRD::ISMRMRD_ACQ_FIRST_IN_ENCODE_STEP1);
-        }
-        if (i + 1 == rows.size()) {
-          acq.setFlag(ISMRMRD::ISMRMRD_ACQ_LAST_IN_SLICE);
-          acq.setFlag(ISMRMRD::ISMRMRD_ACQ_LAST_IN_ENCODE_STEP1);
-          acq.setFlag(ISMRMRD::ISMRMRD_ACQ_LAST_IN_MEASUREMENT);
-        }
-        acq.available_channels() = static_cast<uint16_t>(coils);
-        acq.center_sample() = static_cast<uint16_t>(nx / 2);
-        for (Index c = 0; c < coils; ++c) acq.setChannelActive(static_cast<uint16_t>(c));
-        acq.idx().kspace_encode_step_1 = static_cast<uint16_t>(r);
-        {
-          // The header is packed (2-byte alignment): its 4-byte fields are set on a copy, not
-          // through the accessors' references (a misaligned store).
-          ISMRMRD::AcquisitionHeader h = acq.getHead();
-          h.scan_counter = static_cast<uint32_t>(i);
-          h.read_dir[0] = 1.0f;
-          h.phase_dir[1] = 1.0f;
-          h.slice_dir[2] = 1.0f;
-          acq.setHead(h);
-        }
-        for (Index c = 0; c < coils; ++c)
-          for (Index s = 0; s < nx; ++s)
-            acq.data(static_cast<uint16_t>(s), static_cast<uint16_t>(c)) =
-                mri.kspace.data[static_cast<size_t>((c * ny + r) * nx + s)];
+        fill_acquisition(acq, mri, ny, nx, coils, rows, i);
         d.appendAcquisition(acq);
       }
     }
-    // The research-use mark on the file itself (SAFETY.md), beside the XML user parameter.
-    const hid_t f = H5Fopen(out.temp_path().c_str(), H5F_ACC_RDWR, H5P_DEFAULT);
-    if (f < 0) throw WorkError("cannot reopen the temporary file to mark it");
-    const hid_t space = H5Screate(H5S_SCALAR);
-    const int64_t one = 1;
-    const hid_t a = H5Acreate2(f, "research_use_only", H5T_STD_I64LE, space, H5P_DEFAULT, H5P_DEFAULT);
-    const herr_t ok = a >= 0 ? H5Awrite(a, H5T_NATIVE_INT64, &one) : -1;
-    if (a >= 0) H5Aclose(a);
-    H5Sclose(space);
-    H5Fclose(f);
-    if (ok < 0) throw WorkError("cannot write the research_use_only attribute");
+    mark_research_use(out.temp_path());
   } catch (const WorkError& e) {
     throw WorkError("cannot write " + path + ": " + e.what());
   } catch (const std::exception& e) {

@@ -68,13 +68,11 @@ void write_trajectory_file(const std::string& path, const Trajectory& t, const P
   w.commit();
 }
 
-Trajectory read_trajectory_group(const H5Reader& r, const std::string& g, Index ny, Index nx) {
+namespace {
+
+// The grid from attribute image_shape (or the caller's ny, nx), checked against each other.
+void read_grid(const H5Reader& r, const std::string& g, Index ny, Index nx, Trajectory& t) {
   const std::string& file = r.file();
-  const std::string kpath = g + "/k";
-  if (!r.has(kpath) || r.is_group(kpath))
-    throw InputError(file, kpath, "dataset is missing (expected float32 [M, 2] k-space points in cycles per FOV)");
-  Trajectory t;
-  // Grid.
   if (r.has_attr(g, "image_shape")) {
     const auto s = r.attr_doubles(g, "image_shape");
     if (s.size() != 2 || !(s[0] >= 2) || !(s[1] >= 2) || std::floor(s[0]) != s[0] || std::floor(s[1]) != s[1])
@@ -90,14 +88,18 @@ Trajectory read_trajectory_group(const H5Reader& r, const std::string& g, Index 
     throw InputError(file, g, "attribute 'image_shape' is missing; give the image size the trajectory is for");
   t.ny = ny;
   t.nx = nx;
-  // Points.
+}
+
+// /k: [M, 2] finite points inside the grid's band (±0.5 cycles per pixel).
+void read_points(const H5Reader& r, const std::string& kpath, Trajectory& t) {
+  const std::string& file = r.file();
   const Shape ks = r.shape(kpath);
   if (ks.rank() != 2 || ks[1] != 2 || ks[0] < 1)
     throw InputError(file, kpath, "shape " + ks.to_string() + ", expected [M, 2] with M >= 1 (kx, ky per row)");
   if (r.is_complex(kpath)) throw InputError(file, kpath, "is complex, expected float32 [M, 2]");
   const NdArray<float> k = r.read_float(kpath);
   require_finite(k.ptr(), k.size(), file, kpath);
-  const Index m = ks[0];
+  const Index m = ks[0], ny = t.ny, nx = t.nx;
   t.kx.resize(m);
   t.ky.resize(m);
   const double lx = 0.5 * static_cast<double>(nx) * (1.0 + 1e-6), ly = 0.5 * static_cast<double>(ny) * (1.0 + 1e-6);
@@ -112,20 +114,29 @@ Trajectory read_trajectory_group(const H5Reader& r, const std::string& g, Index 
     t.kx[j] = std::clamp(x, -0.5 * nx, 0.5 * nx);
     t.ky[j] = std::clamp(y, -0.5 * ny, 0.5 * ny);
   }
-  // Weights.
+}
+
+// /dcf: one finite weight >= 0 per point (optional).
+void read_weights(const H5Reader& r, const std::string& g, const std::string& kpath, Trajectory& t) {
+  const std::string& file = r.file();
   const std::string dpath = g + "/dcf";
-  if (r.has(dpath)) {
-    const Shape ds = r.shape(dpath);
-    if (ds.rank() != 1 || ds[0] != m)
-      throw InputError(file, dpath, "shape " + ds.to_string() + ", expected [" + std::to_string(m) + "] (one weight per point of " + kpath + ")");
-    const NdArray<float> d = r.read_float(dpath);
-    require_finite(d.ptr(), d.size(), file, dpath);
-    for (Index j = 0; j < m; ++j)
-      if (d.data[static_cast<size_t>(j)] < 0.0f)
-        throw InputError(file, dpath, "value " + std::to_string(j) + " = " + fmt(d.data[static_cast<size_t>(j)]) + "; weights must be >= 0");
-    t.dcf = d.data;
-  }
-  // Attributes.
+  if (!r.has(dpath)) return;
+  const Index m = t.points();
+  const Shape ds = r.shape(dpath);
+  if (ds.rank() != 1 || ds[0] != m)
+    throw InputError(file, dpath, "shape " + ds.to_string() + ", expected [" + std::to_string(m) + "] (one weight per point of " + kpath + ")");
+  const NdArray<float> d = r.read_float(dpath);
+  require_finite(d.ptr(), d.size(), file, dpath);
+  for (Index j = 0; j < m; ++j)
+    if (d.data[static_cast<size_t>(j)] < 0.0f)
+      throw InputError(file, dpath, "value " + std::to_string(j) + " = " + fmt(d.data[static_cast<size_t>(j)]) + "; weights must be >= 0");
+  t.dcf = d.data;
+}
+
+// kind, units, fov_mm, readouts x samples_per_readout, dcf_method.
+void read_design_attributes(const H5Reader& r, const std::string& g, Trajectory& t) {
+  const std::string& file = r.file();
+  const Index m = t.points();
   if (r.has_attr(g, "kind")) {
     const std::string kind = r.attr_string(g, "kind");
     const auto parsed = parse_trajectory_kind(kind);
@@ -152,6 +163,11 @@ Trajectory read_trajectory_group(const H5Reader& r, const std::string& g, Index 
     t.samples_per_readout = static_cast<Index>(sp);
   }
   t.dcf_method = t.dcf.empty() ? "" : (r.has_attr(g, "dcf_method") ? r.attr_string(g, "dcf_method") : "file");
+}
+
+// Spoke angles, readout positions, sample times, the gradient waveform (each optional but checked).
+void read_design_arrays(const H5Reader& r, const std::string& g, Trajectory& t) {
+  const std::string& file = r.file();
   auto read_vec = [&](const std::string& name, Index expected) {
     std::vector<double> out;
     const std::string p = g + "/" + name;
@@ -173,6 +189,10 @@ Trajectory read_trajectory_group(const H5Reader& r, const std::string& g, Index 
   }
   if ((t.kind == TrajectoryKind::kRadial || t.kind == TrajectoryKind::kRadialGolden) && t.readout_angles_rad.empty())
     throw InputError(file, g + "/readout_angles_rad", "is missing (a radial trajectory lists its spoke angles)");
+}
+
+// Every other attribute of the group, kept as text or a number.
+void read_other_attributes(const H5Reader& r, const std::string& g, Trajectory& t) {
   for (const auto& name : r.attr_names(g)) {
     if (kKnownAttrs.count(name)) continue;
     try {
@@ -186,6 +206,21 @@ Trajectory read_trajectory_group(const H5Reader& r, const std::string& g, Index 
     } catch (const InputError&) {
     }
   }
+}
+
+}  // namespace
+
+Trajectory read_trajectory_group(const H5Reader& r, const std::string& g, Index ny, Index nx) {
+  const std::string kpath = g + "/k";
+  if (!r.has(kpath) || r.is_group(kpath))
+    throw InputError(r.file(), kpath, "dataset is missing (expected float32 [M, 2] k-space points in cycles per FOV)");
+  Trajectory t;
+  read_grid(r, g, ny, nx, t);
+  read_points(r, kpath, t);
+  read_weights(r, g, kpath, t);
+  read_design_attributes(r, g, t);
+  read_design_arrays(r, g, t);
+  read_other_attributes(r, g, t);
   return t;
 }
 
