@@ -12,7 +12,9 @@
 # - a command other than study under a launcher's environment is refused;
 # - --shard auto from Slurm's array variables equals --shard I/N, three tasks
 #   merged equal the one-process run, and no array variables is refused
-#   naming --shard.
+#   naming --shard;
+# - a study that trains its own model: rank 0 trains it once into models/
+#   before handing out cases, and the 3-rank results equal the one-process run.
 import csv
 import os
 import shutil
@@ -147,6 +149,85 @@ def mpi_equal_and_kill(work, reference):
               f"rerun skips the {rows_after_kill} cases already done")
 
 
+TRAIN = """
+[data]
+modality = "mri"
+size = 32
+families = ["textured"]
+accel = 2.0
+noise = 0.01
+[model]
+iterations = 1
+depth = 2
+width = 4
+cg_iterations = 2
+[train]
+steps = 2
+batch = 2
+validation_count = 2
+validation_every = 2
+checkpoint_every = 1000
+threads = 1
+"""
+
+LEARNED = f"""
+name = "mpi-learned"
+size = 32
+repetitions = 1
+seed = 4
+[[phantom]]
+table = "{SRC}/phantoms/qc-disk.toml"
+[mri]
+accel = [2, 3]
+noise = [0.01]
+[[method]]
+method = "zero-filled"
+[[method]]
+name = "net"
+method = "unrolled"
+modality = "mri"
+train = "train.toml"
+train_steps = 3
+"""
+
+
+def mpi_learned(work):
+    """A model the study trains: rank 0 trains it once into models/, every rank reconstructs with it."""
+    if os.environ.get("RECOFOLD_TEST_LEARN") == "0":  # set by src/cli/CMakeLists.txt
+        print("learned part not applicable: this build has no learn module")
+        return
+    open(f"{work}/train.toml", "w").write(TRAIN)
+    open(f"{work}/learned.toml", "w").write(LEARNED)
+    base = ["study", "--config", "learned.toml"]
+    one = _harness.recofold(EXE, base + ["--out", "l1", "--jobs", "1"], work, clean_env())
+    check(one.returncode == 0, f"one-process study with a study-trained model exits 0 ({one.stderr.strip()[-300:]})")
+    out = subprocess.run([MPIRUN, "--oversubscribe", "--allow-run-as-root", "-np", "3", EXE, "--quiet"] + base +
+                         ["--out", "l3"], capture_output=True, text=True, cwd=work, timeout=300)
+    check(out.returncode == 0, f"mpirun -np 3 study with a study-trained model exits 0 ({out.stderr.strip()[-300:]})")
+    if one.returncode != 0 or out.returncode != 0:
+        return
+    rows = rows_without_time(f"{work}/l3/results.csv")
+    check(rows == rows_without_time(f"{work}/l1/results.csv"),
+          "study-trained model, 3 ranks: results.csv equals the one-process run")
+    method = rows[0].index("method")
+    learned = [r for r in rows[1:] if r[method] == "net"]
+    error = rows[0].index("error")
+    check(len(learned) == 2 and all(r[error] == "" for r in learned),
+          f"3 ranks: both learned cases ran without error ({[r[error] for r in learned]})")
+    check(sorted(os.listdir(f"{work}/l3/models")) == ["net.h5"],
+          f"3 ranks: one model file in models/, no checkpoint or temporary ({os.listdir(f'{work}/l3/models')})")
+    a, b = model_parameters(f"{work}/l1/models/net.h5"), model_parameters(f"{work}/l3/models/net.h5")
+    check(len(a) > 0 and a == b, f"3 ranks: the model's {len(a)} tensors equal the one-process run's bit for bit")
+
+
+def model_parameters(path):
+    import h5py
+    out = {}
+    with h5py.File(path, "r") as f:
+        f["/model/parameters"].visititems(lambda n, d: out.__setitem__(n, d[()].tobytes()) if hasattr(d, "shape") else None)
+    return out
+
+
 def mpi_refusals(work):
     out = subprocess.run(mpi_cmd(3, ["--out", "jobs", "--jobs", "2"]), capture_output=True, text=True, cwd=work,
                          timeout=120)
@@ -222,6 +303,7 @@ def main():
         mpi_equal_and_kill(work, reference)
         mpi_refusals(work)
         shard_auto(work, reference)
+        mpi_learned(work)
     finally:
         shutil.rmtree(work, ignore_errors=True)
     return check.summary()
