@@ -687,6 +687,15 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
     throw root.error("mri", "empty grid: give an [mri], [ct], [denoise] or [inpaint] protocol table");
   if (!root.tables("measurement").empty() && !c.mri)
     throw root.tables("measurement").front().error("file", "a [[measurement]] object needs an [mri] protocol table (its masks)");
+  if (c.mri && c.mri->patterns.empty()) {  // a Cartesian file is undersampled with masks only
+    const std::vector<Config> measured = root.tables("measurement");
+    size_t k = 0;
+    for (const StudyPhantom& p : c.phantoms)
+      if (p.measured && k++ < measured.size() && !p.measured->mri->non_cartesian())
+        throw measured[k - 1].error("file", "'" + p.measurement_path +
+                                                "' is Cartesian k-space, undersampled with the [mri] masks; the [mri] "
+                                                "table has trajectories only (give pattern = [...] too)");
+  }
   parse_study_methods(root, base_dir, c);
   c.hash = study_hash(text, c);
   return c;

@@ -9,7 +9,8 @@
 # (accel = 48² / samples, the same 4 for both protocols), Cartesian and radial rows in one table, every
 # case succeeds, TV beats gridding on the radial case, the report names the trajectory and the sample count,
 # and bad [mri] keys (spokes 0, trajectory "zigzag", spokes with Cartesian patterns only, interleaves
-# without a spiral) exit 2 naming the file and the key, writing nothing.
+# without a spiral, radial without spokes; a Cartesian [[measurement]] with trajectories only) exit 2
+# naming the file and the key, writing nothing.
 #
 # Margin (measured when this test was written, shepp-logan-modified, sigma 0.003): see the printed PSNRs;
 # the test asks for TV > gridding + 3 dB on the radial case.
@@ -114,9 +115,14 @@ def bad_inputs(tmp):
          ["bad.toml", "mri.interleaves", "spiral"]),
         ("radial without spokes", 'trajectory = "radial-golden"\n', ["bad.toml", "mri.spokes", "missing"]),
     ]
+    _harness.must_succeed(EXE, ["simulate", "--phantom", "ph.h5", "--modality", "mri", "--coils", "2", "--out",
+                                "full.h5"], tmp, check)
+    cases.append(("Cartesian measurement with trajectories only", 'trajectory = "radial"\nspokes = 8\n',
+                  ["bad.toml", "measurement[0].file", "full.h5", "trajectories only"]))
     for name, body, words in cases:
         with open(os.path.join(tmp, "bad.toml"), "w") as f:
-            f.write(head + body + tail)
+            f.write((head if "measurement" not in name else head.replace("[mri]", '[[measurement]]\nfile = "full.h5"\n[mri]'))
+                    + body + tail)
         _harness.bad_input_case(name, lambda: run(["study", "--config", "bad.toml", "--out", "o"], tmp), words, tmp,
                                 check.failures, one_line=True)
 

@@ -3,26 +3,22 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
-#include <cstdlib>
 #include <set>
 #include <string>
 
 #include "recofold/acquire/mri_trajectory.h"
 #include "recofold/core/error.h"
-#include "recofold/phantom/phantom_table.h"
 #include "recofold/phantom/raster.h"
 #include "recofold/sampling/trajectory.h"
 #include "recofold/study/case_grid.h"
 #include "recofold/study/case_runner.h"
 #include "recofold/study/study_config.h"
+#include "unit/phantom_test_util.h"
 
 namespace recofold {
 namespace {
 
-std::string source_dir() {
-  const char* s = std::getenv("RECOFOLD_SOURCE_DIR");
-  return s ? s : ".";
-}
+using testing::source_dir;
 
 // A Cartesian pattern at R 4 and radial protocols on 32²: 8 spokes of 32
 // samples are 256 = 32² / 4 samples, the Cartesian R 4's count.
@@ -162,7 +158,7 @@ TEST(StudyTrajectory, CasesSimulateAtThePointsLikeSimulateTrajectory) {
   EXPECT_EQ(m.mri->pattern, "radial-golden");
   EXPECT_NEAR(m.mri->acceleration, 4.0, 1e-12);
   // The same samples as the direct simulation (the `simulate --trajectory` path) of the same object.
-  const Phantom p = load_phantom_table(c.phantoms[0].table_path);
+  const Phantom p = testing::load_repo_phantom("qc-disk");
   MriSimulationOptions so;
   so.coil_array.coils = 2;
   so.seed = radial->noise_seed;
