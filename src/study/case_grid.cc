@@ -2,6 +2,7 @@
 // Expansion of a study config into acquisitions and cases; shards.
 #include "recofold/study/case_grid.h"
 
+#include <algorithm>
 #include <cstdlib>
 #include <map>
 
