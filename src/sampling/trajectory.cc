@@ -231,7 +231,9 @@ std::vector<std::string> TrajectoryOptions::validate() const {
   return e;
 }
 
-Trajectory make_trajectory(const TrajectoryOptions& o, ProgressSink* progress) {
+namespace {
+// The points and design of make_trajectory, without the density compensation.
+Trajectory design_trajectory(const TrajectoryOptions& o) {
   const auto errors = o.validate();
   if (!errors.empty()) throw_errors(errors);
   Trajectory t;
@@ -343,9 +345,17 @@ Trajectory make_trajectory(const TrajectoryOptions& o, ProgressSink* progress) {
     t.numbers["kmax_reached_cycles_per_fov"] = kmax_reached;
   }
   t.numbers["points"] = static_cast<double>(t.points());
+  return t;
+}
+}  // namespace
+
+Trajectory make_trajectory(const TrajectoryOptions& o, ProgressSink* progress) {
+  Trajectory t = design_trajectory(o);
   fill_dcf(t, o.dcf, progress);
   return t;
 }
+
+Index trajectory_point_count(const TrajectoryOptions& o) { return design_trajectory(o).points(); }
 
 Trajectory trajectory_from_points(Index ny, Index nx, VecD kx, VecD ky, std::vector<float> dcf, const std::string& file,
                                   ProgressSink* progress) {

@@ -2,16 +2,21 @@
 // Expansion of a study config into acquisitions and cases; shards.
 #include "recofold/study/case_grid.h"
 
+#include <algorithm>
 #include <cstdlib>
 #include <map>
 
 #include "recofold/core/error.h"
+#include "recofold/core/number_format.h"
 #include "recofold/core/rng.h"
 #include "study_util.h"
 
 namespace recofold {
 
 std::string Acquisition::key() const {
+  if (modality == Modality::kMri && non_cartesian())
+    return "mri/" + trajectory + "/" + std::to_string(readouts) + "x" + std::to_string(samples / std::max(readouts, 1)) +
+           "/c" + std::to_string(coils) + "/s" + format_number(noise);
   if (modality == Modality::kMri)
     return "mri/" + pattern + "/R" + format_number(accel) + "/c" + std::to_string(coils) + "/s" +
            format_number(noise);
@@ -22,13 +27,18 @@ std::string Acquisition::key() const {
 }
 
 const std::vector<std::string>& acquisition_axes() {
-  static const std::vector<std::string> axes = {"pattern", "accel", "coils", "noise", "keep", "views", "arc", "photons"};
+  static const std::vector<std::string> axes = {"pattern", "trajectory", "readouts", "samples", "accel",
+                                                     "coils",   "noise",      "keep",     "views",   "arc",
+                                                     "photons"};
   return axes;
 }
 
 std::string axis_value(const Acquisition& a, const std::string& axis) {
   if (a.modality == Modality::kMri) {
     if (axis == "pattern") return a.pattern;
+    if (axis == "trajectory") return a.trajectory;
+    if (axis == "readouts") return a.non_cartesian() ? std::to_string(a.readouts) : "";
+    if (axis == "samples") return a.non_cartesian() ? std::to_string(a.samples) : "";
     if (axis == "accel") return format_number(a.accel);
     if (axis == "coils") return std::to_string(a.coils);
     if (axis == "noise") return format_number(a.noise);
@@ -46,6 +56,49 @@ std::string axis_value(const Acquisition& a, const std::string& axis) {
   return "";
 }
 
+TrajectoryOptions trajectory_options(const StudyConfig& c, const Acquisition& a) {
+  TrajectoryOptions o;
+  o.kind = *parse_trajectory_kind(a.trajectory);
+  o.ny = c.ny;
+  o.nx = c.nx;
+  if (o.kind == TrajectoryKind::kSpiral) {
+    o.interleaves = a.readouts;
+  } else {
+    o.spokes = a.readouts;
+    o.readout = a.readout;
+  }
+  return o;
+}
+
+namespace {
+// ny nx / samples to 6 significant digits (the accel column's text).
+double trajectory_accel(const StudyConfig& c, Index samples) {
+  return std::strtod(format_sig(double(c.ny) * double(c.nx) / double(samples), 6).c_str(), nullptr);
+}
+
+// [mri] trajectory x readouts (spokes or interleaves) x coils x noise.
+void append_trajectory_acquisitions(const StudyConfig& c, std::vector<Acquisition>& out) {
+  for (const std::string& kind : c.mri->trajectories) {
+    const bool spiral = *parse_trajectory_kind(kind) == TrajectoryKind::kSpiral;
+    for (int readouts : spiral ? c.mri->interleaves : c.mri->spokes) {
+      Acquisition a;
+      a.modality = Modality::kMri;
+      a.trajectory = kind;
+      a.readouts = readouts;
+      a.readout = spiral ? 0 : c.mri->readout;
+      a.samples = trajectory_point_count(trajectory_options(c, a));
+      a.accel = trajectory_accel(c, a.samples);
+      for (int coils : c.mri->coils)
+        for (double s : c.mri->noise_sigmas) {
+          a.coils = coils;
+          a.noise = s;
+          out.push_back(a);
+        }
+    }
+  }
+}
+}  // namespace
+
 std::vector<Acquisition> expand_acquisitions(const StudyConfig& c) {
   std::vector<Acquisition> out;
   if (c.mri)
@@ -61,6 +114,7 @@ std::vector<Acquisition> expand_acquisitions(const StudyConfig& c) {
             a.noise = s;
             out.push_back(a);
           }
+  if (c.mri) append_trajectory_acquisitions(c, out);
   if (c.ct)
     for (int v : c.ct->views)
       for (double arc : c.ct->arcs_deg)
@@ -105,11 +159,30 @@ uint64_t seed_of(uint64_t study_seed, const std::string& key) {
 std::vector<size_t> measured_acquisitions(const StudyConfig& c, const StudyPhantom& p, CaseGrid& g,
                                           size_t simulated) {
   std::vector<size_t> out;
-  for (size_t a = 0; a < simulated; ++a) {
-    const Acquisition& acq = g.acquisitions[a];
-    if (acq.modality != Modality::kMri || acq.coils != c.mri->coils.front()) continue;
-    Acquisition m = acq;
-    m.coils = p.measured_coils;
+  const bool own_trajectory = p.measured->mri->non_cartesian();
+  std::vector<Acquisition> points;
+  if (own_trajectory) {  // the file's own trajectory, per noise value
+    const Trajectory& t = *p.measured->mri->trajectory;
+    for (double s : c.mri->noise_sigmas) {
+      Acquisition m;
+      m.modality = Modality::kMri;
+      m.trajectory = std::string(to_string(t.kind));
+      m.readouts = static_cast<int>(t.readouts);
+      m.samples = t.points();
+      m.accel = trajectory_accel(c, m.samples);
+      m.coils = p.measured_coils;
+      m.noise = s;
+      points.push_back(m);
+    }
+  } else {  // the Cartesian points (a Cartesian file is not resampled onto trajectories)
+    for (size_t a = 0; a < simulated; ++a) {
+      const Acquisition& acq = g.acquisitions[a];
+      if (acq.modality != Modality::kMri || acq.non_cartesian() || acq.coils != c.mri->coils.front()) continue;
+      points.push_back(acq);
+      points.back().coils = p.measured_coils;
+    }
+  }
+  for (const Acquisition& m : points) {
     size_t k = 0;
     while (k < g.acquisitions.size() && g.acquisitions[k].key() != m.key()) ++k;
     if (k == g.acquisitions.size()) g.acquisitions.push_back(m);

@@ -11,14 +11,17 @@
 #include "recofold/acquire/ct_simulation.h"
 #include "recofold/acquire/image_problem.h"
 #include "recofold/acquire/mri.h"
+#include "recofold/acquire/mri_trajectory.h"
 #include "recofold/acquire/retrospective.h"
 #include "recofold/core/error.h"
 #include "recofold/core/hash.h"
+#include "recofold/core/rng.h"
 #include "recofold/phantom/family.h"
 #include "recofold/phantom/phantom_table.h"
 #include "recofold/phantom/raster.h"
 #include "recofold/recon/reconstruct.h"
 #include "recofold/sampling/mask.h"
+#include "recofold/sampling/trajectory.h"
 #include "recofold/study/learned_models.h"
 
 namespace recofold {
@@ -49,6 +52,24 @@ ImageF image_of(const ImageC& x, bool magnitude) {
   return out;
 }
 
+// A non-Cartesian measured object as measured, with complex Gaussian noise of
+// std `sigma` per part added to every sample (stream `seed`).
+Measurement measured_with_noise(const Measurement& source, double sigma, uint64_t seed) {
+  Measurement m = source;
+  MriData& d = *m.mri;
+  if (sigma > 0.0) {
+    const Index coils = d.kspace.shape[0], points = d.kspace.shape[1];
+    d.kspace.shape = Shape{coils, 1, points};  // the Cartesian noise helper on a grid sampled everywhere
+    Rng rng(seed);
+    add_kspace_noise(d.kspace, NdArray<uint8_t>(Shape{1, points}, 1), sigma, 0.0, rng);
+    d.kspace.shape = Shape{coils, points};
+  }
+  d.numbers["source_noise_sigma"] = source.mri->noise_sigma;
+  d.numbers["added_noise_sigma"] = sigma;
+  d.noise_sigma = std::sqrt(source.mri->noise_sigma * source.mri->noise_sigma + sigma * sigma);
+  return m;
+}
+
 }  // namespace
 
 namespace {
@@ -75,7 +96,20 @@ CaseMeasurement simulate_case_measurement(const StudyConfig& config, const Study
   const double pixel = phantom ? phantom->fov_mm / double(nx) : sp.pixel_spacing_mm;
   const Phantom* analytic = phantom ? &*phantom : nullptr;
   CaseMeasurement out;
-  if (acq.modality == Modality::kMri) {
+  if (acq.modality == Modality::kMri && sp.measured && sp.measured->mri->non_cartesian()) {
+    out.measurement = measured_with_noise(*sp.measured, acq.noise, noise_seed);
+    out.truth = image_of(ConstImageCMap(out.measurement.truth->ptr(), ny, nx), true);
+  } else if (acq.modality == Modality::kMri && acq.non_cartesian()) {
+    // As `simulate --trajectory`: exact samples at the points (discrete for [[object]] images).
+    MriSimulationOptions so;
+    so.coil_array.coils = acq.coils;
+    so.noise_sigma = acq.noise;
+    so.seed = noise_seed;
+    so.truth = analytic ? MriTruth::kAnalytic : MriTruth::kDiscrete;
+    const Trajectory t = make_trajectory(trajectory_options(config, acq));
+    out.measurement = simulate_mri_trajectory_measurement(analytic, raster, pixel, t, so);
+    out.truth = image_of(raster, true);
+  } else if (acq.modality == Modality::kMri) {
     MaskOptions mo;
     mo.pattern = *parse_mask_pattern(acq.pattern);
     mo.ny = ny;
@@ -139,6 +173,11 @@ CaseOutcome run_case_method(const StudyMethod& method, const CaseMeasurement& da
   const auto start = std::chrono::steady_clock::now();
   try {
     ReconSpec spec = method.spec;
+    if (method.learned() && m.mri && m.mri->non_cartesian())
+      throw InputError("", "method",
+                       "not run: unrolled models run on Cartesian k-space only; this acquisition is non-Cartesian (" +
+                           std::string(to_string(m.mri->trajectory->kind)) + ", " +
+                           std::to_string(m.mri->trajectory->points()) + " samples per coil)");
     if (method.learned()) {
       spec.model = learned ? learned->model_path(method.name) : "";
       if (spec.model.empty()) throw WorkError("learned method '" + method.name + "' has no model loaded");

@@ -20,6 +20,7 @@
 #include "recofold/recon/fbp.h"
 #include "recofold/recon/learned_backend.h"
 #include "recofold/sampling/mask.h"
+#include "recofold/sampling/trajectory.h"
 #include "study_util.h"
 
 namespace recofold {
@@ -109,16 +110,22 @@ StudyPhantom measurement_object(const Config& t, const StudyConfig& c, const std
   if (m->modality != Modality::kMri || !m->mri)
     throw t.error("file", "'" + path + "' is " + modality_phrase(m->modality) +
                               " measurement; [[measurement]] objects are fully sampled MRI k-space");
-  if (m->mri->non_cartesian())
-    throw t.error("file", "'" + path + "' holds non-Cartesian samples (/mri/trajectory); a [[measurement]] object "
-                              "must be fully sampled Cartesian k-space (it is undersampled with the study's masks)");
-  Index sampled = 0;
-  for (uint8_t v : m->mri->mask.data) sampled += v ? 1 : 0;
-  if (sampled != m->ny * m->nx)
-    throw t.error("file", "'" + path + "' samples " + std::to_string(sampled) + " of " +
-                              std::to_string(m->ny * m->nx) +
-                              " k-space points (/mri/mask); a [[measurement]] object must be fully sampled");
-  if (m->mri->coil_maps.shape != m->mri->kspace.shape)
+  if (m->mri->non_cartesian()) {
+    if (!m->truth || m->truth->shape != Shape{m->ny, m->nx})
+      throw t.error("file", "'" + path + "' holds non-Cartesian samples (/mri/trajectory) but no truth (/truth); a "
+                                "non-Cartesian [[measurement]] object is reconstructed as measured and needs its "
+                                "truth to be scored");
+  } else {
+    Index sampled = 0;
+    for (uint8_t v : m->mri->mask.data) sampled += v ? 1 : 0;
+    if (sampled != m->ny * m->nx)
+      throw t.error("file", "'" + path + "' samples " + std::to_string(sampled) + " of " +
+                                std::to_string(m->ny * m->nx) +
+                                " k-space points (/mri/mask); a Cartesian [[measurement]] object must be fully "
+                                "sampled (non-Cartesian files, with /mri/trajectory, run as measured)");
+  }
+  const Shape maps{m->mri->kspace.shape[0], m->ny, m->nx};
+  if (m->mri->coil_maps.shape != maps)
     throw t.error("file", "'" + path + "' has no coil maps (/mri/coil_maps) for the coil-combined truth");
   if (m->ny != c.ny || m->nx != c.nx)
     throw t.error("file", "'" + path + "' is on a " + std::to_string(m->ny) + "x" + std::to_string(m->nx) +
@@ -340,7 +347,7 @@ StudyMethod parse_method_table(const Config& t, int index, const std::string& ba
 }  // namespace
 
 std::string StudyPhantom::truth_kind() const {
-  if (measured) return "fully sampled";
+  if (measured) return measured->mri && measured->mri->non_cartesian() ? measured->truth_kind : "fully sampled";
   if (pixels) return "discrete";
   return "analytic";
 }
@@ -373,12 +380,71 @@ const std::vector<std::string>& study_metric_names() {
 }
 
 namespace {
+// [mri] trajectory, spokes, interleaves and readout. With a trajectory and no
+// pattern key, no Cartesian pattern runs (and accel / center do not apply).
+void parse_trajectory_axes(const Config& t, const StudyConfig& c, MriAxes& a) {
+  const auto only_with = [&](const char* key, const std::string& kinds) {
+    if (t.has(key))
+      throw t.error(key, std::string("applies to [mri] trajectory = ") + kinds + "; " +
+                             (a.trajectories.empty() ? "this [mri] table has Cartesian patterns only (no trajectory key)"
+                                                     : "trajectory lists none of them"));
+  };
+  if (t.has("trajectory")) a.trajectories = string_list(t, "trajectory");
+  bool radial = false, spiral = false;
+  for (const std::string& k : a.trajectories) {
+    const auto kind = parse_trajectory_kind(k);
+    if (!kind || *kind == TrajectoryKind::kFile)
+      throw t.error("trajectory", "'" + k + "'; expected one of " + accepted_trajectory_kinds());
+    (*kind == TrajectoryKind::kSpiral ? spiral : radial) = true;
+  }
+  for (size_t i = 0; i < a.trajectories.size(); ++i)
+    for (size_t j = 0; j < i; ++j)
+      if (a.trajectories[i] == a.trajectories[j])
+        throw t.error("trajectory", "'" + a.trajectories[i] + "' is listed twice");
+  if (radial) {
+    if (!t.has("spokes")) throw t.error("spokes", "missing; the radial trajectories need spokes = [...] (1..100000)");
+    a.spokes = int_list(t, "spokes", 1, 100000);
+    if (t.has("readout")) {
+      const std::vector<int> r = int_list(t, "readout", 2, 65536);
+      if (r.size() != 1) throw t.error("readout", "must be a single value (samples per spoke)");
+      a.readout = r.front();
+    }
+  } else {
+    only_with("spokes", "\"radial\" or \"radial-golden\"");
+    only_with("readout", "\"radial\" or \"radial-golden\"");
+  }
+  if (spiral) {
+    if (!t.has("interleaves")) throw t.error("interleaves", "missing; a spiral trajectory needs interleaves = [...] (1..1024)");
+    a.interleaves = int_list(t, "interleaves", 1, 1024);
+  } else {
+    only_with("interleaves", "\"spiral\"");
+  }
+  if (a.trajectories.empty()) return;
+  if (!t.has("pattern")) {
+    a.patterns.clear();
+    for (const char* k : {"accel", "center"})
+      if (t.has(k))
+        throw t.error(k, "applies to Cartesian patterns; give pattern = [...] too (a trajectory's R is ny nx / samples)");
+  }
+  // The designs must be valid on the study grid (e.g. readout, hardware limits).
+  for (const std::string& k : a.trajectories) {
+    TrajectoryOptions o;
+    o.kind = *parse_trajectory_kind(k);
+    o.ny = c.ny;
+    o.nx = c.nx;
+    o.readout = a.readout;
+    for (const std::string& e : o.validate())
+      throw t.error(o.kind == TrajectoryKind::kSpiral ? "interleaves" : "readout", e);
+  }
+}
+
 // The protocol tables [mri], [ct], [denoise] and [inpaint].
 void parse_protocols(const Config& root, StudyConfig& c) {
   if (root.has("mri")) {
     const Config t = root.table("mri");
-    t.expect_only({"pattern", "accel", "coils", "noise", "center"});
+    t.expect_only({"pattern", "accel", "coils", "noise", "center", "trajectory", "spokes", "interleaves", "readout"});
     MriAxes a;
+    parse_trajectory_axes(t, c, a);
     if (t.has("pattern")) a.patterns = string_list(t, "pattern");
     for (const auto& p : a.patterns)
       if (!parse_mask_pattern(p)) throw t.error("pattern", "'" + p + "'; expected one of " + accepted_mask_patterns());
@@ -530,7 +596,15 @@ void parse_study_objects(const Config& root, const std::string& base_dir, StudyC
         throw root.error(c.phantoms[i].measurement_path.empty() && c.phantoms[i].image_path.empty() ? "phantom" : "name",
                          "object '" + c.phantoms[i].label + "' is listed twice; give distinct names");
   for (const StudyPhantom& p : c.phantoms) {
-    if (!p.measurement_path.empty())
+    if (p.measured && p.measured->mri->non_cartesian())
+      c.notes.push_back("Measurement '" + p.label + "' (" + p.measurement_path + ", " +
+                        std::to_string(p.measured_coils) + " coils, " +
+                        std::string(to_string(p.measured->mri->trajectory->kind)) + " trajectory, " +
+                        std::to_string(p.measured->mri->trajectory->points()) +
+                        " samples per coil): reconstructed as measured (its own trajectory; the study's patterns "
+                        "and trajectories do not apply); truth = the file's (" + p.measured->truth_kind +
+                        "); the noise axis is noise added to the measured samples.");
+    else if (!p.measurement_path.empty())
       c.notes.push_back("Measurement '" + p.label + "' (" + p.measurement_path + ", " +
                         std::to_string(p.measured_coils) +
                         " coils): undersampled retrospectively with each MRI mask; truth = fully sampled (the "
@@ -613,6 +687,15 @@ StudyConfig StudyConfig::parse(const std::string& text, const std::string& name,
     throw root.error("mri", "empty grid: give an [mri], [ct], [denoise] or [inpaint] protocol table");
   if (!root.tables("measurement").empty() && !c.mri)
     throw root.tables("measurement").front().error("file", "a [[measurement]] object needs an [mri] protocol table (its masks)");
+  if (c.mri && c.mri->patterns.empty()) {  // a Cartesian file is undersampled with masks only
+    const std::vector<Config> measured = root.tables("measurement");
+    size_t k = 0;
+    for (const StudyPhantom& p : c.phantoms)
+      if (p.measured && k++ < measured.size() && !p.measured->mri->non_cartesian())
+        throw measured[k - 1].error("file", "'" + p.measurement_path +
+                                                "' is Cartesian k-space, undersampled with the [mri] masks; the [mri] "
+                                                "table has trajectories only (give pattern = [...] too)");
+  }
   parse_study_methods(root, base_dir, c);
   c.hash = study_hash(text, c);
   return c;

@@ -21,6 +21,7 @@ import subprocess
 import sys
 import tempfile
 
+import h5py
 import pydicom
 from pydicom.data import get_testdata_file
 
@@ -132,8 +133,13 @@ def bad_inputs(tmp):
              ["bad.toml", "full.h5", "size = [64, 64]"], tmp)
     bad_case("CT data as a measurement", before + '[[measurement]]\nfile = "ct.h5"\n' + tail,
              ["bad.toml", "ct.h5", "a CT measurement"], tmp)
-    bad_case("non-Cartesian measurement", before + '[[measurement]]\nfile = "radial.h5"\n' + tail,
-             ["bad.toml", "radial.h5", "non-Cartesian", "/mri/trajectory"], tmp)
+    with h5py.File(os.path.join(tmp, "radial.h5"), "r") as src, h5py.File(os.path.join(tmp, "radial-nt.h5"), "w") as dst:
+        for key in src:  # a non-Cartesian file without its truth
+            if key != "truth":
+                src.copy(key, dst)
+        dst.attrs.update(src.attrs)
+    bad_case("non-Cartesian measurement without truth", before + '[[measurement]]\nfile = "radial-nt.h5"\n' + tail,
+             ["bad.toml", "radial-nt.h5", "non-Cartesian", "/truth"], tmp)
     bad_case("missing measurement file", before + '[[measurement]]\nfile = "none.h5"\n' + tail,
              ["bad.toml", "none.h5", "not found"], tmp)
     bad_case("measurement without [mri]", before + '[[measurement]]\nfile = "full.h5"\n[ct]\nviews = 30\n'

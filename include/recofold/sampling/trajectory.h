@@ -88,6 +88,10 @@ struct TrajectoryOptions {
 // `progress` (may be null) reports Pipe–Menon iterations.
 Trajectory make_trajectory(const TrajectoryOptions& options, ProgressSink* progress = nullptr);
 
+// The number of points M make_trajectory(options) has, without computing its
+// density compensation (options checked as there).
+Index trajectory_point_count(const TrajectoryOptions& options);
+
 // A trajectory from user points (cycles per FOV) for an ny x nx grid:
 // checked like every NUFFT input (finite, within ±0.5 cycles per pixel:
 // InputError(file, "/trajectory/k", ...)); `dcf` empty = Pipe–Menon weights,

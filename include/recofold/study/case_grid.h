@@ -6,6 +6,7 @@
 #include <string>
 #include <vector>
 
+#include "recofold/sampling/trajectory.h"
 #include "recofold/study/study_config.h"
 
 namespace recofold {
@@ -22,22 +23,40 @@ struct Acquisition {
   int views = 0;             // CT views
   double arc = 0.0;          // CT arc, degrees
   double photons = 0.0;      // CT photons per ray (0: noiseless)
+  // MRI on a trajectory (pattern empty): the kind ("radial", "radial-golden",
+  // "spiral"), readouts (spokes or interleaves), samples per spoke requested
+  // (radial; 0: default) and the points per coil M; accel = ny nx / M (to 6
+  // significant digits).
+  std::string trajectory;
+  int readouts = 0;
+  int readout = 0;
+  Index samples = 0;
 
-  // "mri/lines-vd/R4/c1/s0.01", "ct/v60/a180/p1e+05", "denoise/s0.05" or
+  // "mri/lines-vd/R4/c1/s0.01", "mri/radial-golden/16x64/c1/s0" (readouts x
+  // samples per readout), "ct/v60/a180/p1e+05", "denoise/s0.05" or
   // "inpaint/random/k0.5/s0.01".
   std::string key() const;
+  bool non_cartesian() const { return !trajectory.empty(); }
 };
 
 // The acquisition axes (results.csv column names, in order): MRI (pattern,
-// accel, coils, noise), inpaint's keep, CT (views, arc, photons); denoise
-// uses noise, inpaint pattern, keep and noise.
+// trajectory, readouts, samples, accel, coils, noise), inpaint's keep, CT
+// (views, arc, photons); denoise uses noise, inpaint pattern, keep and noise.
+// Cartesian MRI rows leave trajectory, readouts and samples blank; trajectory
+// rows leave pattern blank and give accel = ny nx / samples (the Cartesian R
+// of the same sample count, so both kinds share the accel axis).
 const std::vector<std::string>& acquisition_axes();
 // The value of axis `axis` as CSV text ("" when the axis is not the acquisition's modality).
 std::string axis_value(const Acquisition& a, const std::string& axis);
 
-// MRI grid (pattern x accel x coils x noise), CT grid (views x arc x photons),
-// denoise grid (noise), inpaint grid (pattern x keep x noise).
+// MRI grid (pattern x accel x coils x noise, then trajectory x readouts x
+// coils x noise), CT grid (views x arc x photons), denoise grid (noise),
+// inpaint grid (pattern x keep x noise).
 std::vector<Acquisition> expand_acquisitions(const StudyConfig& config);
+
+// The design options of a trajectory acquisition on the study grid (the
+// sampling/trajectory.h defaults otherwise; DCF auto).
+TrajectoryOptions trajectory_options(const StudyConfig& config, const Acquisition& acquisition);
 
 // One case: indices into the config's phantoms, acquisitions and methods.
 struct StudyCase {
@@ -58,8 +77,10 @@ struct StudyCase {
 
 struct CaseGrid {
   // expand_acquisitions(config), then the acquisitions of [[measurement]]
-  // objects: their MRI points with the coils axis replaced by the file's coil
-  // count (the points of the first coils value; CT points do not apply).
+  // objects: a Cartesian file runs the Cartesian MRI points with the coils
+  // axis replaced by the file's coil count (the points of the first coils
+  // value; trajectory and CT points do not apply); a non-Cartesian file runs
+  // its own trajectory once per noise value (its coils, readouts and samples).
   std::vector<Acquisition> acquisitions;
   std::vector<StudyCase> cases;  // canonical order: phantom, acquisition, repetition, method
   int groups = 0;                // measurements (cases sharing one simulated measurement)

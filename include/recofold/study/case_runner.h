@@ -35,6 +35,13 @@ struct CaseMeasurement {
 //        [[measurement]] object is instead undersampled retrospectively with
 //        that mask (noise sigma added to its samples, seed noise_seed) and
 //        scored against its fully sampled coil-combined magnitude;
+//   MRI on a trajectory: make_trajectory(trajectory_options(config, acquisition))
+//        and simulate_mri_trajectory_measurement (as `simulate --trajectory`:
+//        exact samples at the points for analytic objects, the NUFFT of the
+//        pixels for [[object]] images), coils, noise sigma, seed noise_seed;
+//        a non-Cartesian [[measurement]] object runs as measured, with noise
+//        sigma added to its samples (seed noise_seed), scored against the
+//        file's truth;
 //   CT:  parallel beam, `views` equally spaced over `arc`, detectors
 //        ceil(sqrt(2) max(ny, nx)), pixel fov_mm / nx, mu from [ct] (0: automatic), exact line
 //        integrals (from the pixels for [[object]] images), Poisson noise with

@@ -6,7 +6,14 @@
 //   phantom                 object label ("qc-disk", "textured-7-3")
 //   object_set              what the summary pools over: the table label, or the family name
 //   modality, method, prior
-//   pattern, accel, coils, noise, views, arc, photons   acquisition axes (blank for the other modality)
+//   pattern, trajectory, readouts, samples, accel, coils, noise, keep, views, arc, photons
+//                           acquisition axes (blank for the other modality). MRI:
+//                           pattern = the Cartesian mask pattern (blank on a
+//                           trajectory); trajectory = radial | radial-golden |
+//                           spiral (| file for a measured one), readouts = its
+//                           spokes or interleaves, samples = its points per coil
+//                           (all three blank for Cartesian masks); accel = R of a
+//                           mask, ny nx / samples for a trajectory
 //   repetition, lambda      lambda: the prior weight used (blank when none)
 //   lambda_rule             how lambda was chosen: auto (from the data alone: discrepancy
 //                           principle, CT held-out views), fixed (the config's value),

@@ -40,7 +40,12 @@
 //                                   noise axis is noise added to the measured samples, the
 //                                   truth is the fully sampled coil-combined image
 //                                   ("fully sampled"; it carries the scan's noise); CT,
-//                                   denoise and inpaint protocols skip it.
+//                                   denoise and inpaint protocols skip it, and so do
+//                                   the [mri] trajectories (no resampling onto them).
+//                                   A non-Cartesian file (/mri/trajectory, with /truth)
+//                                   runs as measured: its own trajectory, once per noise
+//                                   value (noise added to its samples), scored against
+//                                   the file's truth.
 //
 //   [[object]]                      an image as the object: any image file recofold reads
 //   file  = "head.dcm"              (DICOM file or series folder, NIfTI, MHA, NRRD, PNG, HDF5)
@@ -56,6 +61,23 @@
 //   coils   = [1, 4]                receive coils (1..32)
 //   noise   = [0.0, 0.01]           complex noise sigma per real/imaginary part (object max ~1)
 //   center  = 0.08                  fully sampled centre fraction (single value)
+//   trajectory = ["radial-golden"]  non-Cartesian acquisitions (kept as coordinates, never
+//                                   rasterised): radial | radial-golden | spiral
+//                                   (sampling/trajectory.h); simulated exactly at the points
+//                                   (acquire/mri_trajectory.h, as `simulate --trajectory`)
+//   spokes  = [16, 32]              radial kinds: spokes (1..100000; required with them)
+//   interleaves = [4, 8]            spiral: interleaves (1..1024; required with spiral;
+//                                   hardware defaults of sampling/trajectory.h)
+//   readout = 64                    radial kinds: samples per spoke (single value, 2..65536;
+//                                   default 2 min(ny, nx), twice oversampled)
+//                                   With trajectory, the Cartesian patterns run only when
+//                                   pattern is given too (accel and center need it); a
+//                                   trajectory's R is ny nx / samples per coil. The
+//                                   points do not depend on the repetition (only the noise
+//                                   does). Methods other than zero-filled (= gridding), cg,
+//                                   ista, fista, admm and pdhg (today: unrolled) do not run
+//                                   on trajectories: their trajectory rows carry the
+//                                   refusal in results.csv's error column.
 //
 //   [ct]                            optional CT protocol axes (parallel beam):
 //   views   = [60, 120]             views equally spaced over the arc (>= 2)
@@ -167,6 +189,13 @@ struct MriAxes {
   std::vector<int> coils = {1};
   std::vector<double> noise_sigmas = {0.0};
   double center_fraction = 0.08;
+  // Non-Cartesian acquisitions: kinds ("radial", "radial-golden", "spiral";
+  // empty: none), spokes (radial kinds), interleaves (spiral), samples per
+  // spoke (0: the default of TrajectoryOptions).
+  std::vector<std::string> trajectories;
+  std::vector<int> spokes;
+  std::vector<int> interleaves;
+  int readout = 0;
 };
 
 // CT protocol axes (parallel beam, detectors ceil(sqrt(2) max(ny, nx)), pixel fov / nx).
