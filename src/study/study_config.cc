@@ -337,9 +337,18 @@ StudyMethod parse_method_table(const Config& t, int index, const std::string& ba
         throw t.error("train", "training config '" + m.train_config + "' does not exist");
       s.model = "models/" + m.name + ".h5";  // trained into the study folder; the runner sets the path
     }
+  } else if (m.flow_prior()) {
+    if (!t.has("model"))
+      throw t.error("model", "missing; prior flow needs a flow model file (from `recofold train` with [model] kind = "
+                             "\"flow\")");
+    m.model_path = resolve(t.get_string("model"), base_dir);
+    if (!file_exists(m.model_path)) throw t.error("model", "model file '" + m.model_path + "' does not exist");
+    s.model = m.model_path;
+    for (const char* k : {"train", "train_steps"})
+      if (t.has(k)) throw t.error(k, std::string("only unrolled methods take ") + k + " (prior flow takes a trained flow)");
   } else {
     for (const char* k : {"model", "train", "train_steps", "optional"})
-      if (t.has(k)) throw t.error(k, std::string("only unrolled methods take ") + k);
+      if (t.has(k)) throw t.error(k, std::string("only unrolled methods and prior flow take ") + k);
   }
   return m;
 }
@@ -617,6 +626,18 @@ void parse_study_objects(const Config& root, const std::string& base_dir, StudyC
   }
 }
 
+// The flow of a prior-flow method read once now: a file that is no flow, or a flow of another grid, is refused
+// before any case runs (naming the key), not in every case.
+namespace {
+void check_flow_model(const Config& t, const StudyMethod& m, const StudyConfig& c) {
+  try {
+    find_learned_backend().backend->flow_neg_log_density(m.model_path, c.ny, c.nx, VecC::Zero(c.ny * c.nx), nullptr);
+  } catch (const InputError& e) {
+    throw t.error("model", "'" + m.model_path + "' cannot be the prior flow of this study: " + e.reason());
+  }
+}
+}  // namespace
+
 // [[method]] tables: each spec validated against every modality it runs on.
 void parse_study_methods(const Config& root, const std::string& base_dir, StudyConfig& c) {
   const std::vector<Config> methods = root.tables("method");
@@ -628,15 +649,17 @@ void parse_study_methods(const Config& root, const std::string& base_dir, StudyC
     for (Modality mod : m.modalities)
       if (c.has_protocol(mod))
         throw_spec_errors(t, m.index, m.spec.validate(mod, Shape{c.ny, c.nx}));
-    if (m.learned() && !study_has_learn()) {
+    if (m.needs_learn() && !study_has_learn()) {
       if (m.optional) {
         c.notes.push_back("Learned method '" + m.name +
                           "' was left out: this build has no learn module (RECOFOLD_WITH_LIBTORCH=OFF).");
         continue;
       }
-      throw t.error("method", "unrolled needs the learn module; this build has none (RECOFOLD_WITH_LIBTORCH=OFF); "
-                              "set optional = true to skip it");
+      throw t.error("method", std::string(m.learned() ? "unrolled" : "prior flow") +
+                                  " needs the learn module; this build has none (RECOFOLD_WITH_LIBTORCH=OFF); "
+                                  "set optional = true to skip it");
     }
+    if (m.flow_prior()) check_flow_model(t, m, c);
     for (const StudyMethod& o : c.methods)
       for (const auto& mod : m.modalities)
         if (o.name == m.name && o.applies_to(mod))

@@ -8,6 +8,7 @@
 # and the output file must name the prior and its model. Bad input: prior flow
 # with a solver that has no gradient form, without --model, with a model that
 # is no flow or has another grid -> exit 2 naming the flag or file.
+import csv
 import os
 import re
 import sys
@@ -72,6 +73,49 @@ with tempfile.TemporaryDirectory() as d:
         print(f"PSNR gain over the noisy image, lambda {mode}: " + " ".join(f"{x:+.2f}" for x in g) + " dB")
         check(len(g) == 3 and min(g) > 1.0, f"prior flow (lambda {mode}) beats the noisy image by > 1 dB on 3 "
                                             f"held-out objects: {['%.2f' % x for x in g]}")
+
+    # In a study: a [[method]] with prior = "flow" and model = the flow, beside zero-filled and TV.
+    study = """
+size = 16
+repetitions = 1
+seed = 3
+[[phantom]]
+family = "textured"
+count = 2
+seed = 900
+[denoise]
+noise = [0.08]
+[[method]]
+method = "zero-filled"
+[[method]]
+method = "fista"
+prior = "tv"
+lambda = "auto"
+[[method]]
+name = "fista-flow"
+method = "fista"
+prior = "flow"
+model = "flow.h5"
+lambda = 0.002
+iters = 30
+"""
+    open(os.path.join(d, "study.toml"), "w").write(study)
+    must_succeed(EXE, ["study", "--config", "study.toml", "--out", "st"], d, check)
+    res = os.path.join(d, "st", "results.csv")
+    rows = list(csv.DictReader(open(res))) if os.path.exists(res) else []
+    flow_rows = [r for r in rows if r["method"] == "fista-flow"]
+    zf = {r["phantom"]: float(r["psnr"]) for r in rows if r["method"] == "zero-filled"}
+    check(len(rows) == 6 and len(flow_rows) == 2 and all(r["error"] == "" and r["prior"] == "flow" for r in flow_rows),
+          f"study: 2 fista-flow rows with prior flow and no error among 6 ({[(r['method'], r['error']) for r in rows]})")
+    check(all(float(r["psnr"]) > zf[r["phantom"]] + 1.0 for r in flow_rows),
+          "study: fista-flow beats the noisy image by > 1 dB on both objects")
+    for name, text, words in (
+        ("study: model is no flow", study.replace('model = "flow.h5"', 'model = "fam.h5"'), ["model", "fam.h5"]),
+        ("study: prior flow without model", study.replace('model = "flow.h5"\n', ""), ["model", "flow model"]),
+    ):
+        open(os.path.join(d, "bad.toml"), "w").write(text)
+        bad_input_case(name, lambda: recofold(EXE, ["study", "--config", "bad.toml", "--out", "bad_st"], d), words, d,
+                       check.failures)
 
     # Bad input.
     must_succeed(EXE, ["phantom", "--family", "textured", "--size", "24", "--out", "big.h5"], d, check)

@@ -229,19 +229,24 @@ struct InpaintAxes {
 //   lambda_solves -> lambda.max_solves, iters -> iterations, tol -> tolerance,
 //   restart -> fista.restart, rho -> admm.rho, cg_iters -> admm.cg_iterations,
 //   tau / sigma -> pdhg.tau / pdhg.sigma, filter -> fbp.filter,
-//   combine / maps -> zero_filled.combine / maps, nonneg -> nonneg, model -> model.
+//   combine / maps -> zero_filled.combine / maps, nonneg -> nonneg, model -> model (unrolled, or the
+//   flow of prior = "flow", read once at load).
 struct StudyMethod {
   std::string name;                 // label (unique per modality)
   ReconSpec spec;                   // as given; the model of a trained method is set by the runner
   std::vector<Modality> modalities;  // where it runs
-  std::string model_path;           // unrolled: model file (resolved)
+  std::string model_path;           // unrolled: model file; prior flow: the flow (resolved)
   std::string train_config;         // unrolled: training config (resolved)
   int64_t train_steps = 0;          // > 0 overrides the training config's steps
-  bool optional = false;            // unrolled: skip when learn is absent
+  bool optional = false;            // unrolled, prior flow: skip when learn is absent
   int index = 0;                    // position among the [[method]] tables
   int line = 0;                     // line of the [[method]] table
 
   bool learned() const { return spec.method == Method::kUnrolled; }
+  // A classical solver with the likelihood of a flow model as its prior (prior = "flow", model = ...).
+  bool flow_prior() const { return spec.prior.kind && *spec.prior.kind == PriorKind::kFlow; }
+  // Needs the learn module: learned() or flow_prior().
+  bool needs_learn() const { return learned() || flow_prior(); }
   bool applies_to(Modality modality) const;
   // results.csv's method and prior columns: the method name, and the prior
   // that runs on `modality` ("learned" for unrolled, "none" for direct methods).
