@@ -15,7 +15,7 @@ const std::vector<std::string>& result_columns() {
     std::vector<std::string> c = {"case", "phantom", "object_set", "modality", "method", "prior"};
     for (const auto& a : acquisition_axes()) c.push_back(a);
     for (const char* k : {"repetition", "lambda", "lambda_rule", "psnr", "ssim", "nrmse", "hfen", "time", "iterations",
-                          "in_training_conditions", "error", "measurement_file", "image_file"})
+                          "in_training_conditions", "outside_training", "error", "measurement_file", "image_file"})
       c.push_back(k);
     return c;
   }();
@@ -61,6 +61,7 @@ std::string format_result_row(const StudyConfig& config, const CaseGrid& grid, c
   cells.push_back(format_sig(o.seconds, 4));
   cells.push_back(std::to_string(o.iterations));
   cells.push_back(o.in_training);
+  cells.push_back(o.outside);
   cells.push_back(o.ok ? "" : (o.error.empty() ? "failed" : o.error));
   cells.push_back(o.measurement_file);
   cells.push_back(o.image_file);

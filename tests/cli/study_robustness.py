@@ -110,6 +110,23 @@ def main():
         inside = {(r["object_set"], r["accel"], r["noise"]) for r in results
                   if r["case"].split("|")[2] == "net" and r["in_training_conditions"] == "yes"}
         check(inside == {("textured", "2", "0.01")}, f"the training condition is textured, R 2, sigma 0.01: {inside}")
+        # Every row outside says why, naming each shifted dimension; rows inside say nothing.
+        net = [r for r in results if r["case"].split("|")[2] == "net"]
+        reasons_ok = True
+        for r in net:
+            why = r["outside_training"]
+            want = (["accel"] if r["accel"] != "2" else []) + (["noise"] if r["noise"] != "0.01" else []) + \
+                   (["famil"] if r["object_set"] != "textured" else [])
+            if r["in_training_conditions"] == "yes":
+                reasons_ok &= why == ""
+            else:
+                reasons_ok &= bool(why) and all(w in why for w in want)
+                if not all(w in why for w in want):
+                    print(f"     {r['case']}: outside_training '{why}' lacks {want}")
+        check(len(net) > 0 and reasons_ok, f"outside_training names the shifted dimensions of each of {len(net)} rows "
+                                           f"(e.g. '{next((r['outside_training'] for r in net if r['outside_training']), '')}')")
+        check(all(r["outside_training"] == "" for r in results if r["case"].split("|")[2] != "net"),
+              "outside_training is blank for classical methods")
         path = os.path.join(d, "robustness.csv")
         if not check(os.path.exists(path), "robustness.csv written"):
             return check.summary()

@@ -24,6 +24,8 @@
 //   time                    reconstruction wall time of the case, seconds
 //   iterations              solver iterations (0 for direct methods)
 //   in_training_conditions  learned methods: yes | no; blank otherwise
+//   outside_training        learned methods outside their training conditions: which ones
+//                           and how (e.g. "noise 0.02 > trained 0.01"); blank otherwise
 //   error                   empty for a successful case, else the error message
 //                           ("output failed: ..." when an output could not be
 //                           written; such cases run again on resume)
