@@ -39,6 +39,31 @@ def must_succeed(exe, args, cwd, checks, env=None):
     return out
 
 
+def tiny_unrolled_training(extra_train=""):
+    """The smallest useful training config of an unrolled MRI model (32x32 textured objects, R 2,
+    sigma 0.01, one iteration of a 2-layer CNN, 2 steps): a few seconds, for tests that need a model
+    rather than a good one. `extra_train` adds lines to [train] (e.g. "seed = 5")."""
+    return """
+[data]
+modality = "mri"
+size = 32
+families = ["textured"]
+accel = 2.0
+noise = 0.01
+[model]
+iterations = 1
+depth = 2
+width = 4
+cg_iterations = 2
+[train]
+steps = 2
+batch = 2
+validation_count = 2
+validation_every = 2
+checkpoint_every = 1000
+""" + (extra_train.strip() + "\n" if extra_train else "")
+
+
 def launcher_free_env(extra=None):
     """This process's environment without MPI launcher and job-array variables (so a test
     decides what the command sees), plus `extra`."""

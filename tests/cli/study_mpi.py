@@ -149,26 +149,7 @@ def mpi_equal_and_kill(work, reference):
               f"rerun skips the {rows_after_kill} cases already done")
 
 
-TRAIN = """
-[data]
-modality = "mri"
-size = 32
-families = ["textured"]
-accel = 2.0
-noise = 0.01
-[model]
-iterations = 1
-depth = 2
-width = 4
-cg_iterations = 2
-[train]
-steps = 2
-batch = 2
-validation_count = 2
-validation_every = 2
-checkpoint_every = 1000
-threads = 1
-"""
+TRAIN = _harness.tiny_unrolled_training('threads = 1')
 
 LEARNED = f"""
 name = "mpi-learned"

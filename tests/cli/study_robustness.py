@@ -15,30 +15,12 @@ import tempfile
 import zlib
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from _harness import Checks, recofold, must_succeed  # noqa: E402
+from _harness import Checks, recofold, must_succeed, tiny_unrolled_training  # noqa: E402
 
 EXE = os.path.abspath(os.environ.get("RECOFOLD_EXE", "./recofold"))
 os.environ["OMP_WAIT_POLICY"] = "PASSIVE"
 
-TRAIN = """
-[data]
-modality = "mri"
-size = 32
-families = ["textured"]
-accel = 2.0
-noise = 0.01
-[model]
-iterations = 1
-depth = 2
-width = 4
-cg_iterations = 2
-[train]
-steps = 2
-batch = 2
-validation_count = 2
-validation_every = 2
-checkpoint_every = 1000
-"""
+TRAIN = tiny_unrolled_training()
 
 STUDY = """
 size = 32
