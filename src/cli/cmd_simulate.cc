@@ -194,6 +194,15 @@ Measurement simulate_mri_trajectory_cli(const SimulateFlags& f, const Phantom* a
   return m;
 }
 
+// "denoise image [64, 64], all, kept 1.000, noise sigma 0.1".
+std::string image_problem_summary(const std::string& modality, const Measurement& m) {
+  char buf[256];
+  std::snprintf(buf, sizeof buf, "%s image [%lld, %lld], %s, kept %.3f, noise sigma %.4g", modality.c_str(),
+                static_cast<long long>(m.ny), static_cast<long long>(m.nx), m.image->pattern.c_str(),
+                m.image->kept_fraction, m.image->noise_sigma);
+  return buf;
+}
+
 // "CT sinogram [60, 91], parallel beam, 60 views over 180 deg, 91 detectors x 1 mm, 1e+05 photons/ray".
 std::string ct_summary(const CtData& ct) {
   const auto& a = ct.angles_rad;
@@ -210,20 +219,9 @@ std::string ct_summary(const CtData& ct) {
   return s;
 }
 
-void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
-  if (!f.from.empty()) {
-    run_simulate_from(SimulateFromFlags{f.from, f.mask, f.out, f.noise, f.seed}, sub, ctx);
-    return;
-  }
-  // Every check before any work: bad input leaves no output.
-  if (f.phantom.empty()) throw InputError("", "--phantom", "is required (or --from MEAS.h5 to undersample measured data)");
-  if (f.modality.empty()) throw InputError("", "--modality", "is required with --phantom (mri, ct, denoise or inpaint)");
-  require_output_path(f.out, "--out", {".h5"});
-  require_distinct_output(f.out, "--out", {f.phantom, f.mask, f.trajectory});
-  const std::optional<Modality> modality = parse_modality(f.modality);
-  if (!modality) throw InputError("", "--modality", "'" + f.modality + "'; expected " + accepted_modalities());
-  const bool image_problem = *modality == Modality::kDenoise || *modality == Modality::kInpaint;
-  refuse_other_modality_flags(sub, *modality);
+// The flags of a simulation from --phantom that must fit each other, checked before any work.
+void check_phantom_flags(const SimulateFlags& f, const CLI::App& sub, Modality modality, bool image_problem) {
+  refuse_other_modality_flags(sub, modality);
   if (!f.trajectory.empty()) {
     if (!f.mask.empty())
       throw InputError("", "--trajectory", "give either --mask (Cartesian) or --trajectory (non-Cartesian), not both");
@@ -239,6 +237,22 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
     throw InputError("", "--truth", "analytic does not apply to --modality " + f.modality +
                                         ": the observed image is the object's pixels (its truth is discrete)");
   if (f.index < 0) throw InputError("", "--index", "must be >= 0");
+}
+
+void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
+  if (!f.from.empty()) {
+    run_simulate_from(SimulateFromFlags{f.from, f.mask, f.out, f.noise, f.seed}, sub, ctx);
+    return;
+  }
+  // Every check before any work: bad input leaves no output.
+  if (f.phantom.empty()) throw InputError("", "--phantom", "is required (or --from MEAS.h5 to undersample measured data)");
+  if (f.modality.empty()) throw InputError("", "--modality", "is required with --phantom (mri, ct, denoise or inpaint)");
+  require_output_path(f.out, "--out", {".h5"});
+  require_distinct_output(f.out, "--out", {f.phantom, f.mask, f.trajectory});
+  const std::optional<Modality> modality = parse_modality(f.modality);
+  if (!modality) throw InputError("", "--modality", "'" + f.modality + "'; expected " + accepted_modalities());
+  const bool image_problem = *modality == Modality::kDenoise || *modality == Modality::kInpaint;
+  check_phantom_flags(f, sub, *modality, image_problem);
   if (!file_exists(f.phantom)) throw InputError(f.phantom, "--phantom", not_a_file_reason(f.phantom));
 
   const ImageRecord rec = read_image_any(f.phantom);
@@ -276,11 +290,7 @@ void run_simulate(SimulateFlags& f, const CLI::App& sub, const Context& ctx) {
     m = simulate_image_cli(f, sub, *modality, raster, spacing, prov);
     m.pixel_spacing_mm[0] = rec.pixel_spacing_mm[0];
     m.pixel_spacing_mm[1] = rec.pixel_spacing_mm[1];
-    char buf[256];
-    std::snprintf(buf, sizeof buf, "%s image [%lld, %lld], %s, kept %.3f, noise sigma %.4g", f.modality.c_str(),
-                  static_cast<long long>(ny), static_cast<long long>(nx), m.image->pattern.c_str(),
-                  m.image->kept_fraction, m.image->noise_sigma);
-    summary = buf;
+    summary = image_problem_summary(f.modality, m);
   } else if (*modality == Modality::kCt) {
     NdArray<cfloat> pix(Shape{ny, nx});
     std::copy(raster.data(), raster.data() + n, pix.data.begin());
