@@ -205,10 +205,6 @@ void run_recon(const ReconFlags& f, const CLI::App& sub, const Context& ctx) {
   } catch (const InputError& e) {
     throw_with_flags(e, recon_flags(), f.meas);
   }
-  if (spec.method == Method::kUnrolled && m.mri && m.mri->non_cartesian())
-    throw InputError(f.meas, "--method",
-                     "unrolled models run on Cartesian k-space; this measurement is non-Cartesian (/mri/trajectory): "
-                     "use zero-filled (gridding), cg, ista, fista, admm or pdhg");
   const bool flow_prior = spec.prior.kind && *spec.prior.kind == PriorKind::kFlow;
   if (spec.method == Method::kUnrolled || flow_prior) {
     install_learned_backend();

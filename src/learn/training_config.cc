@@ -275,7 +275,10 @@ std::string TrainingConditions::outside(const Measurement& m) const {
   std::vector<std::string> out;
   if (m.mri) {
     const MriData& d = *m.mri;
-    if (std::find(patterns.begin(), patterns.end(), d.pattern) == patterns.end())
+    if (d.non_cartesian())
+      out.push_back("non-Cartesian " + std::string(to_string(d.trajectory->kind)) + " trajectory (trained on "
+                    "Cartesian masks " + join(patterns) + ")");
+    else if (std::find(patterns.begin(), patterns.end(), d.pattern) == patterns.end())
       out.push_back("pattern '" + d.pattern + "' not in [" + join(patterns) + "]");
     if (!within(d.acceleration, accel_min, accel_max))
       out.push_back("acceleration " + format_fixed(d.acceleration, 2) + " outside " + range_text(accel_min, accel_max));

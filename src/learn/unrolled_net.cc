@@ -8,6 +8,7 @@
 #include "recofold/core/error.h"
 #include "recofold/ops/fourier.h"
 #include "recofold/ops/joseph_projector.h"
+#include "recofold/recon/forward_model.h"
 
 namespace recofold::internal {
 
@@ -28,6 +29,18 @@ PreparedBatch prepare_batch(const std::vector<const Measurement*>& ms, const Unr
                            ", the measurement's grid is " + std::to_string(m->ny) + "x" + std::to_string(m->nx));
     if (arch.modality == Modality::kMri) {
       if (!m->mri) throw InputError(file, "/mri", "missing MRI data");
+      if (m->mri->non_cartesian()) {
+        // A trajectory: the SENSE-NUFFT of the measurement (Toeplitz normal operator) in every DC step.
+        if (arch.dc == LearnedDc::kReplace)
+          throw InputError(file, "/mri/trajectory",
+                           "dc 'replace' overwrites sampled Cartesian k-space; a model with dc 'replace' cannot "
+                           "reconstruct non-Cartesian samples (models with dc 'gradient' or 'cg' can)");
+        ForwardModel fm = make_forward_model(*m, file);
+        data.push_back(std::move(fm.y));
+        ops.push_back(std::shared_ptr<const LinearOperator>(std::move(fm.op)));
+        all_truth = all_truth && m->truth.has_value();
+        continue;
+      }
       auto op = make_sense_operator(*m->mri, file);
       if (arch.dc == LearnedDc::kReplace && op->coils() != 1)
         throw InputError(file, "/mri/kspace", "dc 'replace' needs single-coil data, got " +

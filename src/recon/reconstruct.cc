@@ -205,10 +205,6 @@ void run_fbp(const Measurement& m, Reconstruction& out, const std::string& file)
 }
 
 void run_unrolled(const Measurement& m, Reconstruction& out, const std::string& file) {
-  if (m.mri && m.mri->non_cartesian())
-    throw InputError(file, "method",
-                     "unrolled models run on Cartesian k-space; this measurement is non-Cartesian (/mri/trajectory): "
-                     "use zero-filled (gridding), cg, ista, fista, admm or pdhg");
   const LearnedBackendLookup found = find_learned_backend();
   if (!found.backend) throw InputError(file, "method", "unrolled: " + found.reason);
   LearnedReconstruction l = found.backend->reconstruct(m, out.spec.model);

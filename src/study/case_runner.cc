@@ -173,11 +173,6 @@ CaseOutcome run_case_method(const StudyMethod& method, const CaseMeasurement& da
   const auto start = std::chrono::steady_clock::now();
   try {
     ReconSpec spec = method.spec;
-    if (method.learned() && m.mri && m.mri->non_cartesian())
-      throw InputError("", "method",
-                       "not run: unrolled models run on Cartesian k-space only; this acquisition is non-Cartesian (" +
-                           std::string(to_string(m.mri->trajectory->kind)) + ", " +
-                           std::to_string(m.mri->trajectory->points()) + " samples per coil)");
     if (method.learned()) {
       spec.model = learned ? learned->model_path(method.name) : "";
       if (spec.model.empty()) throw WorkError("learned method '" + method.name + "' has no model loaded");

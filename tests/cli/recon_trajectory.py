@@ -198,8 +198,6 @@ def bad_inputs(tmp):
 
     rec = ["recon", "--meas", "meas.h5", "--out", "x.h5"]
     bad_case("fbp of a trajectory measurement", rec + ["--method", "fbp"], ["--method", "fbp"], tmp)
-    bad_case("unrolled of a trajectory measurement", rec + ["--method", "unrolled", "--model", "tr.h5"],
-             ["--method"], tmp)
     bad_case("estimated maps of a trajectory measurement", rec + ["--method", "zero-filled", "--maps", "estimated"],
              ["--maps", "non-Cartesian"], tmp)
     bad_case("--from a trajectory measurement", ["simulate", "--from", "meas.h5", "--mask", "tr.h5", "--out", "x.h5"],

@@ -74,10 +74,10 @@
 //                                   pattern is given too (accel and center need it); a
 //                                   trajectory's R is ny nx / samples per coil. The
 //                                   points do not depend on the repetition (only the noise
-//                                   does). Methods other than zero-filled (= gridding), cg,
-//                                   ista, fista, admm and pdhg (today: unrolled) do not run
-//                                   on trajectories: their trajectory rows carry the
-//                                   refusal in results.csv's error column.
+//                                   does). Every MRI method runs on trajectories
+//                                   (zero-filled = gridding); unrolled models with DC
+//                                   steps through the SENSE-NUFFT, their rows outside
+//                                   the (Cartesian) training conditions.
 //
 //   [ct]                            optional CT protocol axes (parallel beam):
 //   views   = [60, 120]             views equally spaced over the arc (>= 2)
