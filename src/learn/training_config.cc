@@ -12,6 +12,7 @@
 #include "recofold/core/number_format.h"
 #include "recofold/io/h5_file.h"
 #include "recofold/phantom/family.h"
+#include "recofold/core/trajectory.h"
 #include "recofold/sampling/mask.h"
 
 namespace recofold {
@@ -86,6 +87,17 @@ std::vector<std::string> TrainingConditions::validate() const {
   if (families.empty()) bad("families", "[]", "must name at least one family");
   for (const auto& f : families)
     if (!parse_family(f)) bad("families", f, "must be one of " + family_names());
+  if (!trajectory.empty()) {
+    const auto kind = parse_trajectory_kind(trajectory);
+    if (modality != Modality::kMri) bad("trajectory", trajectory, "applies to mri only");
+    else if (!kind || *kind == TrajectoryKind::kFile)
+      bad("trajectory", trajectory, "must be radial, radial-golden or spiral");
+    if (readouts_min < 1 || readouts_max > 100000 || readouts_min > readouts_max)
+      bad("readouts", range_text(readouts_min, readouts_max),
+          "must lie in 1..100000 (spokes or spiral interleaves; required with trajectory)");
+  } else if (readouts_min != 0 || readouts_max != 0) {
+    bad("readouts", range_text(readouts_min, readouts_max), "applies only with trajectory");
+  }
   if (modality == Modality::kMri) {
     if (patterns.empty()) bad("patterns", "[]", "must name at least one pattern");
     for (const auto& p : patterns)
@@ -120,6 +132,10 @@ std::string TrainingConditions::to_json() const {
     w.add("center", center_fraction);
     w.add("noise", std::vector<double>{noise_min, noise_max});
     w.add("coils", std::vector<double>{double(coils_min), double(coils_max)});
+    if (!trajectory.empty()) {
+      w.add("trajectory", trajectory);
+      w.add("readouts", std::vector<double>{double(readouts_min), double(readouts_max)});
+    }
   } else {
     w.add("views", std::vector<double>{double(views_min), double(views_max)});
     w.add("arc", arc_deg);
@@ -193,6 +209,13 @@ TrainingConditions TrainingConditions::from_json(const std::string& json, const 
       pair(k, v, a, b);
       c.coils_min = static_cast<int>(a);
       c.coils_max = static_cast<int>(b);
+    } else if (k == "trajectory") {
+      if (v.kind != JsonValue::Kind::kString) throw InputError(file, field, "key 'trajectory' must be a string");
+      c.trajectory = v.text;
+    } else if (k == "readouts") {
+      pair(k, v, a, b);
+      c.readouts_min = static_cast<int>(a);
+      c.readouts_max = static_cast<int>(b);
     } else if (k == "views") {
       pair(k, v, a, b);
       c.views_min = static_cast<int>(a);
@@ -241,8 +264,8 @@ TrainingConditions TrainingConditions::from_json(const std::string& json, const 
 }
 
 TrainingConditions TrainingConditions::from_config(const Config& t) {
-  t.expect_only({"modality", "size", "families", "patterns", "accel", "center", "noise", "coils", "views",
-                 "arc", "photons", "mu", "fov_mm", "truth"});
+  t.expect_only({"modality", "size", "families", "patterns", "accel", "center", "noise", "coils", "trajectory",
+                 "readouts", "views", "arc", "photons", "mu", "fov_mm", "truth"});
   TrainingConditions c;
   const std::string modality = t.get_string("modality");
   const auto parsed = parse_modality(modality);
@@ -261,6 +284,11 @@ TrainingConditions TrainingConditions::from_config(const Config& t) {
   c.center_fraction = t.get_double_or("center", c.center_fraction);
   read_range(t, "noise", c.noise_min, c.noise_max);
   read_int_range(t, "coils", c.coils_min, c.coils_max);
+  c.trajectory = t.get_string_or("trajectory", "");
+  if (!c.trajectory.empty() && (t.has("patterns") || t.has("accel")))
+    throw t.error(t.has("patterns") ? "patterns" : "accel",
+                  "does not apply with trajectory (a trajectory's acceleration is ny nx / its samples)");
+  read_int_range(t, "readouts", c.readouts_min, c.readouts_max);
   read_int_range(t, "views", c.views_min, c.views_max);
   c.arc_deg = t.get_double_or("arc", c.arc_deg);
   read_range(t, "photons", c.photons_min, c.photons_max);
@@ -275,13 +303,25 @@ std::string TrainingConditions::outside(const Measurement& m) const {
   std::vector<std::string> out;
   if (m.mri) {
     const MriData& d = *m.mri;
-    if (d.non_cartesian())
-      out.push_back("non-Cartesian " + std::string(to_string(d.trajectory->kind)) + " trajectory (trained on "
-                    "Cartesian masks " + join(patterns) + ")");
-    else if (std::find(patterns.begin(), patterns.end(), d.pattern) == patterns.end())
-      out.push_back("pattern '" + d.pattern + "' not in [" + join(patterns) + "]");
-    if (!within(d.acceleration, accel_min, accel_max))
-      out.push_back("acceleration " + format_fixed(d.acceleration, 2) + " outside " + range_text(accel_min, accel_max));
+    if (!trajectory.empty()) {
+      if (!d.non_cartesian()) {
+        out.push_back("Cartesian mask '" + d.pattern + "' (trained on a " + trajectory + " trajectory)");
+      } else {
+        const std::string kind(to_string(d.trajectory->kind));
+        if (kind != trajectory) out.push_back("trajectory " + kind + " (trained on " + trajectory + ")");
+        const int readouts = static_cast<int>(d.trajectory->readouts);
+        if (readouts < readouts_min || readouts > readouts_max)
+          out.push_back("readouts " + std::to_string(readouts) + " outside " + range_text(readouts_min, readouts_max));
+      }
+    } else {
+      if (d.non_cartesian())
+        out.push_back("non-Cartesian " + std::string(to_string(d.trajectory->kind)) + " trajectory (trained on "
+                      "Cartesian masks " + join(patterns) + ")");
+      else if (std::find(patterns.begin(), patterns.end(), d.pattern) == patterns.end())
+        out.push_back("pattern '" + d.pattern + "' not in [" + join(patterns) + "]");
+      if (!within(d.acceleration, accel_min, accel_max))
+        out.push_back("acceleration " + format_fixed(d.acceleration, 2) + " outside " + range_text(accel_min, accel_max));
+    }
     if (!within(d.noise_sigma, noise_min, noise_max))
       out.push_back("noise sigma " + num(d.noise_sigma) + " outside " + range_text(noise_min, noise_max));
     const int coils = d.kspace.shape.rank() == 3 ? static_cast<int>(d.kspace.shape[0]) : 1;

@@ -8,11 +8,13 @@
 
 #include "recofold/acquire/ct_simulation.h"
 #include "recofold/acquire/mri.h"
+#include "recofold/acquire/mri_trajectory.h"
 #include "recofold/core/error.h"
 #include "recofold/core/rng.h"
 #include "recofold/phantom/family.h"
 #include "recofold/phantom/raster.h"
 #include "recofold/sampling/mask.h"
+#include "recofold/sampling/trajectory.h"
 
 namespace recofold {
 
@@ -68,7 +70,25 @@ Measurement draw_training_example(const TrainingConditions& c, uint64_t seed, ui
   const bool analytic = c.truth == "analytic";
 
   Measurement m;
-  if (c.modality == Modality::kMri) {
+  if (c.modality == Modality::kMri && !c.trajectory.empty()) {
+    // Non-Cartesian: exact samples at the trajectory's points, rotated by a random first angle.
+    TrajectoryOptions to;
+    to.kind = *parse_trajectory_kind(c.trajectory);
+    to.ny = c.ny;
+    to.nx = c.nx;
+    const int readouts = pick_int(c.readouts_min, c.readouts_max, rng);
+    if (to.kind == TrajectoryKind::kSpiral) to.interleaves = readouts;
+    else to.spokes = readouts;
+    to.first_angle_deg = rng.uniform(0.0, 360.0);
+    to.fov_mm = c.fov_mm;
+    const Trajectory t = make_trajectory(to);
+    MriSimulationOptions so;
+    so.coil_array.coils = pick_int(c.coils_min, c.coils_max, rng);
+    so.truth = analytic ? MriTruth::kAnalytic : MriTruth::kDiscrete;
+    so.noise_sigma = rng.uniform(c.noise_min, c.noise_max);
+    so.seed = rng.next_u64();
+    m = simulate_mri_trajectory_measurement(analytic ? &object : nullptr, image, pixel_mm, t, so);
+  } else if (c.modality == Modality::kMri) {
     MaskOptions mo;
     mo.pattern = *parse_mask_pattern(pick(c.patterns, rng));
     mo.ny = c.ny;

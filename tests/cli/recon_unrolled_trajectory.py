@@ -7,8 +7,11 @@
 # runs, gives a finite image of the object and warns that the measurement lies
 # outside the training conditions (non-Cartesian); in a study with a
 # trajectory axis the unrolled rows run, are not inside training conditions,
-# and outside_training names the trajectory. A model with dc 'replace' is
-# refused on trajectories (exit 2 naming /mri/trajectory).
+# and outside_training names the trajectory. A model trained on the
+# trajectory itself ([data] trajectory, readouts) sees the radial measurement
+# inside its conditions and a Cartesian one outside; bad trajectory keys in a
+# training config exit 2. A model with dc 'replace' is refused on
+# trajectories (exit 2 naming /mri/trajectory).
 import csv
 import os
 import sys
@@ -75,10 +78,10 @@ with tempfile.TemporaryDirectory() as d:
     check(out.returncode == 0, f"recon --method unrolled of a radial measurement exits 0 ({out.stderr.strip()[-300:]})")
     check("outside the training conditions" in out.stderr and "non-Cartesian" in out.stderr,
           f"it warns that the measurement is outside the training conditions: {out.stderr.strip()[-300:]}")
+    with h5py.File(os.path.join(d, "p.h5"), "r") as f:
+        truth = np.abs(f["/image"][()])
+    truth = truth.reshape(truth.shape[-2:])
     if out.returncode == 0:
-        with h5py.File(os.path.join(d, "p.h5"), "r") as f:
-            truth = np.abs(f["/image"][()])
-        truth = truth.reshape(truth.shape[-2:])
         u, g = magnitude(os.path.join(d, "u.h5")), magnitude(os.path.join(d, "grid.h5"))
         print(f"PSNR on 24 golden-angle spokes: gridding {psnr(truth, g):.2f} dB, unrolled (Cartesian-trained) "
               f"{psnr(truth, u):.2f} dB")
@@ -97,6 +100,37 @@ with tempfile.TemporaryDirectory() as d:
     check(len(radial) == 1 and radial[0]["in_training_conditions"] == "no" and
           "non-Cartesian" in radial[0]["outside_training"],
           f"study: the radial row is outside training and says so ({[r['outside_training'] for r in radial]})")
+
+    # Trained on the trajectory itself ([data] trajectory, readouts): the radial measurement is inside its
+    # conditions, a Cartesian one outside; trajectory with patterns or accel, or readouts alone, is refused.
+    traj_cfg = tiny_unrolled_training().replace("steps = 2\n", "steps = 20\n").replace(
+        "accel = 2.0\n", 'trajectory = "radial-golden"\nreadouts = [20, 28]\n')
+    open(os.path.join(d, "traj.toml"), "w").write(traj_cfg)
+    must_succeed(EXE, ["--threads", "2", "train", "--config", "traj.toml", "--out", "mt.h5"], d, check)
+    out = recofold(EXE, ["recon", "--meas", "meas.h5", "--method", "unrolled", "--model", "mt.h5", "--out", "ut.h5"],
+                   d, quiet=False)
+    check(out.returncode == 0 and "non-Cartesian" not in out.stderr and "trajectory" not in out.stderr,
+          f"a radial-trained model on 24 spokes: no trajectory warning ({out.stderr.strip()[-250:]})")
+    if out.returncode == 0:
+        ut = magnitude(os.path.join(d, "ut.h5"))
+        print(f"PSNR on 24 golden-angle spokes: unrolled trained on radial-golden 20..28 spokes {psnr(truth, ut):.2f} dB")
+        check(np.all(np.isfinite(ut)) and psnr(truth, ut) > 12.0, f"radial-trained unrolled image shows the object "
+                                                                    f"(PSNR {psnr(truth, ut):.2f} dB)")
+    must_succeed(EXE, ["simulate", "--phantom", "p.h5", "--modality", "mri", "--noise", "0.01", "--out", "cart.h5"],
+                 d, check)
+    out = recofold(EXE, ["recon", "--meas", "cart.h5", "--method", "unrolled", "--model", "mt.h5", "--out", "uc.h5"],
+                   d, quiet=False)
+    check(out.returncode == 0 and "Cartesian mask" in out.stderr and "trained on a radial-golden trajectory" in out.stderr,
+          f"a radial-trained model on Cartesian data warns so ({out.stderr.strip()[-250:]})")
+    for name, text, words in (
+        ("trajectory with accel", traj_cfg.replace("readouts", "accel = 2.0\nreadouts"), ["accel", "trajectory"]),
+        ("readouts without trajectory", tiny_unrolled_training().replace("accel = 2.0\n", "accel = 2.0\nreadouts = 8\n"),
+         ["readouts", "trajectory"]),
+        ("trajectory zigzag", traj_cfg.replace('"radial-golden"', '"zigzag"'), ["trajectory", "zigzag"]),
+    ):
+        open(os.path.join(d, "badt.toml"), "w").write(text)
+        bad_input_case(name, lambda: recofold(EXE, ["train", "--config", "badt.toml", "--out", "bad.h5"], d), words, d,
+                       check.failures)
 
     # dc 'replace' overwrites Cartesian samples: refused on a trajectory.
     open(os.path.join(d, "rep.toml"), "w").write(

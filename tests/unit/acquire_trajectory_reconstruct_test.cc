@@ -103,10 +103,7 @@ TEST(TrajectoryReconstruct, CartesianOnlyPathsAreRefusedByField) {
   ReconSpec fbp;
   fbp.method = Method::kFbp;
   expect_field([&] { reconstruct(m, fbp); }, "method", "fbp");
-  ReconSpec unrolled;
-  unrolled.method = Method::kUnrolled;
-  unrolled.model = "model.pt";
-  expect_field([&] { reconstruct(m, unrolled); }, "method", "non-Cartesian");
+  // (unrolled runs on trajectories: its DC steps use the SENSE-NUFFT; tests/cli/recon_unrolled_trajectory.py)
   ReconSpec estimated;
   estimated.method = Method::kZeroFilled;
   estimated.maps = CoilMapSource::kEstimated;

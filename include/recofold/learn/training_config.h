@@ -41,6 +41,12 @@ struct TrainingConditions {
   double center_fraction = 0.08;                     // "center": fully sampled centre rows fraction [0, 0.5]
   double noise_min = 0.01, noise_max = 0.01;         // "noise": complex noise sigma per real/imag part (object max ~1)
   int coils_min = 1, coils_max = 1;                  // "coils": synthetic receive coils (1..32)
+  // Non-Cartesian training: "trajectory" = radial | radial-golden | spiral ("" = the Cartesian
+  // masks of "patterns"); "readouts" = spokes (radial) or interleaves (spiral), N or [min, max],
+  // readout length and spiral hardware limits the defaults of sampling/trajectory.h. patterns and
+  // accel do not apply then (a trajectory's R is ny nx / its samples).
+  std::string trajectory;
+  int readouts_min = 0, readouts_max = 0;
   // CT (parallel beam, equally spaced views over the arc).
   int views_min = 30, views_max = 30;                // "views" (2..2000)
   double arc_deg = 180.0;                            // "arc" (0, 360]
