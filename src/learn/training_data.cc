@@ -50,6 +50,16 @@ Rng conditions_stream(uint64_t seed, uint64_t index) {
   return Rng::for_stream(seed ^ kConditionsStream, index);
 }
 
+// Coils, noise and the noise seed of an MRI example (drawn after its sampling, in this order).
+MriSimulationOptions draw_mri_options(const TrainingConditions& c, bool analytic, Rng& rng) {
+  MriSimulationOptions so;
+  so.coil_array.coils = pick_int(c.coils_min, c.coils_max, rng);
+  so.truth = analytic ? MriTruth::kAnalytic : MriTruth::kDiscrete;
+  so.noise_sigma = rng.uniform(c.noise_min, c.noise_max);
+  so.seed = rng.next_u64();
+  return so;
+}
+
 }  // namespace
 
 ImageF draw_training_object(const TrainingConditions& c, uint64_t seed, uint64_t index) {
@@ -82,11 +92,7 @@ Measurement draw_training_example(const TrainingConditions& c, uint64_t seed, ui
     to.first_angle_deg = rng.uniform(0.0, 360.0);
     to.fov_mm = c.fov_mm;
     const Trajectory t = make_trajectory(to);
-    MriSimulationOptions so;
-    so.coil_array.coils = pick_int(c.coils_min, c.coils_max, rng);
-    so.truth = analytic ? MriTruth::kAnalytic : MriTruth::kDiscrete;
-    so.noise_sigma = rng.uniform(c.noise_min, c.noise_max);
-    so.seed = rng.next_u64();
+    const MriSimulationOptions so = draw_mri_options(c, analytic, rng);
     m = simulate_mri_trajectory_measurement(analytic ? &object : nullptr, image, pixel_mm, t, so);
   } else if (c.modality == Modality::kMri) {
     MaskOptions mo;
@@ -97,11 +103,7 @@ Measurement draw_training_example(const TrainingConditions& c, uint64_t seed, ui
     mo.center_fraction = c.center_fraction;
     mo.seed = rng.next_u64();
     const SamplingMask mask = make_mask(mo);
-    MriSimulationOptions so;
-    so.coil_array.coils = pick_int(c.coils_min, c.coils_max, rng);
-    so.truth = analytic ? MriTruth::kAnalytic : MriTruth::kDiscrete;
-    so.noise_sigma = rng.uniform(c.noise_min, c.noise_max);
-    so.seed = rng.next_u64();
+    const MriSimulationOptions so = draw_mri_options(c, analytic, rng);
     m = simulate_mri(analytic ? &object : nullptr, image, pixel_mm, mask, so);
   } else {
     const int views = pick_int(c.views_min, c.views_max, rng);
