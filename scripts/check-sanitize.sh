@@ -20,7 +20,9 @@ export UBSAN_OPTIONS="log_path=$logs/ubsan:print_stacktrace=1:halt_on_error=1"
 # print_suppressions=0 so a suppressed leak leaves no report file behind.
 export LSAN_OPTIONS="suppressions=$src/scripts/sanitizer/lsan.supp:print_suppressions=0"
 status=0
+t0=$SECONDS
 (cd "$build" && ctest --output-on-failure -j"$jobs") || status=$?
+echo "check-sanitize: tests ran in $((SECONDS - t0)) s"
 reports=$(find "$logs" -type f | sort)
 if [ -n "$reports" ]; then
   echo "check-sanitize: $(echo "$reports" | wc -l) sanitizer report(s):"
