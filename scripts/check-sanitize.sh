@@ -13,6 +13,13 @@ build=$(cd "$1" && pwd)
 jobs=${2:-2}
 logs="$build/sanitizer-logs"
 rm -rf "$logs"
+# A build without the sanitizer runtimes would pass with "zero findings".
+for lib in libasan libubsan; do
+  if ! ldd "$build/recofold" | grep -q "$lib"; then
+    echo "check-sanitize: $build/recofold is not linked with $lib (configure with -DRECOFOLD_SANITIZE=address,undefined)"
+    exit 1
+  fi
+done
 mkdir -p "$logs"
 export ASAN_OPTIONS="log_path=$logs/asan:detect_leaks=1:check_initialization_order=1:strict_init_order=1:detect_stack_use_after_return=1"
 export UBSAN_OPTIONS="log_path=$logs/ubsan:print_stacktrace=1:halt_on_error=1"
