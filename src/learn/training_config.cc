@@ -253,6 +253,9 @@ TrainingConditions TrainingConditions::from_config(const Config& t) {
   double lo = double(c.ny), hi = double(c.nx);
   read_range(t, "size", lo, hi);
   if (lo != std::floor(lo) || hi != std::floor(hi)) throw t.error("size", "must be whole numbers");
+  // Bounded before the conversion (a larger double does not fit an Index); the
+  // checks of the conditions then give the exact range.
+  if (lo < 8 || lo > 4096 || hi < 8 || hi > 4096) throw t.error("size", "each side must be in 8..4096");
   c.ny = static_cast<Index>(lo);
   c.nx = static_cast<Index>(hi);
   c.families = read_names(t, "families", c.families);
