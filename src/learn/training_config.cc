@@ -45,6 +45,8 @@ void read_int_range(const Config& t, const std::string& key, int& lo, int& hi) {
   double a = lo, b = hi;
   read_range(t, key, a, b);
   if (a != std::floor(a) || b != std::floor(b)) throw t.error(key, "must be whole numbers");
+  // Bounded before the conversion (a larger double does not fit an int).
+  if (std::fabs(a) > 1e9 || std::fabs(b) > 1e9) throw t.error(key, "must be whole numbers in -1e9..1e9");
   lo = static_cast<int>(a);
   hi = static_cast<int>(b);
 }
