@@ -1,5 +1,6 @@
 # SPDX-License-Identifier: Apache-2.0
 # Helpers shared by the module CMakeLists files.
+include(RecofoldGccObjects)
 
 # Warnings for our own targets (not for third-party headers, which are SYSTEM).
 function(recofold_warnings target)
@@ -95,7 +96,10 @@ function(recofold_glob_module)
     endif()
   endforeach()
   set(M_TEST_LIBS ${_test_libs})
+  # Fuzz build: files including ITK headers are compiled by g++ (RecofoldGccObjects.cmake).
+  recofold_split_gcc_sources(_src)
   recofold_module(NAME ${M_NAME} SOURCES ${_src} DEPS ${M_DEPS} PRIVATE_DEPS ${M_PRIVATE_DEPS})
+  recofold_add_gcc_objects(TARGET recofold_${M_NAME} SOURCES ${RECOFOLD_GCC_SOURCES})
   if(NOT RECOFOLD_BUILD_TESTS)
     return()
   endif()

@@ -134,6 +134,39 @@ float nifti_float(const std::string& h, size_t off, bool swap) {
   return f;
 }
 
+// pixdim (bytes 76..107) and the quaternion, offsets and affine rows (256..327)
+// of a NIfTI-1 header: ITK's NIfTI reader aborts the process (a failed
+// finiteness assertion in its SVD) on a non-finite orientation, so they are
+// checked first; |value| <= 1e6 keeps the matrices it builds finite.
+void check_nifti_geometry(const std::string& path, const std::string& h, bool swap) {
+  for (size_t off : {size_t(76), size_t(256)}) {
+    const size_t end = off == 76 ? 108 : 328;
+    for (size_t o = off; o < end; o += 4) {
+      const float v = nifti_float(h, o, swap);
+      if (!std::isfinite(v) || std::fabs(v) > 1e6f)
+        throw InputError(path, "", "the NIfTI header has an invalid voxel size or orientation (non-finite or beyond 1e6)");
+    }
+  }
+}
+
+// Run before ITK reads the header: the first 348 bytes of a .nii or .nii.gz.
+void check_nifti_geometry(const std::string& path, bool gz) {
+  std::string h;
+  if (gz) {
+    h.assign(352, '\0');
+    gzFile f = gzopen(path.c_str(), "rb");
+    const int got = f ? gzread(f, h.data(), 352) : -1;
+    if (f) gzclose(f);
+    if (got < 348) return;  // ITK's reader refuses it
+  } else {
+    h = read_prefix(path, 352);
+    if (h.size() < 348) return;
+  }
+  int32_t sizeof_hdr;
+  std::memcpy(&sizeof_hdr, h.data(), 4);
+  check_nifti_geometry(path, h, sizeof_hdr != 348);
+}
+
 void check_nifti_length(const std::string& path, bool gz, uint64_t need) {
   std::string data;
   uint64_t total = 0;
@@ -337,6 +370,7 @@ PlainImage itk_read(const std::string& path, const std::string& ext, const Heade
   try {
     if (!io->CanReadFile(path.c_str())) throw InputError(path, "", "is not a readable " + ext + " file");
     io->SetFileName(path);
+    if (ext == ".nii" || ext == ".nii.gz") check_nifti_geometry(path, ext == ".nii.gz");
     io->ReadImageInformation();
     dims = io->GetNumberOfDimensions();
     if (dims < 2 || dims > 3)

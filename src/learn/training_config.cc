@@ -46,6 +46,8 @@ void read_int_range(const Config& t, const std::string& key, int& lo, int& hi) {
   double a = lo, b = hi;
   read_range(t, key, a, b);
   if (a != std::floor(a) || b != std::floor(b)) throw t.error(key, "must be whole numbers");
+  // Bounded before the conversion (a larger double does not fit an int).
+  if (std::fabs(a) > 1e9 || std::fabs(b) > 1e9) throw t.error(key, "must be whole numbers in -1e9..1e9");
   lo = static_cast<int>(a);
   hi = static_cast<int>(b);
 }
@@ -276,6 +278,9 @@ TrainingConditions TrainingConditions::from_config(const Config& t) {
   double lo = double(c.ny), hi = double(c.nx);
   read_range(t, "size", lo, hi);
   if (lo != std::floor(lo) || hi != std::floor(hi)) throw t.error("size", "must be whole numbers");
+  // Bounded before the conversion (a larger double does not fit an Index); the
+  // checks of the conditions then give the exact range.
+  if (lo < 8 || lo > 4096 || hi < 8 || hi > 4096) throw t.error("size", "each side must be in 8..4096");
   c.ny = static_cast<Index>(lo);
   c.nx = static_cast<Index>(hi);
   c.families = read_names(t, "families", c.families);
