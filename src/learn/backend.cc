@@ -123,15 +123,7 @@ class LearnBackend final : public LearnedBackend {
   };
 
   FlowEntry& flow_entry(const std::string& path) const {
-    std::lock_guard<std::mutex> lock(mutex_);
-    auto it = flows_.find(path);
-    if (it == flows_.end()) {
-      if (!file_exists(path)) throw InputError(path, "model", "model file not found");
-      auto e = std::make_unique<FlowEntry>();
-      e->flow = std::make_unique<FlowModel>(FlowModel::load(path));
-      it = flows_.emplace(path, std::move(e)).first;
-    }
-    return *it->second;
+    return cached(flows_, path, [&](FlowEntry& e) { e.flow = std::make_unique<FlowModel>(FlowModel::load(path)); });
   }
 
   struct Entry {
@@ -142,14 +134,22 @@ class LearnBackend final : public LearnedBackend {
 
   // The model of `path`, loaded on first use (InputError naming the file when it is no model file).
   Entry& entry(const std::string& path) const {
+    return cached(models_, path, [&](Entry& e) {
+      e.model = std::make_unique<UnrolledModel>(UnrolledModel::load(path));
+      e.checksum = file_checksum(path);
+    });
+  }
+
+  // The entry of `path` in `cache`, filled by `load` on first use (InputError naming a missing file).
+  template <class E, class Load>
+  E& cached(std::map<std::string, std::unique_ptr<E>>& cache, const std::string& path, const Load& load) const {
     std::lock_guard<std::mutex> lock(mutex_);
-    auto it = models_.find(path);
-    if (it == models_.end()) {
+    auto it = cache.find(path);
+    if (it == cache.end()) {
       if (!file_exists(path)) throw InputError(path, "model", "model file not found");
-      auto e = std::make_unique<Entry>();
-      e->model = std::make_unique<UnrolledModel>(UnrolledModel::load(path));
-      e->checksum = file_checksum(path);
-      it = models_.emplace(path, std::move(e)).first;
+      auto e = std::make_unique<E>();
+      load(*e);
+      it = cache.emplace(path, std::move(e)).first;
     }
     return *it->second;
   }

@@ -64,6 +64,19 @@ checkpoint_every = 1000
 """ + (extra_train.strip() + "\n" if extra_train else "")
 
 
+def tiny_flow_training(src, steps=100):
+    """configs/train-mri-flow.toml shrunk to a 16x16 flow (2 scales x 2 couplings, width 8) trained `steps`
+    steps: seconds, for tests that need a flow rather than a good one."""
+    import re
+    cfg = open(os.path.join(src, "configs", "train-mri-flow.toml")).read()
+    for key, value in (("size", "16"), ("scales", "2"), ("couplings", "2"), ("width", "8"), ("steps", str(steps)),
+                       ("batch", "8"), ("validation_count", "8"), ("validation_every", "50"),
+                       ("checkpoint_every", "50"), ("max_minutes", "5")):
+        cfg, n = re.subn(rf"(?m)^{key} = \S+", f"{key} = {value}", cfg)
+        assert n == 1, key
+    return cfg
+
+
 def launcher_free_env(extra=None):
     """This process's environment without MPI launcher and job-array variables (so a test
     decides what the command sees), plus `extra`."""

@@ -10,7 +10,6 @@
 # is no flow or has another grid -> exit 2 naming the flag or file.
 import csv
 import os
-import re
 import sys
 import tempfile
 
@@ -18,7 +17,7 @@ import h5py
 import numpy as np
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from _harness import Checks, bad_input_case, must_succeed, recofold  # noqa: E402
+from _harness import Checks, bad_input_case, must_succeed, recofold, tiny_flow_training  # noqa: E402
 
 EXE = os.environ["RECOFOLD_EXE"]
 SRC = os.environ["RECOFOLD_SOURCE_DIR"]
@@ -38,12 +37,7 @@ def image(path):
 
 
 with tempfile.TemporaryDirectory() as d:
-    cfg = open(os.path.join(SRC, "configs", "train-mri-flow.toml")).read()
-    for key, value in (("size", "16"), ("scales", "2"), ("couplings", "2"), ("width", "8"), ("steps", "150"),
-                       ("batch", "8"), ("validation_count", "8"), ("validation_every", "50"),
-                       ("checkpoint_every", "50"), ("max_minutes", "5")):
-        cfg, n = re.subn(rf"(?m)^{key} = \S+", f"{key} = {value}", cfg)
-        assert n == 1, key
+    cfg = tiny_flow_training(SRC, steps=150)
     open(os.path.join(d, "flow.toml"), "w").write(cfg)
     must_succeed(EXE, ["--threads", "2", "train", "--config", "flow.toml", "--out", "flow.h5"], d, check)
     # Held-out objects of the training family (training drew seed 1; these come from seed 900).

@@ -8,13 +8,15 @@
 # --reference and no --model -> exit 2 naming the file or flag.
 import json
 import os
-import re
 import subprocess
 import sys
 import tempfile
 
 import nibabel as nib
 import numpy as np
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from _harness import tiny_flow_training  # noqa: E402
 
 EXE = os.environ["RECOFOLD_EXE"]
 SRC = os.environ["RECOFOLD_SOURCE_DIR"]
@@ -38,12 +40,7 @@ def bits(image, cwd, index=0):
 
 
 with tempfile.TemporaryDirectory() as d:
-    cfg = open(os.path.join(SRC, "configs", "train-mri-flow.toml")).read()
-    for key, value in (("size", "16"), ("scales", "2"), ("couplings", "2"), ("width", "8"), ("steps", "100"),
-                       ("batch", "8"), ("validation_count", "8"), ("validation_every", "50"),
-                       ("checkpoint_every", "50"), ("max_minutes", "5")):
-        cfg, n = re.subn(rf"(?m)^{key} = \S+", f"{key} = {value}", cfg)
-        assert n == 1, key
+    cfg = tiny_flow_training(SRC, steps=100)
     open(os.path.join(d, "flow.toml"), "w").write(cfg)
     out = run(["train", "--config", "flow.toml", "--out", "flow.h5"], d)
     if out.returncode != 0:
