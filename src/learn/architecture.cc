@@ -63,8 +63,6 @@ std::vector<std::string> UnrolledArchitecture::validate() const {
   auto bad = [&](const std::string& field, const std::string& value, const std::string& rule) {
     e.push_back("model." + field + " = " + value + "; " + rule);
   };
-  if (modality != Modality::kMri && modality != Modality::kCt)
-    bad("modality", std::string(to_string(modality)), "must be mri or ct");
   if (ny < 8 || nx < 8 || ny > 4096 || nx > 4096)
     bad("size", std::to_string(ny) + "x" + std::to_string(nx), "each side must be in 8..4096");
   if (iterations < 1 || iterations > 50) bad("iterations", std::to_string(iterations), "must be in 1..50");
@@ -159,7 +157,7 @@ UnrolledArchitecture UnrolledArchitecture::from_json(const std::string& json, co
     if (key == "modality") {
       need(key, v, JsonValue::Kind::kString, "a string");
       const auto parsed = parse_modality(v.text);
-      if (!parsed) throw InputError(file, field, "key 'modality' = '" + v.text + "'; expected mri or ct");
+      if (!parsed) throw InputError(file, field, "key 'modality' = '" + v.text + "'; expected mri, ct, denoise or inpaint");
       a.modality = *parsed;
     } else if (key == "ny") {
       a.ny = integer(key, v);

@@ -12,6 +12,7 @@
 #include "recofold/core/number_format.h"
 #include "recofold/io/h5_file.h"
 #include "recofold/phantom/family.h"
+#include "recofold/acquire/image_problem.h"
 #include "recofold/core/trajectory.h"
 #include "recofold/sampling/mask.h"
 
@@ -75,6 +76,24 @@ bool within(double v, double lo, double hi) {
 
 std::string range_text(double lo, double hi) { return "[" + num(lo) + ", " + num(hi) + "]"; }
 
+// Keys of the [data] table that belong to another modality: an error naming
+// the key, not a silently ignored setting.
+void refuse_foreign_keys(const Config& t, Modality modality) {
+  std::vector<std::string> own = {"modality", "size", "families", "fov_mm", "truth"};
+  switch (modality) {
+    case Modality::kMri:
+      own.insert(own.end(), {"patterns", "accel", "center", "noise", "coils", "trajectory", "readouts"});
+      break;
+    case Modality::kCt: own.insert(own.end(), {"views", "arc", "photons", "mu"}); break;
+    case Modality::kDenoise: own.insert(own.end(), {"noise"}); break;
+    case Modality::kInpaint: own.insert(own.end(), {"noise", "patterns", "keep"}); break;
+  }
+  for (const char* k : {"patterns", "accel", "center", "noise", "coils", "trajectory", "readouts", "views", "arc",
+                        "photons", "mu", "keep"})
+    if (t.has(k) && std::find(own.begin(), own.end(), k) == own.end())
+      throw t.error(k, "does not apply to modality " + std::string(to_string(modality)));
+}
+
 }  // namespace
 
 std::vector<std::string> TrainingConditions::validate() const {
@@ -82,8 +101,7 @@ std::vector<std::string> TrainingConditions::validate() const {
   auto bad = [&](const std::string& k, const std::string& v, const std::string& rule) {
     e.push_back("data." + k + " = " + v + "; " + rule);
   };
-  if (modality != Modality::kMri && modality != Modality::kCt)
-    bad("modality", std::string(to_string(modality)), "must be mri or ct");
+  const bool image_problem = modality == Modality::kDenoise || modality == Modality::kInpaint;
   if (ny < 8 || nx < 8 || ny > 4096 || nx > 4096)
     bad("size", std::to_string(ny) + "x" + std::to_string(nx), "each side must be in 8..4096");
   if (families.empty()) bad("families", "[]", "must name at least one family");
@@ -108,6 +126,16 @@ std::vector<std::string> TrainingConditions::validate() const {
     if (!(center_fraction >= 0 && center_fraction <= 0.5)) bad("center", num(center_fraction), "must be in [0, 0.5]");
     if (!(noise_min >= 0 && std::isfinite(noise_max))) bad("noise", range_text(noise_min, noise_max), "must be >= 0");
     if (coils_min < 1 || coils_max > 32) bad("coils", range_text(coils_min, coils_max), "must lie in 1..32");
+  } else if (image_problem) {
+    if (!(noise_min >= 0 && std::isfinite(noise_max))) bad("noise", range_text(noise_min, noise_max), "must be >= 0");
+    if (modality == Modality::kInpaint) {
+      if (patterns.empty()) bad("patterns", "[]", "must name at least one pattern");
+      for (const auto& p : patterns)
+        if (!parse_pixel_pattern(p)) bad("patterns", p, "must be random or blocks");
+      if (!(keep_min > 0 && keep_max <= 1)) bad("keep", range_text(keep_min, keep_max), "must lie in (0, 1]");
+    }
+    if (truth != "discrete")
+      bad("truth", truth, std::string(to_string(modality)) + " observes the pixels themselves: must be discrete");
   } else {
     if (views_min < 2 || views_max > 2000) bad("views", range_text(views_min, views_max), "must lie in 2..2000");
     if (!(arc_deg > 0 && arc_deg <= 360)) bad("arc", num(arc_deg), "must be in (0, 360]");
@@ -137,6 +165,12 @@ std::string TrainingConditions::to_json() const {
     if (!trajectory.empty()) {
       w.add("trajectory", trajectory);
       w.add("readouts", std::vector<double>{double(readouts_min), double(readouts_max)});
+    }
+  } else if (modality == Modality::kDenoise || modality == Modality::kInpaint) {
+    w.add("noise", std::vector<double>{noise_min, noise_max});
+    if (modality == Modality::kInpaint) {
+      w.add("patterns", patterns);
+      w.add("keep", std::vector<double>{keep_min, keep_max});
     }
   } else {
     w.add("views", std::vector<double>{double(views_min), double(views_max)});
@@ -191,7 +225,7 @@ TrainingConditions TrainingConditions::from_json(const std::string& json, const 
     if (k == "modality") {
       if (v.kind != JsonValue::Kind::kString) throw InputError(file, field, "key 'modality' must be a string");
       const auto parsed = parse_modality(v.text);
-      if (!parsed) throw InputError(file, field, "key 'modality' = '" + v.text + "'; expected mri or ct");
+      if (!parsed) throw InputError(file, field, "key 'modality' = '" + v.text + "'; expected mri, ct, denoise or inpaint");
       c.modality = *parsed;
     } else if (k == "ny") {
       c.ny = static_cast<Index>(number(k, v));
@@ -207,6 +241,8 @@ TrainingConditions TrainingConditions::from_json(const std::string& json, const 
       c.center_fraction = number(k, v);
     } else if (k == "noise") {
       pair(k, v, c.noise_min, c.noise_max);
+    } else if (k == "keep") {
+      pair(k, v, c.keep_min, c.keep_max);
     } else if (k == "coils") {
       pair(k, v, a, b);
       c.coils_min = static_cast<int>(a);
@@ -267,14 +303,18 @@ TrainingConditions TrainingConditions::from_json(const std::string& json, const 
 
 TrainingConditions TrainingConditions::from_config(const Config& t) {
   t.expect_only({"modality", "size", "families", "patterns", "accel", "center", "noise", "coils", "trajectory",
-                 "readouts", "views", "arc", "photons", "mu", "fov_mm", "truth"});
+                 "readouts", "views", "arc", "photons", "mu", "fov_mm", "truth", "keep"});
   TrainingConditions c;
   const std::string modality = t.get_string("modality");
   const auto parsed = parse_modality(modality);
-  if (!parsed || (*parsed != Modality::kMri && *parsed != Modality::kCt))
-    throw t.error("modality", "'" + modality + "' must be mri or ct");
+  if (!parsed) throw t.error("modality", "'" + modality + "' must be mri, ct, denoise or inpaint");
   c.modality = *parsed;
+  refuse_foreign_keys(t, c.modality);
   if (c.modality == Modality::kCt) c.families = {"ellipses"};
+  if (c.modality == Modality::kDenoise || c.modality == Modality::kInpaint) {
+    c.truth = "discrete";
+    c.patterns = {"random"};
+  }
   double lo = double(c.ny), hi = double(c.nx);
   read_range(t, "size", lo, hi);
   if (lo != std::floor(lo) || hi != std::floor(hi)) throw t.error("size", "must be whole numbers");
@@ -288,6 +328,7 @@ TrainingConditions TrainingConditions::from_config(const Config& t) {
   read_range(t, "accel", c.accel_min, c.accel_max);
   c.center_fraction = t.get_double_or("center", c.center_fraction);
   read_range(t, "noise", c.noise_min, c.noise_max);
+  read_range(t, "keep", c.keep_min, c.keep_max);
   read_int_range(t, "coils", c.coils_min, c.coils_max);
   c.trajectory = t.get_string_or("trajectory", "");
   if (!c.trajectory.empty() && (t.has("patterns") || t.has("accel")))
@@ -332,6 +373,16 @@ std::string TrainingConditions::outside(const Measurement& m) const {
     const int coils = d.kspace.shape.rank() == 3 ? static_cast<int>(d.kspace.shape[0]) : 1;
     if (coils < coils_min || coils > coils_max)
       out.push_back("coils " + std::to_string(coils) + " outside " + range_text(coils_min, coils_max));
+  } else if (m.image) {
+    const ImageProblemData& d = *m.image;
+    if (!within(d.noise_sigma, noise_min, noise_max))
+      out.push_back("noise sigma " + num(d.noise_sigma) + " outside " + range_text(noise_min, noise_max));
+    if (m.modality == Modality::kInpaint) {
+      if (std::find(patterns.begin(), patterns.end(), d.pattern) == patterns.end())
+        out.push_back("pixel pattern '" + d.pattern + "' not in [" + join(patterns) + "]");
+      if (!within(d.kept_fraction, keep_min, keep_max))
+        out.push_back("kept fraction " + format_fixed(d.kept_fraction, 3) + " outside " + range_text(keep_min, keep_max));
+    }
   } else if (m.ct) {
     const CtData& d = *m.ct;
     const int views = static_cast<int>(d.angles_rad.size());

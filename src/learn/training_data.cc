@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "recofold/acquire/ct_simulation.h"
+#include "recofold/acquire/image_problem.h"
 #include "recofold/acquire/mri.h"
 #include "recofold/acquire/mri_trajectory.h"
 #include "recofold/core/error.h"
@@ -105,6 +106,16 @@ Measurement draw_training_example(const TrainingConditions& c, uint64_t seed, ui
     const SamplingMask mask = make_mask(mo);
     const MriSimulationOptions so = draw_mri_options(c, analytic, rng);
     m = simulate_mri(analytic ? &object : nullptr, image, pixel_mm, mask, so);
+  } else if (c.modality == Modality::kDenoise || c.modality == Modality::kInpaint) {
+    // The raster itself plus white Gaussian noise (inpaint: on a drawn subset of pixels).
+    ImageProblemOptions po;
+    po.noise_sigma = rng.uniform(c.noise_min, c.noise_max);
+    if (c.modality == Modality::kInpaint) {
+      po.pattern = *parse_pixel_pattern(pick(c.patterns, rng));
+      po.keep = rng.uniform(c.keep_min, c.keep_max);
+    }
+    po.seed = rng.next_u64();
+    m = simulate_image_problem(c.modality, image, pixel_mm, po);
   } else {
     const int views = pick_int(c.views_min, c.views_max, rng);
     const double photons =

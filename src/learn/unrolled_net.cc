@@ -47,6 +47,12 @@ PreparedBatch prepare_batch(const std::vector<const Measurement*>& ms, const Unr
                                                    std::to_string(op->coils()) + " coils");
       data.push_back(kspace_vector(*m->mri));
       ops.push_back(std::move(op));
+    } else if (arch.modality == Modality::kDenoise || arch.modality == Modality::kInpaint) {
+      // y = M x + n on the image grid: the measurement's own forward model (identity or pixel mask).
+      if (!m->image) throw InputError(file, "/image", "missing the observed image");
+      ForwardModel fm = make_forward_model(*m, file);
+      data.push_back(std::move(fm.y));
+      ops.push_back(std::shared_ptr<const LinearOperator>(std::move(fm.op)));
     } else {
       if (!m->ct) throw InputError(file, "/ct", "missing CT data");
       ops.push_back(make_ct_operator(*m, file));

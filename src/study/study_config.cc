@@ -305,13 +305,11 @@ StudyMethod parse_method_table(const Config& t, int index, const std::string& ba
     const std::string mod = t.get_string("modality");
     const auto parsed = parse_modality(mod);
     if (!parsed) throw t.error("modality", "'" + mod + "'; expected mri, ct, denoise or inpaint");
-    if (s.method == Method::kUnrolled && *parsed != Modality::kMri && *parsed != Modality::kCt)
-      throw t.error("modality", "'" + mod + "'; unrolled models are trained for mri or ct only");
     if (!runs_on(s.method, *parsed))
       throw t.error("modality", "method " + m.method_name() + " does not run on " + mod);
     m.modalities = {*parsed};
   } else if (s.method == Method::kUnrolled) {
-    throw t.error("modality", "missing; an unrolled method needs modality = \"mri\" or \"ct\"");
+    throw t.error("modality", "missing; an unrolled method needs modality = \"mri\", \"ct\", \"denoise\" or \"inpaint\"");
   } else {
     for (Modality mod : all_modalities())
       if (runs_on(s.method, mod)) m.modalities.push_back(mod);

@@ -32,14 +32,17 @@ struct SeedRange {
 // uniformly from min..max. In TOML a range is a number (min = max) or a
 // two-element list [min, max].
 struct TrainingConditions {
-  Modality modality = Modality::kMri;  // mri | ct
+  Modality modality = Modality::kMri;  // mri | ct | denoise | inpaint
   Index ny = 64, nx = 64;             // "size" = N or [ny, nx]
   std::vector<std::string> families = {"textured"};  // phantom families (family.h)
   // MRI.
-  std::vector<std::string> patterns = {"lines-vd"};  // mask patterns (sampling/mask.h)
+  // MRI: mask patterns (sampling/mask.h); inpaint: pixel patterns random | blocks (default random).
+  std::vector<std::string> patterns = {"lines-vd"};
   double accel_min = 4.0, accel_max = 4.0;           // "accel": acceleration R (1..32)
   double center_fraction = 0.08;                     // "center": fully sampled centre rows fraction [0, 0.5]
-  double noise_min = 0.01, noise_max = 0.01;         // "noise": complex noise sigma per real/imag part (object max ~1)
+  // "noise": MRI: complex noise sigma per real/imag part (object max ~1); denoise / inpaint: the
+  // Gaussian noise std per pixel in the object's intensity units.
+  double noise_min = 0.01, noise_max = 0.01;
   int coils_min = 1, coils_max = 1;                  // "coils": synthetic receive coils (1..32)
   // Non-Cartesian training: "trajectory" = radial | radial-golden | spiral ("" = the Cartesian
   // masks of "patterns"); "readouts" = spokes (radial) or interleaves (spiral), N or [min, max],
@@ -52,7 +55,11 @@ struct TrainingConditions {
   double arc_deg = 180.0;                            // "arc" (0, 360]
   double photons_min = 0.0, photons_max = 0.0;       // "photons": incident photons per ray; 0 = noiseless
   double mu_per_mm = 0.0;                            // "mu": attenuation per unit intensity, 1/mm; 0 = automatic
-  std::string truth = "analytic";                    // "truth": "analytic" (exact data) | "discrete" (A x of the raster)
+  // Inpaint: "keep", the fraction of pixels observed, in (0, 1].
+  double keep_min = 0.5, keep_max = 0.5;
+  // "truth": "analytic" (exact data) | "discrete" (A x of the raster); denoise and inpaint observe
+  // the raster itself (always "discrete").
+  std::string truth = "analytic";
   double fov_mm = 256.0;                             // "fov_mm": field of view (> 0)
   // Objects seen in training and validation (written by the trainers into
   // trained_on as "seeds": [{"use", "families", "seed", "first", "last"}, ...];
