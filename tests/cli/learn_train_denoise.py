@@ -116,7 +116,7 @@ family = "textured"
 count = 2
 seed = 700
 [denoise]
-noise = [0.1, 0.2]
+noise = [0.05, 0.1, 0.2]
 [[method]]
 method = "zero-filled"
 [[method]]
@@ -134,14 +134,25 @@ model = "dn.h5"
     res = os.path.join(d, "st", "results.csv")
     rows = list(csv.DictReader(open(res))) if os.path.exists(res) else []
     learned = [r for r in rows if r["method"] == "learned"]
-    check(len(rows) == 12 and len(learned) == 4 and all(r["error"] == "" for r in rows),
-          f"study: 12 rows, 4 learned, no error ({[(r['method'], r['error']) for r in rows]})")
+    check(len(rows) == 18 and len(learned) == 6 and all(r["error"] == "" for r in rows),
+          f"study: 18 rows, 6 learned, no error ({[(r['method'], r['error']) for r in rows]})")
     at = [r for r in learned if abs(float(r["noise"]) - 0.1) < 1e-9]
     off = [r for r in learned if abs(float(r["noise"]) - 0.2) < 1e-9]
     check(len(at) == 2 and all(r["outside_training"] == "" and r["in_training_conditions"] == "yes" for r in at),
           f"study: at sigma 0.1 the learned rows are inside ({[(r['outside_training'], r['in_training_conditions']) for r in at]})")
     check(len(off) == 2 and all("noise sigma 0.2" in r["outside_training"] for r in off),
           f"study: at sigma 0.2 they name the noise shift ({[r['outside_training'] for r in off]})")
+
+    # The report's robustness lines: a shift to less noise raises both scores (a gain to compare), more
+    # noise lowers them (a loss to compare).
+    rep = open(os.path.join(d, "st", "report.html")).read() if os.path.exists(os.path.join(d, "st", "report.html")) else ""
+    lines = [ln for ln in rep.splitlines() if ln.startswith("<li>") and "noise 0.1 &rarr; " in ln]
+    down = [ln for ln in lines if "&rarr; 0.05:" in ln]
+    up = [ln for ln in lines if "&rarr; 0.2:" in ln]
+    check(len(down) == 1 and " gains " in down[0] and "degrades" not in down[0],
+          f"report: the 0.1 -> 0.05 line compares gains: {down}")
+    check(len(up) == 1 and " degrades " in up[0] and "gains" not in up[0],
+          f"report: the 0.1 -> 0.2 line compares losses: {up}")
 
     # Bad input.
     for name, text, words in (
