@@ -162,17 +162,47 @@ uint64_t little_endian(const unsigned char* p, int bytes) {
   return v;
 }
 
-// Size of lengths of the superblock (HDF5 file format specification,
-// "Superblock": signature at 0, 512, 1024, ...; version 0/1 keep it in byte
-// 14, version 2/3 in byte 10). 0 when not found.
-int length_size(std::FILE* f) {
+// The superblock (HDF5 file format specification, "Superblock"): its
+// signature at byte 0, 512, 1024, ... (after a user block); false when not
+// found. `sb` receives its first 48 bytes, `at` its offset.
+bool read_superblock(std::FILE* f, unsigned char (&sb)[48], long& at) {
   static const unsigned char sig[8] = {0x89, 'H', 'D', 'F', '\r', '\n', 0x1a, '\n'};
-  unsigned char b[16];
-  for (long at = 0; at <= (1L << 24); at = at ? 2 * at : 512) {
-    if (std::fseek(f, at, SEEK_SET) != 0 || std::fread(b, 1, 16, f) != 16) return 0;
-    if (std::memcmp(b, sig, 8) == 0) return b[8] <= 1 ? b[14] : b[10];
+  for (at = 0; at <= (1L << 24); at = at ? 2 * at : 512) {
+    if (std::fseek(f, at, SEEK_SET) != 0 || std::fread(sb, 1, sizeof sb, f) != sizeof sb) return false;
+    if (std::memcmp(sb, sig, 8) == 0) return true;
   }
-  return 0;
+  return false;
+}
+
+// Size of lengths: byte 14 of superblock versions 0 and 1, byte 10 of 2 and 3.
+int length_size(std::FILE* f) {
+  unsigned char sb[48];
+  long at = 0;
+  if (!read_superblock(f, sb, at)) return 0;
+  return sb[8] <= 1 ? sb[14] : sb[10];
+}
+
+// The base and end-of-file addresses of the superblock (8-byte offsets;
+// versions 0/1: base at byte 24 or 28, the end of file 16 bytes later;
+// versions 2/3: base at 12, end of file at 28) against the file size. HDF5
+// 1.10.8 opens a file that is longer than that address and, when an object
+// lies beyond it, fails inside H5Fopen leaking what it had loaded (a fuzz
+// finding); a mismatch means a truncated or corrupt file anyway.
+void require_consistent_end_of_file(const std::string& path) {
+  std::unique_ptr<std::FILE, int (*)(std::FILE*)> f(std::fopen(path.c_str(), "rb"), std::fclose);
+  unsigned char sb[48];
+  long at = 0;
+  if (!f || !read_superblock(f.get(), sb, at) || sb[8] > 3) return;  // H5Fopen reports it
+  const bool old_layout = sb[8] <= 1;
+  if ((old_layout ? sb[13] : sb[9]) != 8) return;  // offsets of another size: not checked
+  const size_t base_at = sb[8] == 0 ? 24 : sb[8] == 1 ? 28 : 12;
+  const uint64_t base = little_endian(sb + base_at, 8), eof = little_endian(sb + base_at + 16, 8);
+  std::fseek(f.get(), 0, SEEK_END);
+  const uint64_t size = static_cast<uint64_t>(std::ftell(f.get()));
+  if (eof > size || base + eof != size)
+    throw InputError(path, "", "its superblock declares " + std::to_string(eof) + " bytes from byte " +
+                                   std::to_string(base) + ", but the file has " + std::to_string(size) +
+                                   " (truncated or corrupt)");
 }
 
 // True when walking the objects of the collection at `c` (`n` bytes from it
@@ -503,6 +533,7 @@ H5Reader::H5Reader(const std::string& path) : impl_(std::make_unique<Impl>()) {
   require_regular_file(path);
   const htri_t is_h5 = H5Fis_hdf5(path.c_str());
   if (is_h5 <= 0) throw InputError(path, "", "is not an HDF5 file (or cannot be read)");
+  require_consistent_end_of_file(path);
   Hid fapl(H5Pcreate(H5P_FILE_ACCESS), H5Pclose);
   H5Pset_fclose_degree(fapl.get(), H5F_CLOSE_STRONG);
   impl_->file = Hid(H5Fopen(path.c_str(), H5F_ACC_RDONLY, fapl.get()), H5Fclose);
