@@ -164,8 +164,8 @@ uint64_t little_endian(const unsigned char* p, int bytes) {
 
 // The superblock (HDF5 file format specification, "Superblock"): its
 // signature at byte 0, 512, 1024, ... (after a user block); false when not
-// found. `sb` receives its first 48 bytes, `at` its offset.
-bool read_superblock(std::FILE* f, unsigned char (&sb)[48], long& at) {
+// found. `sb` receives its first 64 bytes, `at` its offset.
+bool read_superblock(std::FILE* f, unsigned char (&sb)[64], long& at) {
   static const unsigned char sig[8] = {0x89, 'H', 'D', 'F', '\r', '\n', 0x1a, '\n'};
   for (at = 0; at <= (1L << 24); at = at ? 2 * at : 512) {
     if (std::fseek(f, at, SEEK_SET) != 0 || std::fread(sb, 1, sizeof sb, f) != sizeof sb) return false;
@@ -176,7 +176,7 @@ bool read_superblock(std::FILE* f, unsigned char (&sb)[48], long& at) {
 
 // Size of lengths: byte 14 of superblock versions 0 and 1, byte 10 of 2 and 3.
 int length_size(std::FILE* f) {
-  unsigned char sb[48];
+  unsigned char sb[64];
   long at = 0;
   if (!read_superblock(f, sb, at)) return 0;
   return sb[8] <= 1 ? sb[14] : sb[10];
@@ -190,7 +190,7 @@ int length_size(std::FILE* f) {
 // finding); a mismatch means a truncated or corrupt file anyway.
 void require_consistent_end_of_file(const std::string& path) {
   std::unique_ptr<std::FILE, int (*)(std::FILE*)> f(std::fopen(path.c_str(), "rb"), std::fclose);
-  unsigned char sb[48];
+  unsigned char sb[64];
   long at = 0;
   if (!f || !read_superblock(f.get(), sb, at) || sb[8] > 3) return;  // H5Fopen reports it
   const bool old_layout = sb[8] <= 1;
@@ -215,7 +215,7 @@ void require_consistent_end_of_file(const std::string& path) {
 // one beyond the collection makes it read past its buffer.
 bool collection_walk_ends(const unsigned char* c, uint64_t n) {
   const uint64_t size = little_endian(c + 8, 8);
-  if (c[4] != 1 || c[5] || c[6] || c[7] || size < 16 || size > n) return true;  // not one HDF5 would load
+  if (c[4] != 1 || size < 16 || size > n) return true;  // not one HDF5 would load (it skips the reserved bytes)
   uint64_t p = 16;
   while (p < size) {
     if (p + 16 > size) break;  // a tail too small for an object header: free space

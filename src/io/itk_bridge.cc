@@ -150,6 +150,18 @@ void check_nifti_geometry(const std::string& path, const std::string& h, bool sw
   }
 }
 
+// Byte order as the NIfTI library decides it: dim[0] (bytes 40..41) of 1 to 7
+// read natively means native order; 0 falls back to sizeof_hdr (348).
+bool nifti_swapped(const std::string& h) {
+  int16_t dim0;
+  std::memcpy(&dim0, h.data() + 40, 2);
+  if (dim0 >= 1 && dim0 <= 7) return false;
+  if (dim0 != 0) return true;
+  int32_t sizeof_hdr;
+  std::memcpy(&sizeof_hdr, h.data(), 4);
+  return sizeof_hdr != 348;
+}
+
 // Run before ITK reads the header: the first 348 bytes of a .nii or .nii.gz.
 void check_nifti_geometry(const std::string& path, bool gz) {
   std::string h;
@@ -163,9 +175,7 @@ void check_nifti_geometry(const std::string& path, bool gz) {
     h = read_prefix(path, 352);
     if (h.size() < 348) return;
   }
-  int32_t sizeof_hdr;
-  std::memcpy(&sizeof_hdr, h.data(), 4);
-  check_nifti_geometry(path, h, sizeof_hdr != 348);
+  check_nifti_geometry(path, h, nifti_swapped(h));
 }
 
 void check_nifti_length(const std::string& path, bool gz, uint64_t need) {
@@ -188,9 +198,7 @@ void check_nifti_length(const std::string& path, bool gz, uint64_t need) {
     total = file_size(path);
     if (data.size() < 348) throw InputError(path, "", "is too short for a NIfTI-1 header");
   }
-  int32_t sizeof_hdr;
-  std::memcpy(&sizeof_hdr, data.data(), 4);
-  const bool swap = sizeof_hdr != 348;
+  const bool swap = nifti_swapped(data);
   const float vox_offset = nifti_float(data, 108, swap);
   if (!std::isfinite(vox_offset) || vox_offset < 0 || vox_offset > 1e9)
     throw InputError(path, "", "the NIfTI header has an invalid vox_offset");

@@ -100,7 +100,9 @@ class MhaHeaderParser {
     } else if (key == "HeaderSize") {
       integer(key, value, -1, 0);
     } else if (kYesNoFields.count(key)) {
-      if (value != "True" && value != "False" && value != "true" && value != "false" && value != "1" && value != "0")
+      // MetaIO takes anything starting with T, t or 1 as yes; only the words
+      // themselves keep the length check of itk_bridge.cc reading it the same way.
+      if (value != "True" && value != "False" && value != "true" && value != "false")
         bad(key, "is '" + value + "'; expected True or False");
     } else if (key == "ObjectType") {
       if (value != "Image") bad(key, "is '" + value + "'; expected Image");

@@ -15,7 +15,7 @@ namespace recofold::internal {
 // NDims 2 or 3 and before every array field; DimSize (NDims positive integers,
 // each at most kMaxAxisLength), the spacing/offset/matrix fields (exactly the
 // NDims or NDims x NDims finite numbers), ElementType a known scalar MET_ type,
-// ElementNumberOfChannels 1 to 4, the yes/no fields True/False, ElementDataFile
+// ElementNumberOfChannels 1 to 4, the yes/no fields True or False, ElementDataFile
 // LOCAL and last, HeaderSize absent or 0/-1. Throws InputError(path, key, what
 // was expected, line) at the first offence. The length of the pixel data is
 // checked against the header afterwards (itk_bridge.cc).
