@@ -12,6 +12,8 @@ PACKAGES=(
   libhdf5-dev libgtest-dev libtomlplusplus-dev
   # zlib: PNG writer and the length checks of compressed NIfTI/MetaImage/NRRD (src/io)
   zlib1g-dev
+  # libpng: PNG import (src/io/png_reader.cc)
+  libpng-dev
   # raw k-space in the ISMRMRD format (src/io/ismrmrd_file.cc) and its reference
   # tools (tests/reference/io_ismrmrd_tools.py)
   libismrmrd-dev ismrmrd-tools

@@ -8,6 +8,8 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <cstring>
+#include <memory>
 #include <sstream>
 #include <type_traits>
 
@@ -152,6 +154,115 @@ hid_t file_type() {
   return -1;
 }
 
+// ------------------------------------------- global heap collections, checked
+
+uint64_t little_endian(const unsigned char* p, int bytes) {
+  uint64_t v = 0;
+  for (int i = bytes - 1; i >= 0; --i) v = (v << 8) | p[i];
+  return v;
+}
+
+// The superblock (HDF5 file format specification, "Superblock"): its
+// signature at byte 0, 512, 1024, ... (after a user block); false when not
+// found. `sb` receives its first 64 bytes, `at` its offset.
+bool read_superblock(std::FILE* f, unsigned char (&sb)[64], long& at) {
+  static const unsigned char sig[8] = {0x89, 'H', 'D', 'F', '\r', '\n', 0x1a, '\n'};
+  for (at = 0; at <= (1L << 24); at = at ? 2 * at : 512) {
+    if (std::fseek(f, at, SEEK_SET) != 0 || std::fread(sb, 1, sizeof sb, f) != sizeof sb) return false;
+    if (std::memcmp(sb, sig, 8) == 0) return true;
+  }
+  return false;
+}
+
+// Size of lengths: byte 14 of superblock versions 0 and 1, byte 10 of 2 and 3.
+int length_size(std::FILE* f) {
+  unsigned char sb[64];
+  long at = 0;
+  if (!read_superblock(f, sb, at)) return 0;
+  return sb[8] <= 1 ? sb[14] : sb[10];
+}
+
+// The base and end-of-file addresses of the superblock (8-byte offsets;
+// versions 0/1: base at byte 24 or 28, the end of file 16 bytes later;
+// versions 2/3: base at 12, end of file at 28) against the file size. HDF5
+// 1.10.8 opens a file that is longer than that address and, when an object
+// lies beyond it, fails inside H5Fopen leaking what it had loaded (a fuzz
+// finding); a mismatch means a truncated or corrupt file anyway.
+void require_consistent_end_of_file(const std::string& path) {
+  std::unique_ptr<std::FILE, int (*)(std::FILE*)> f(std::fopen(path.c_str(), "rb"), std::fclose);
+  unsigned char sb[64];
+  long at = 0;
+  if (!f || !read_superblock(f.get(), sb, at) || sb[8] > 3) return;  // H5Fopen reports it
+  const bool old_layout = sb[8] <= 1;
+  if ((old_layout ? sb[13] : sb[9]) != 8) return;  // offsets of another size: not checked
+  const size_t base_at = sb[8] == 0 ? 24 : sb[8] == 1 ? 28 : 12;
+  const uint64_t base = little_endian(sb + base_at, 8), eof = little_endian(sb + base_at + 16, 8);
+  std::fseek(f.get(), 0, SEEK_END);
+  const uint64_t size = static_cast<uint64_t>(std::ftell(f.get()));
+  if (eof > size || base + eof != size)
+    throw InputError(path, "", "its superblock declares " + std::to_string(eof) + " bytes from byte " +
+                                   std::to_string(base) + ", but the file has " + std::to_string(size) +
+                                   " (truncated or corrupt)");
+}
+
+// True when walking the objects of the collection at `c` (`n` bytes from it
+// to the end of the file) the way HDF5 1.10's loader does ends cleanly. Layout
+// (file format specification, "Global Heap"): "GCOL", version 1, 3 reserved
+// bytes, the collection size; then objects of index (2 bytes), reference count
+// (2), reserved (4), size, data padded to 8 bytes; index 0 is the free space
+// and its size covers the rest. HDF5 advances by that size without checking
+// it: a free-space object of size 0 makes it loop for ever (a fuzz finding),
+// one beyond the collection makes it read past its buffer.
+bool collection_walk_ends(const unsigned char* c, uint64_t n) {
+  const uint64_t size = little_endian(c + 8, 8);
+  if (c[4] != 1 || size < 16 || size > n) return true;  // not one HDF5 would load (it skips the reserved bytes)
+  uint64_t p = 16;
+  while (p < size) {
+    if (p + 16 > size) break;  // a tail too small for an object header: free space
+    const unsigned idx = static_cast<unsigned>(little_endian(c + p, 2));
+    const uint64_t obj = little_endian(c + p + 8, 8);
+    const uint64_t need = idx > 0 ? (obj > size ? size + 1 : 16 + (obj + 7) / 8 * 8) : obj;
+    if (need == 0 || need > size - p) return false;
+    p += need;
+  }
+  return true;
+}
+
+// Throws InputError when a global heap collection of the file (where variable-
+// length strings live) would hang or overrun HDF5's loader; run before the
+// first variable-length read. Collections are found by their signature; files
+// whose lengths are not 8 bytes (not written by recofold or h5py's defaults)
+// are not checked.
+void require_sane_global_heaps(const std::string& path) {
+  std::unique_ptr<std::FILE, int (*)(std::FILE*)> f(std::fopen(path.c_str(), "rb"), std::fclose);
+  if (!f || length_size(f.get()) != 8) return;
+  std::fseek(f.get(), 0, SEEK_END);
+  const long end = std::ftell(f.get());
+  if (end <= 0) return;
+  // The whole file is scanned in blocks that overlap by one collection
+  // header; a collection is checked from a buffer holding it to the end
+  // (HDF5's minimum collection is 4 kB, so most fit in one block).
+  constexpr size_t kBlock = size_t{1} << 20;
+  std::vector<unsigned char> buf;
+  for (long at = 0; at < end; at += static_cast<long>(kBlock)) {
+    const size_t n = static_cast<size_t>(std::min<long>(end - at, static_cast<long>(kBlock) + 16));
+    buf.resize(n);
+    if (std::fseek(f.get(), at, SEEK_SET) != 0 || std::fread(buf.data(), 1, n, f.get()) != n) return;
+    for (size_t i = 0; i + 16 <= n && i < kBlock; ++i) {
+      if (buf[i] != 'G' || std::memcmp(&buf[i], "GCOL", 4) != 0) continue;
+      const uint64_t size = little_endian(&buf[i + 8], 8);
+      const uint64_t rest = static_cast<uint64_t>(end - at) - i;
+      if (size < 16 || size > rest) continue;
+      std::vector<unsigned char> c(static_cast<size_t>(size));
+      if (std::fseek(f.get(), at + static_cast<long>(i), SEEK_SET) != 0 || std::fread(c.data(), 1, c.size(), f.get()) != c.size())
+        return;
+      if (!collection_walk_ends(c.data(), size))
+        throw InputError(path, "", "has a corrupt global heap collection at byte " + std::to_string(at + long(i)) +
+                                       " (where variable-length strings are kept); the file is corrupt");
+    }
+  }
+}
+
 }  // namespace
 
 // ----------------------------------------------------------------- writer
@@ -294,6 +405,14 @@ void H5Writer::commit() {
 struct H5Reader::Impl {
   std::string path;
   Hid file;
+  mutable bool heaps_checked = false;
+
+  // Before the first read of variable-length data.
+  void check_heaps() const {
+    if (heaps_checked) return;
+    require_sane_global_heaps(path);
+    heaps_checked = true;
+  }
 
   [[noreturn]] void bad(const std::string& field, const std::string& reason) const {
     throw InputError(path, field, reason);
@@ -379,8 +498,9 @@ struct H5Reader::Impl {
     silence_hdf5();
     const std::string p = normalise(object);
     if (!link_exists(file.get(), p)) bad(p, "object is missing (looking for attribute '" + name + "')");
-    if (H5Aexists_by_name(file.get(), p.c_str(), name.c_str(), H5P_DEFAULT) <= 0)
-      bad(p, "attribute '" + name + "' is missing");
+    const htri_t e = H5Aexists_by_name(file.get(), p.c_str(), name.c_str(), H5P_DEFAULT);
+    if (e < 0) bad(p, "has an attribute that cannot be decoded (the file is corrupt)");
+    if (e == 0) bad(p, "attribute '" + name + "' is missing");
     Hid a(H5Aopen_by_name(file.get(), p.c_str(), name.c_str(), H5P_DEFAULT, H5P_DEFAULT), H5Aclose);
     if (!a.ok()) bad(p, "cannot open attribute '" + name + "'");
     return a;
@@ -413,6 +533,7 @@ H5Reader::H5Reader(const std::string& path) : impl_(std::make_unique<Impl>()) {
   require_regular_file(path);
   const htri_t is_h5 = H5Fis_hdf5(path.c_str());
   if (is_h5 <= 0) throw InputError(path, "", "is not an HDF5 file (or cannot be read)");
+  require_consistent_end_of_file(path);
   Hid fapl(H5Pcreate(H5P_FILE_ACCESS), H5Pclose);
   H5Pset_fclose_degree(fapl.get(), H5F_CLOSE_STRONG);
   impl_->file = Hid(H5Fopen(path.c_str(), H5F_ACC_RDONLY, fapl.get()), H5Fclose);
@@ -443,7 +564,8 @@ std::vector<std::string> H5Reader::children(const std::string& group) const {
     static_cast<std::vector<std::string>*>(data)->push_back(name);
     return 0;
   };
-  H5Literate(g.get(), H5_INDEX_NAME, H5_ITER_INC, nullptr, cb, &names);
+  if (H5Literate(g.get(), H5_INDEX_NAME, H5_ITER_INC, nullptr, cb, &names) < 0)
+    impl_->bad(p, "its members cannot be listed (the file is corrupt)");
   std::sort(names.begin(), names.end());
   return names;
 }
@@ -502,7 +624,9 @@ NdArray<cfloat> H5Reader::read_complex(const std::string& dataset) const {
 bool H5Reader::has_attr(const std::string& object, const std::string& name) const {
   const std::string p = normalise(object);
   if (!has(p)) return false;
-  return H5Aexists_by_name(impl_->file.get(), p.c_str(), name.c_str(), H5P_DEFAULT) > 0;
+  const htri_t e = H5Aexists_by_name(impl_->file.get(), p.c_str(), name.c_str(), H5P_DEFAULT);
+  if (e < 0) impl_->bad(p, "has an attribute that cannot be decoded (the file is corrupt)");
+  return e > 0;
 }
 
 std::vector<std::string> H5Reader::attr_names(const std::string& object) const {
@@ -510,12 +634,21 @@ std::vector<std::string> H5Reader::attr_names(const std::string& object) const {
   if (!has(p)) impl_->bad(p, "object is missing");
   Hid o(H5Oopen(impl_->file.get(), p.c_str(), H5P_DEFAULT), H5Oclose);
   if (!o.ok()) impl_->bad(p, "cannot open object");
+  // HDF5 1.10.8 iterates over the attributes of an object header (compact
+  // storage, which recofold's and h5py's default files use) through a table of
+  // them; when one attribute message does not decode, it frees the half-built
+  // table, pointers never set included, and crashes (a fuzz finding). Looking
+  // up a name that no attribute has decodes every message one by one and
+  // fails cleanly instead, so that runs first.
+  if (H5Aexists(o.get(), "\x01recofold: no such attribute") < 0)
+    impl_->bad(p, "has an attribute that cannot be decoded (the file is corrupt)");
   std::vector<std::string> names;
   auto cb = [](hid_t, const char* name, const H5A_info_t*, void* data) -> herr_t {
     static_cast<std::vector<std::string>*>(data)->push_back(name);
     return 0;
   };
-  H5Aiterate2(o.get(), H5_INDEX_NAME, H5_ITER_INC, nullptr, cb, &names);
+  if (H5Aiterate2(o.get(), H5_INDEX_NAME, H5_ITER_INC, nullptr, cb, &names) < 0)
+    impl_->bad(p, "its attributes cannot be listed (the file is corrupt)");
   std::sort(names.begin(), names.end());
   return names;
 }
@@ -551,6 +684,7 @@ std::string H5Reader::attr_string(const std::string& object, const std::string& 
     H5Tset_size(mt.get(), H5T_VARIABLE);
     H5Tset_cset(mt.get(), H5Tget_cset(t.get()));
     char* s = nullptr;
+    impl_->check_heaps();
     if (H5Aread(a.get(), mt.get(), &s) < 0) impl_->bad(p, "cannot read attribute '" + name + "'");
     std::string out = s ? s : "";
     H5free_memory(s);

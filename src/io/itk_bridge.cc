@@ -1,7 +1,8 @@
 // SPDX-License-Identifier: Apache-2.0
-// The only translation unit that includes ITK: NIfTI, MetaImage, NRRD and PNG
-// readers, and the NIfTI, MetaImage and NRRD writers. PNG is written by
-// image_export.cc itself (checked writes, no library abort on a full disk).
+// The only translation unit that includes ITK: NIfTI, MetaImage and NRRD
+// readers and writers. PNG is written by image_export.cc itself (checked
+// writes, no library abort on a full disk) and read by png_reader.cc with
+// libpng directly (ITK's PNG reader lets libpng abort on a corrupt chunk).
 #include "itk_bridge.h"
 
 #include <sys/stat.h>
@@ -15,7 +16,6 @@
 #include <itkMetaImageIO.h>
 #include <itkNiftiImageIO.h>
 #include <itkNrrdImageIO.h>
-#include <itkPNGImageIO.h>
 
 #include <algorithm>
 #include <cctype>
@@ -26,6 +26,8 @@
 #include <regex>
 #include <sstream>
 
+#include "mha_header.h"
+#include "png_reader.h"
 #include "recofold/core/error.h"
 #include "recofold/core/provenance.h"
 
@@ -46,7 +48,6 @@ itk::ImageIOBase::Pointer io_for(const std::string& ext) {
   if (ext == ".nii.gz" || ext == ".nii") return itk::NiftiImageIO::New().GetPointer();
   if (ext == ".mha") return itk::MetaImageIO::New().GetPointer();
   if (ext == ".nrrd") return itk::NrrdImageIO::New().GetPointer();
-  if (ext == ".png") return itk::PNGImageIO::New().GetPointer();
   return nullptr;
 }
 
@@ -149,6 +150,18 @@ void check_nifti_geometry(const std::string& path, const std::string& h, bool sw
   }
 }
 
+// Byte order as the NIfTI library decides it: dim[0] (bytes 40..41) of 1 to 7
+// read natively means native order; 0 falls back to sizeof_hdr (348).
+bool nifti_swapped(const std::string& h) {
+  int16_t dim0;
+  std::memcpy(&dim0, h.data() + 40, 2);
+  if (dim0 >= 1 && dim0 <= 7) return false;
+  if (dim0 != 0) return true;
+  int32_t sizeof_hdr;
+  std::memcpy(&sizeof_hdr, h.data(), 4);
+  return sizeof_hdr != 348;
+}
+
 // Run before ITK reads the header: the first 348 bytes of a .nii or .nii.gz.
 void check_nifti_geometry(const std::string& path, bool gz) {
   std::string h;
@@ -162,9 +175,7 @@ void check_nifti_geometry(const std::string& path, bool gz) {
     h = read_prefix(path, 352);
     if (h.size() < 348) return;
   }
-  int32_t sizeof_hdr;
-  std::memcpy(&sizeof_hdr, h.data(), 4);
-  check_nifti_geometry(path, h, sizeof_hdr != 348);
+  check_nifti_geometry(path, h, nifti_swapped(h));
 }
 
 void check_nifti_length(const std::string& path, bool gz, uint64_t need) {
@@ -187,9 +198,7 @@ void check_nifti_length(const std::string& path, bool gz, uint64_t need) {
     total = file_size(path);
     if (data.size() < 348) throw InputError(path, "", "is too short for a NIfTI-1 header");
   }
-  int32_t sizeof_hdr;
-  std::memcpy(&sizeof_hdr, data.data(), 4);
-  const bool swap = sizeof_hdr != 348;
+  const bool swap = nifti_swapped(data);
   const float vox_offset = nifti_float(data, 108, swap);
   if (!std::isfinite(vox_offset) || vox_offset < 0 || vox_offset > 1e9)
     throw InputError(path, "", "the NIfTI header has an invalid vox_offset");
@@ -318,7 +327,7 @@ void write_float_dim(const std::string& file_name, const std::string& target, it
 
 }  // namespace
 
-bool itk_handles(const std::string& ext) { return io_for(ext) != nullptr; }
+bool itk_handles(const std::string& ext) { return ext == ".png" || io_for(ext) != nullptr; }
 
 long long free_bytes_near(const std::string& path) {
   const auto slash = path.find_last_of('/');
@@ -361,12 +370,16 @@ void itk_write_float(const std::string& file_name, const std::string& target, co
 }
 
 PlainImage itk_read(const std::string& path, const std::string& ext, const HeaderCheck& check) {
+  if (ext == ".png") return png_read(path, check);
   quiet_itk();
   auto io = io_for(ext);
   if (!io) throw InputError(path, "", "unsupported extension '" + ext + "'");
   using Img = itk::Image<float, 3>;
   Img::Pointer img;
   unsigned dims = 0;
+  // MetaIO trusts the counts of the header (a malformed one overwrites its
+  // heap): only headers that pass the strict check reach it.
+  if (ext == ".mha") check_metaimage_header(path);
   try {
     if (!io->CanReadFile(path.c_str())) throw InputError(path, "", "is not a readable " + ext + " file");
     io->SetFileName(path);

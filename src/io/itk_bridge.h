@@ -20,7 +20,8 @@ struct PlainImage {
   std::vector<float> values;    // product(size) values, x fastest
 };
 
-// True if ITK handles the (lower-cased) extension: .nii.gz .nii .mha .nrrd .png.
+// True if itk_read handles the (lower-cased) extension: .nii.gz .nii .mha .nrrd
+// (ITK) and .png (libpng, png_reader.h).
 bool itk_handles(const std::string& ext);
 
 // Writes float32 pixels to `file_name` (whose extension picks NIfTI/MetaImage/NRRD).
