@@ -7,6 +7,8 @@
 #include <cmath>
 #include <cstdio>
 #include <memory>
+#include <utility>
+#include <vector>
 
 #include "recofold/core/error.h"
 #include "recofold/ops/joseph_projector.h"
@@ -17,11 +19,11 @@ namespace recofold {
 namespace {
 
 constexpr int kHoldOutEvery = 6;
-// A step counts as an improvement only when it lowers the held-out misfit by
-// more than this fraction; among grid points within this fraction of the
-// smallest misfit the largest lambda is kept (on a plateau, iteration-limited
-// solves barely change and the stronger prior is the safer choice).
-constexpr double kHeldOutTolerance = 1e-3;
+// The walk towards the smallest misfit goes on while a step lowers it by more
+// than this fraction of its standard error (a smaller gain cannot move the
+// one-SE threshold noticeably; it also ends walks over the flat stretch that
+// warm-started, tolerance-limited solves leave at small lambda).
+constexpr double kWalkGainInSe = 0.1;
 
 // The measurement restricted to the given views (sinogram rows and angles).
 Measurement view_subset(const Measurement& m, const std::vector<Index>& views) {
@@ -62,7 +64,53 @@ double frobenius_squared(const LinearOperator& a) {
   return sum / 2.0;
 }
 
+double sum_of(const std::vector<double>& v) {
+  double s = 0.0;
+  for (double d : v) s += d;
+  return s;
+}
+
 }  // namespace
+
+double misfit_standard_error(const std::vector<double>& q) {
+  const size_t n = q.size();
+  if (n < 2) return 0.0;
+  const double mean = sum_of(q) / static_cast<double>(n);
+  double ss = 0.0;
+  for (double d : q) ss += (d - mean) * (d - mean);
+  return std::sqrt(static_cast<double>(n) * ss / static_cast<double>(n - 1));
+}
+
+OneStandardErrorChoice one_standard_error_choice(const std::vector<double>& lambdas,
+                                                 const std::vector<std::vector<double>>& q) {
+  RECOFOLD_CHECK(!lambdas.empty() && lambdas.size() == q.size()) << lambdas.size() << " lambdas, " << q.size();
+  std::vector<double> e(q.size());
+  for (size_t k = 0; k < q.size(); ++k) {
+    RECOFOLD_CHECK(!q[k].empty() && q[k].size() == q[0].size()) << "residuals of lambda " << k;
+    e[k] = sum_of(q[k]);
+  }
+  OneStandardErrorChoice c;
+  c.smallest = static_cast<int>(std::min_element(e.begin(), e.end()) - e.begin());
+  c.standard_error = misfit_standard_error(q[static_cast<size_t>(c.smallest)]);
+  c.threshold = e[static_cast<size_t>(c.smallest)] + c.standard_error;
+  for (size_t k = 0; k < e.size(); ++k) {
+    const bool within = e[k] <= c.threshold;
+    if (within && (c.chosen < 0 || lambdas[k] > lambdas[static_cast<size_t>(c.chosen)])) c.chosen = static_cast<int>(k);
+  }
+  const double lc = lambdas[static_cast<size_t>(c.chosen)];
+  for (size_t k = 0; k < e.size(); ++k)
+    if (lambdas[k] > lc && (c.beyond < 0 || lambdas[k] < lambdas[static_cast<size_t>(c.beyond)]))
+      c.beyond = static_cast<int>(k);
+  c.lambda = lc;
+  if (c.beyond >= 0) {
+    // The crossing E = threshold, E linear in log lambda between the two.
+    const double ec = e[static_cast<size_t>(c.chosen)], eb = e[static_cast<size_t>(c.beyond)];
+    const double lb = lambdas[static_cast<size_t>(c.beyond)];
+    const double t = eb > ec ? std::clamp((c.threshold - ec) / (eb - ec), 0.0, 1.0) : 0.0;
+    c.lambda = std::exp(std::log(lc) + t * (std::log(lb) - std::log(lc)));
+  }
+  return c;
+}
 
 HeldOutChoice choose_lambda_held_out_views(const Measurement& m, const Prior& prior, const SolveFactory& make_solve,
                                            int max_steps, const std::string& file, ProgressSink* progress) {
@@ -92,6 +140,8 @@ HeldOutChoice choose_lambda_held_out_views(const Measurement& m, const Prior& pr
 
   HeldOutChoice c;
   std::vector<VecC> images;
+  std::vector<std::vector<double>> squared;  // per held-out ray, per point
+  std::vector<double> lambdas;
   std::unique_ptr<Prior> p = prior.clone();
   VecC r;
   auto run_at = [&](double lambda, VecC image) {
@@ -106,76 +156,75 @@ HeldOutChoice choose_lambda_held_out_views(const Measurement& m, const Prior& pr
     pt.residual_squared = static_cast<double>(r.squaredNorm());
     ah->apply(image, r);
     r -= yh;
-    pt.score = static_cast<double>(r.squaredNorm());
+    std::vector<double> q(static_cast<size_t>(r.size()));
+    for (Index i = 0; i < r.size(); ++i) q[static_cast<size_t>(i)] = std::norm(r[i]);
+    pt.score = sum_of(q);
     pt.iterations = static_cast<int>(s.iterations.size());
     pt.termination = s.termination;
     pt.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t).count();
     c.curve.points.push_back(pt);
     images.push_back(std::move(image));
+    lambdas.push_back(lambda);
+    const double se = misfit_standard_error(q);
+    squared.push_back(std::move(q));
     if (progress) {
       char buf[96];
       std::snprintf(buf, sizeof buf, "lambda %.3g held-out misfit %.4g", lambda, pt.score);
       progress->update(static_cast<int64_t>(c.curve.points.size()), max_steps, buf);
     }
-    return pt.score;
+    return std::make_pair(pt.score, se);
   };
-  // Walk a x2 grid with warm starts: down from the start while the held-out
-  // misfit falls; when the first step down is already worse, up instead.
-  const double e0 = run_at(start, VecC());
-  double prev = run_at(start * 0.5, images.back());
+  auto budget_left = [&] { return static_cast<int>(c.curve.points.size()) < max_steps; };
+  // Walk a x2 grid with warm starts towards the smallest misfit: down from
+  // the start while the misfit falls by more than kWalkGainInSe of its SE;
+  // when the first step down does not, up instead.
+  const auto first = run_at(start, VecC());
+  auto prev = run_at(start * 0.5, images.back());
   double factor = 0.5, lam = start * 0.5;
   size_t from = 1;
-  if (prev > e0 * (1.0 - kHeldOutTolerance)) {
+  auto gains = [](std::pair<double, double> now, std::pair<double, double> before) {
+    return now.first < before.first - kWalkGainInSe * before.second;
+  };
+  if (!gains(prev, first)) {
     factor = 2.0;
     lam = start;
-    prev = e0;
+    prev = first;
     from = 0;
   }
-  bool stopped = false;
-  while (static_cast<int>(c.curve.points.size()) < max_steps) {
+  bool bracketed = false;
+  while (budget_left()) {
     lam *= factor;
-    const double e = run_at(lam, images[from]);
+    const auto e = run_at(lam, images[from]);
     from = images.size() - 1;
-    if (e > prev * (1.0 - kHeldOutTolerance)) {
-      stopped = true;
+    if (!gains(e, prev)) {
+      bracketed = true;
       break;
     }
     prev = e;
   }
-  // The best grid point and, when it has neighbours on both sides, a
-  // parabola in log lambda through the three misfits.
-  double smallest = c.curve.points[0].score;
-  for (const LambdaPoint& pt : c.curve.points) smallest = std::min(smallest, pt.score);
-  int best = -1;
-  for (size_t k = 0; k < c.curve.points.size(); ++k)
-    if (c.curve.points[k].score <= smallest * (1.0 + kHeldOutTolerance) &&
-        (best < 0 || c.curve.points[k].lambda > c.curve.points[static_cast<size_t>(best)].lambda))
-      best = static_cast<int>(k);
-  c.curve.best = best;
-  const double lb = c.curve.points[static_cast<size_t>(best)].lambda;
-  double below = std::nan(""), above = std::nan("");
-  for (const LambdaPoint& pt : c.curve.points) {
-    if (std::abs(pt.lambda - 0.5 * lb) <= 1e-9 * lb) below = pt.score;
-    if (std::abs(pt.lambda - 2.0 * lb) <= 1e-9 * lb) above = pt.score;
+  // Then up from the largest lambda run until one misfit lies above the one-SE threshold.
+  OneStandardErrorChoice one = one_standard_error_choice(lambdas, squared);
+  while (one.beyond < 0 && budget_left()) {
+    const size_t top = static_cast<size_t>(std::max_element(lambdas.begin(), lambdas.end()) - lambdas.begin());
+    run_at(lambdas[top] * 2.0, images[top]);
+    one = one_standard_error_choice(lambdas, squared);
   }
-  const double eb = c.curve.points[static_cast<size_t>(best)].score;
-  const double h = std::log(2.0);
-  double offset = 0.0;
-  const bool refined = std::isfinite(below) && std::isfinite(above) && (below - 2.0 * eb + above) > 0.0;
-  if (refined) offset = std::clamp(h * (below - above) / (2.0 * (below - 2.0 * eb + above)), -h, h);
-  const double lambda_train = lb * std::exp(offset);
+  c.curve.best = one.chosen;
   const double scale = static_cast<double>(views) / static_cast<double>(train.size());
-  c.lambda = lambda_train * scale;
-  c.warm_start = images[static_cast<size_t>(best)];
-  char buf[560];
+  c.lambda = one.lambda * scale;
+  c.warm_start = images[static_cast<size_t>(one.chosen)];
+  const LambdaPoint& low = c.curve.points[static_cast<size_t>(one.smallest)];
+  char buf[700];
   std::snprintf(buf, sizeof buf,
                 "held-out views: every %dth view (%zu of %lld) held out; %zu solves on the other %zu views on a x2 "
-                "lambda grid from %.4g with warm starts; held-out misfit ||A_h x - y_h||^2 smallest at lambda %.5g "
-                "(%.5g; largest grid lambda within %.1g of the smallest misfit)%s%s; scaled by %lld/%zu for all views: "
-                "lambda = %.5g",
+                "lambda grid from %.4g with warm starts; one-standard-error rule (Hastie, Tibshirani & Friedman, "
+                "sec. 7.10): smallest held-out misfit ||A_h x - y_h||^2 = %.5g at lambda %.5g, its standard error "
+                "%.3g (from the squared residuals of the %lld held-out rays); largest lambda with misfit <= %.5g: "
+                "%.5g%s%s; scaled by %lld/%zu for all views: lambda = %.5g",
                 kHoldOutEvery, held.size(), static_cast<long long>(views), c.curve.points.size(), train.size(), start,
-                lambda_train, eb, kHeldOutTolerance, refined ? ", log-parabola refined" : ", grid point (not refined)",
-                stopped ? "" : ", minimum not bracketed within the solve limit",
+                low.score, low.lambda, one.standard_error, static_cast<long long>(yh.size()), one.threshold,
+                one.lambda, one.beyond >= 0 ? " (interpolated in log lambda to the crossing)" : " (grid point)",
+                bracketed && one.beyond >= 0 ? "" : ", not bracketed within the solve limit",
                 static_cast<long long>(views), train.size(), c.lambda);
   c.rule = buf;
   return c;
