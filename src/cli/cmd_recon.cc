@@ -44,8 +44,9 @@ const char* const kLambdaHelp =
     "||Ax-y||^2 = 2 m sigma^2 with the file's noise sigma and m = sampled points x coils, by a geometric lambda "
     "sweep with warm starts. auto, CT: held-out views (the projector's model error with exact line integrals "
     "exceeds the noise energy, so a discrepancy target is unreachable): every 6th view is held out, the same "
-    "solver runs on the others on a x2 lambda grid with warm starts, the lambda with the smallest held-out "
-    "misfit (log-parabola refined) is scaled by all/training views and used on all views (needs >= 12 views). "
+    "solver runs on the others on a x2 lambda grid with warm starts, and the largest lambda whose held-out misfit "
+    "is within one standard error of the smallest (one-standard-error rule; interpolated in log lambda) is scaled "
+    "by all/training views and used on all views (needs >= 12 views). "
     "The rule and its numbers are stored in the output (lambda_rule, /recon/lambda_curve; `recofold info`)";
 
 // Spec field paths (recon/recon_spec.h) and the flags that set them.

@@ -6,10 +6,11 @@
 # clearly on a 45-view, 1e5-photon QC-disk acquisition at 64^2; and on a
 # physically valid `textured` object at 128^2 (60 views, 1e5 photons), where
 # the non-negativity constraint no longer fights the truth, TV with auto
-# lambda and the box must beat FBP by >= 5 dB. (A numpy prototype of the same
-# experiment reached about +11 dB; with the study's default PDHG settings the
-# gain measured on this case is +5.5 dB, so the gap is an open tuning question,
-# not a property this check asserts.)
+# lambda and the box must beat FBP by >= 8 dB. The held-out rule picks the
+# largest lambda within one standard error of the smallest held-out misfit
+# (the one-standard-error rule): about +8.3 dB here (FBP 31.4 dB, TV auto
+# 39.7 dB, lambda 0.0103; the oracle lambda gives 39.7 too). The rule that
+# kept the held-out minimum reached +5.5 dB.
 import csv
 import os
 import subprocess
@@ -86,7 +87,7 @@ def run(tmp, name, text, need):
 def main():
     with tempfile.TemporaryDirectory() as tmp:
         ok = run(tmp, "st", CONFIG, 3.0)
-        ok = run(tmp, "textured", TEXTURED, 5.0) and ok
+        ok = run(tmp, "textured", TEXTURED, 8.0) and ok
         if not ok:
             sys.exit(1)
 
