@@ -77,6 +77,31 @@ def tiny_flow_training(src, steps=100):
     return cfg
 
 
+def denoise_study_toml(size, family_seed, noise, method):
+    """A one-repetition denoising study of two textured objects (family seed `family_seed`) at the
+    sigmas `noise`, with zero-filled (the noisy image) and FISTA-TV with lambda auto as the baselines
+    and the method table `method` (TOML lines after [[method]]) as the third method."""
+    return f"""
+size = {size}
+repetitions = 1
+seed = 3
+[[phantom]]
+family = "textured"
+count = 2
+seed = {family_seed}
+[denoise]
+noise = {list(noise)}
+[[method]]
+method = "zero-filled"
+[[method]]
+method = "fista"
+prior = "tv"
+lambda = "auto"
+[[method]]
+{method.strip()}
+"""
+
+
 def launcher_free_env(extra=None):
     """This process's environment without MPI launcher and job-array variables (so a test
     decides what the command sees), plus `extra`."""

@@ -20,7 +20,7 @@ import h5py
 import numpy as np
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from _harness import Checks, bad_input_case, must_succeed, recofold  # noqa: E402
+from _harness import Checks, bad_input_case, denoise_study_toml, must_succeed, recofold  # noqa: E402
 
 EXE = os.environ["RECOFOLD_EXE"]
 if os.environ.get("RECOFOLD_TEST_LEARN") == "0":  # set by src/cli/CMakeLists.txt
@@ -106,29 +106,13 @@ with tempfile.TemporaryDirectory() as d:
         check(t.get("modality") == "inpaint" and t.get("keep") == [0.5, 0.7] and t.get("patterns") == ["random"],
               f"inpaint trained_on records keep and patterns: {t}")
 
-    # In a study: the learned denoiser beside TV over two noise levels.
-    study = """
-size = 32
-repetitions = 1
-seed = 3
-[[phantom]]
-family = "textured"
-count = 2
-seed = 700
-[denoise]
-noise = [0.05, 0.1, 0.2]
-[[method]]
-method = "zero-filled"
-[[method]]
-method = "fista"
-prior = "tv"
-lambda = "auto"
-[[method]]
+    # In a study: the learned denoiser beside TV over three noise levels.
+    study = denoise_study_toml(32, 700, [0.05, 0.1, 0.2], '''
 name = "learned"
 method = "unrolled"
 modality = "denoise"
 model = "dn.h5"
-"""
+''')
     open(os.path.join(d, "study.toml"), "w").write(study)
     must_succeed(EXE, ["study", "--config", "study.toml", "--out", "st"], d, check)
     res = os.path.join(d, "st", "results.csv")

@@ -17,7 +17,7 @@ import h5py
 import numpy as np
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from _harness import Checks, bad_input_case, must_succeed, recofold, tiny_flow_training  # noqa: E402
+from _harness import Checks, bad_input_case, denoise_study_toml, must_succeed, recofold, tiny_flow_training  # noqa: E402
 
 EXE = os.environ["RECOFOLD_EXE"]
 SRC = os.environ["RECOFOLD_SOURCE_DIR"]
@@ -69,30 +69,14 @@ with tempfile.TemporaryDirectory() as d:
                                             f"held-out objects: {['%.2f' % x for x in g]}")
 
     # In a study: a [[method]] with prior = "flow" and model = the flow, beside zero-filled and TV.
-    study = """
-size = 16
-repetitions = 1
-seed = 3
-[[phantom]]
-family = "textured"
-count = 2
-seed = 900
-[denoise]
-noise = [0.08]
-[[method]]
-method = "zero-filled"
-[[method]]
-method = "fista"
-prior = "tv"
-lambda = "auto"
-[[method]]
+    study = denoise_study_toml(16, 900, [0.08], '''
 name = "fista-flow"
 method = "fista"
 prior = "flow"
 model = "flow.h5"
 lambda = 0.002
 iters = 30
-"""
+''')
     open(os.path.join(d, "study.toml"), "w").write(study)
     must_succeed(EXE, ["study", "--config", "study.toml", "--out", "st"], d, check)
     res = os.path.join(d, "st", "results.csv")

@@ -16,18 +16,12 @@
 #include "recofold/core/rng.h"
 #include "recofold/io/ismrmrd_file.h"
 #include "recofold/ops/fft.h"
+#include "test_dirs.h"
 
 namespace recofold {
 namespace {
 
-std::string fresh_dir() {
-  std::string tmpl = ::testing::TempDir() + "recofold_raw_import_XXXXXX";
-  std::vector<char> buf(tmpl.begin(), tmpl.end());
-  buf.push_back('\0');
-  const char* d = ::mkdtemp(buf.data());
-  EXPECT_NE(d, nullptr);
-  return std::string(d);
-}
+std::string fresh_dir() { return recofold::testing::fresh_test_dir("recofold_raw_import"); }
 
 RawCartesian blank(Index coils, Index ey, Index ex) {
   RawCartesian r;

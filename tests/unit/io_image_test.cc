@@ -16,18 +16,12 @@
 #include "recofold/io/image_export.h"
 #include "recofold/io/image_file.h"
 #include "recofold/io/measurement_file.h"
+#include "test_dirs.h"
 
 namespace recofold {
 namespace {
 
-std::string fresh_dir() {
-  std::string tmpl = ::testing::TempDir() + "recofold_io_image_XXXXXX";
-  std::vector<char> buf(tmpl.begin(), tmpl.end());
-  buf.push_back('\0');
-  const char* d = ::mkdtemp(buf.data());
-  EXPECT_NE(d, nullptr);
-  return std::string(d);
-}
+std::string fresh_dir() { return recofold::testing::fresh_test_dir("recofold_io_image"); }
 
 std::vector<std::string> list_dir(const std::string& dir) {
   std::vector<std::string> names;

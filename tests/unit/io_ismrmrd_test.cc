@@ -12,6 +12,7 @@
 #include "recofold/core/error.h"
 #include "recofold/io/ismrmrd_file.h"
 #include "unit/ismrmrd_fixtures.h"
+#include "test_dirs.h"
 
 namespace recofold {
 namespace {
@@ -20,14 +21,7 @@ using recofold_test::RawSpec;
 using recofold_test::sample_value;
 using recofold_test::write_raw;
 
-std::string fresh_dir() {
-  std::string tmpl = ::testing::TempDir() + "recofold_io_ismrmrd_XXXXXX";
-  std::vector<char> buf(tmpl.begin(), tmpl.end());
-  buf.push_back('\0');
-  const char* d = ::mkdtemp(buf.data());
-  EXPECT_NE(d, nullptr);
-  return std::string(d);
-}
+std::string fresh_dir() { return recofold::testing::fresh_test_dir("recofold_io_ismrmrd"); }
 
 // The InputError message of reading `path`, or "" when it reads.
 std::string read_error(const std::string& path, const IsmrmrdSelection& sel = {}, std::string* field = nullptr) {

@@ -10,18 +10,12 @@
 #include "recofold/core/error.h"
 #include "recofold/io/h5_file.h"
 #include "recofold/io/trajectory_file.h"
+#include "test_dirs.h"
 
 namespace recofold {
 namespace {
 
-std::string fresh_dir() {
-  std::string tmpl = ::testing::TempDir() + "recofold_io_traj_XXXXXX";
-  std::vector<char> buf(tmpl.begin(), tmpl.end());
-  buf.push_back('\0');
-  const char* d = ::mkdtemp(buf.data());
-  EXPECT_NE(d, nullptr);
-  return std::string(d);
-}
+std::string fresh_dir() { return recofold::testing::fresh_test_dir("recofold_io_traj"); }
 
 Trajectory sample_trajectory() {
   Trajectory t;

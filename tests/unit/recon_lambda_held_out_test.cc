@@ -19,6 +19,13 @@ std::vector<double> rays(int n, double mean, double d) {
   return q;
 }
 
+// One lambda's rays per misfit in `sums` (n rays each, spread d).
+std::vector<std::vector<double>> curve(int n, const std::vector<double>& sums, double d) {
+  std::vector<std::vector<double>> q;
+  for (double s : sums) q.push_back(rays(n, s / n, d));
+  return q;
+}
+
 TEST(LambdaHeldOut, StandardErrorOfTheSumOfSquaredResiduals) {
   const int n = 100;
   const double d = 0.3;
@@ -34,10 +41,7 @@ TEST(LambdaHeldOut, LargestLambdaWithinOneStandardErrorOfTheMinimum) {
   // curve crosses 100 + SE.
   const int n = 100;
   const std::vector<double> lambdas = {1, 2, 4, 8, 16};
-  const std::vector<double> sums = {103, 100, 104, 110, 130};
-  std::vector<std::vector<double>> q;
-  for (double s : sums) q.push_back(rays(n, s / n, 0.5));
-  const OneStandardErrorChoice c = one_standard_error_choice(lambdas, q);
+  const OneStandardErrorChoice c = one_standard_error_choice(lambdas, curve(n, {103, 100, 104, 110, 130}, 0.5));
   const double se = std::sqrt(double(n)) * 0.5 * std::sqrt(n / (n - 1.0));
   EXPECT_EQ(c.smallest, 1);
   EXPECT_EQ(c.chosen, 2);
@@ -55,10 +59,7 @@ TEST(LambdaHeldOut, ASmallStandardErrorKeepsTheMinimumAndOrderDoesNotMatter) {
   // the lambdas may come in any order (the walk adds larger ones last).
   const int n = 100;
   const std::vector<double> lambdas = {4, 16, 1, 8, 2};
-  const std::vector<double> sums = {104, 130, 103, 110, 100};
-  std::vector<std::vector<double>> q;
-  for (double s : sums) q.push_back(rays(n, s / n, 0.001));
-  const OneStandardErrorChoice c = one_standard_error_choice(lambdas, q);
+  const OneStandardErrorChoice c = one_standard_error_choice(lambdas, curve(n, {104, 130, 103, 110, 100}, 0.001));
   EXPECT_EQ(c.smallest, 4);
   EXPECT_EQ(c.chosen, 4);
   EXPECT_EQ(c.beyond, 0);  // lambda 4, the next larger one run
@@ -67,8 +68,7 @@ TEST(LambdaHeldOut, ASmallStandardErrorKeepsTheMinimumAndOrderDoesNotMatter) {
 
 TEST(LambdaHeldOut, NoLargerLambdaRunKeepsTheChosenGridValue) {
   const std::vector<double> lambdas = {1, 2};
-  std::vector<std::vector<double>> q = {rays(50, 1.1, 0.2), rays(50, 1.0, 0.2)};
-  const OneStandardErrorChoice c = one_standard_error_choice(lambdas, q);
+  const OneStandardErrorChoice c = one_standard_error_choice(lambdas, curve(50, {55, 50}, 0.2));
   EXPECT_EQ(c.chosen, 1);
   EXPECT_EQ(c.beyond, -1);
   EXPECT_DOUBLE_EQ(c.lambda, 2.0);
